@@ -1,0 +1,1 @@
+"""Thin OpenMDAO ExplicitComponents, one per discipline, wrapping :mod:`mdao.physics`."""

@@ -1,0 +1,1 @@
+"""Studies built on the public API: calibration, sweeps, sensitivities, uncertainty, scale-out."""
