@@ -1,0 +1,588 @@
+"""Case files: TOML with quantities carrying units, validated and converted to SI.
+
+Every dimensional value is a string with its unit (``"0.55 m"``, ``"45 m/s"``, ``"1.5 h"``,
+``"60000 rpm"``, ``"3 deg"``), read by pint. Any wrong dimension, missing or unknown key, value
+out of range or inconsistent bound raises :class:`CaseError` naming the key, the value and what
+is allowed. docs/case-files.md describes every key.
+"""
+import copy
+import csv
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+
+try:
+    import tomllib
+except ModuleNotFoundError:  # Python 3.10
+    import tomli as tomllib
+
+import numpy as np
+
+from mdao.units import UnitError, to_si
+
+
+class CaseError(ValueError):
+    """Bad case input; the message names the key, the value and what is allowed."""
+
+
+# --- the schema --------------------------------------------------------------------------------
+# Each entry: kind, default (REQUIRED = must be given), check (lo, hi, lo_open, hi_open) or choices.
+REQUIRED = object()
+OPT = None  # optional, no default
+
+INF = math.inf
+
+
+def _q(kind, default=REQUIRED, lo=-INF, hi=INF, lo_open=False, hi_open=False):
+    return {"type": "quantity", "kind": kind, "default": default, "range": (lo, hi, lo_open, hi_open)}
+
+
+def _n(default=REQUIRED, lo=-INF, hi=INF, lo_open=False, hi_open=False):
+    return {"type": "number", "default": default, "range": (lo, hi, lo_open, hi_open)}
+
+
+def _pair(kind="dimensionless", default=REQUIRED, lo=-INF, hi=INF, lo_open=False):
+    return {"type": "pair", "kind": kind, "default": default, "range": (lo, hi, lo_open, False)}
+
+
+SCHEMA = {
+    "wing": {
+        "chord": _q("length", lo=0, lo_open=True),
+        "blown_span": _q("length", lo=0, lo_open=True),
+    },
+    "slot": {
+        "ratio": _n(lo=0, hi=0.2, lo_open=True),
+        "ratio_bounds": _pair(default=OPT, lo=0, hi=0.2, lo_open=True),
+        "min_height": _q("length", default=0.0, lo=0),
+        "suction_ratio": _n(default=OPT, lo=0, hi=0.3, lo_open=True),
+        "max_jet_mach": _n(default=0.5, lo=0, hi=1.0, lo_open=True),
+    },
+    "duct": {
+        "model": {"type": "choice", "choices": ("lumped", "geometric"), "default": "lumped"},
+        "jet_loss_factor": _n(default=OPT, lo=1.0, hi=20.0),
+        "freestream_assist": _n(lo=0.0, hi=5.0),
+        "fans": {"type": "int", "default": 1, "range": (1, 1000, False, False)},
+        "fan_diameter": _q("length", default=OPT, lo=0, lo_open=True),
+        "transition_length": _q("length", default=OPT, lo=0, lo_open=True),
+        "slot_exponent": _n(default=8.0, lo=2.0, hi=100.0),
+        "schedule": {"type": "choice", "choices": ("monotone-area", "linear"),
+                     "default": "monotone-area"},
+        "stations": {"type": "int", "default": 33, "range": (5, 401, False, False)},
+        "roughness": _q("length", default=1.5e-6, lo=0),
+        "bend_loss": _n(default=0.0, lo=0, hi=10),
+        "suction_inlet_loss": _n(default=0.5, lo=0, hi=10),
+        "extra_loss": _n(default=0.0, lo=0, hi=10),
+        "max_diffusion_half_angle": _q("angle", default=math.radians(3.5), lo=0, hi=math.pi / 4,
+                                       lo_open=True),
+    },
+    "fan": {
+        "model": {"type": "choice", "choices": ("constant", "map"), "default": "constant"},
+        "efficiency": _n(default=OPT, lo=0, hi=1, lo_open=True),
+        "motor_efficiency": _n(lo=0, hi=1, lo_open=True),
+        "min_pressure_rise": _q("pressure", default=50.0, lo=0, lo_open=True),
+        "max_pressure_rise": _q("pressure", default=30000.0, lo=0, lo_open=True),
+        "compressible": {"type": "bool", "default": False},
+        "pressure_coefficients": {"type": "list", "length": 3, "default": OPT},
+        "peak_efficiency": _n(default=OPT, lo=0, hi=1, lo_open=True),
+        "peak_flow_coefficient": _n(default=OPT, lo=0, lo_open=True),
+        "efficiency_falloff": _n(default=OPT, lo=0),
+        "flow_coefficient_range": _pair(default=OPT, lo=0, lo_open=True),
+        "max_speed": _q("rotational_speed", default=OPT, lo=0, lo_open=True),
+        "points_file": {"type": "str", "default": OPT},
+    },
+    "airfoil": {
+        "drag_clean": _n(lo=0, hi=1, lo_open=True),
+        "slot_drag": _n(default=0.0, lo=0, hi=1),
+        "slot_drag_per_ratio": _n(default=0.0, lo=0, hi=100),
+        "thrust_leverage": _n(lo=-20, hi=0, hi_open=True),
+        "thrust_leverage_per_ratio": _n(default=0.0, lo=-1000, hi=1000),
+        "drag_quadratic": _n(default=0.0, lo=0, hi=100),
+        "momentum_coefficient_range": _pair(lo=0, hi=2.0, lo_open=True),
+        "lift_per_momentum": _n(default=0.0, lo=-100, hi=100),
+    },
+    "propulsion": {
+        "chain_efficiency": _n(lo=0, hi=1, lo_open=True),
+    },
+    "optimize": {
+        "objective": {"type": "str", "default": "mission-energy"},
+        "max_iterations": {"type": "int", "default": 200, "range": (1, 100000, False, False)},
+        "tolerance": _n(default=1e-9, lo=0, hi=1e-2, lo_open=True),
+    },
+    "review": {
+        "samples": {"type": "int", "default": 2000, "range": (10, 10_000_000, False, False)},
+        "seed": {"type": "int", "default": 12345, "range": (0, 2**63 - 1, False, False)},
+        "band": _n(default=0.1, lo=0, hi=1, lo_open=True),
+        "fan_efficiencies": {"type": "list", "length": None, "default": OPT},
+    },
+    "mass": {
+        "fan_specific_power": _q("specific_power", default=2500.0, lo=0, lo_open=True),
+        "motor_specific_power": _q("specific_power", default=5000.0, lo=0, lo_open=True),
+        "duct_areal_density": _q("areal_density", default=1.2, lo=0),
+        "installation_factor": _n(default=1.2, lo=1, hi=3),
+        "power_margin": _n(default=1.25, lo=1, hi=3),
+    },
+}
+
+SEGMENT = {
+    "name": {"type": "str", "default": REQUIRED},
+    "altitude": _q("length", lo=0, hi=20000),
+    "speed": _q("speed", lo=0, lo_open=True, hi=400),
+    "duration": _q("time", lo=0, lo_open=True),
+    "blowing": {"type": "bool", "default": True},
+    "momentum_coefficient": _n(default=OPT, lo=0, hi=2.0, lo_open=True),
+}
+
+TOP_LEVEL = {"title", "segment", "calibration", "uncertainty"} | set(SCHEMA)
+
+#: Model constants a calibration may fill (case key paths).
+CALIBRATED = ("duct.jet_loss_factor", "duct.freestream_assist", "airfoil.drag_clean",
+              "airfoil.slot_drag", "airfoil.slot_drag_per_ratio", "airfoil.thrust_leverage",
+              "airfoil.thrust_leverage_per_ratio", "airfoil.lift_per_momentum",
+              "airfoil.momentum_coefficient_range")
+
+DISTRIBUTIONS = {"normal": ("sd",), "uniform": ("low", "high")}
+
+
+def _fmt_range(lo, hi, lo_open, hi_open):
+    left = "(" if lo_open else "["
+    right = ")" if hi_open else "]"
+    return f"{left}{lo:g}, {hi:g}{right}"
+
+
+def _check_range(key, value, spec, shown):
+    lo, hi, lo_open, hi_open = spec["range"]
+    bad = (value < lo or value > hi or (lo_open and value == lo) or (hi_open and value == hi)
+           or (isinstance(value, float) and math.isnan(value)))
+    if bad:
+        unit = spec.get("kind", "")
+        suffix = "" if unit in ("", "dimensionless", None) else f" (in SI, {unit})"
+        raise CaseError(f"{key} = {shown!r} is out of range: allowed "
+                        f"{_fmt_range(lo, hi, lo_open, hi_open)}{suffix}")
+
+
+def _read_value(key, raw, spec):
+    typ = spec["type"]
+    if typ == "quantity":
+        if not isinstance(raw, str):
+            if isinstance(raw, (int, float)) and not isinstance(raw, bool) and raw == 0:
+                value = 0.0
+            else:
+                raise CaseError(f"{key} = {raw!r}: give a quantity with units as a string, "
+                                f"e.g. \"{_example(spec['kind'])}\"")
+        else:
+            try:
+                value = to_si(raw, spec["kind"])
+            except UnitError as exc:
+                raise CaseError(f"{key}: {exc}") from None
+        _check_range(key, value, spec, raw)
+        return value
+    if typ == "number":
+        if isinstance(raw, bool) or not isinstance(raw, (int, float)):
+            if isinstance(raw, str):
+                try:
+                    value = to_si(raw, "dimensionless")
+                except UnitError as exc:
+                    raise CaseError(f"{key} = {raw!r}: a pure number is allowed ({exc})") from None
+            else:
+                raise CaseError(f"{key} = {raw!r}: a number is allowed")
+        else:
+            value = float(raw)
+        _check_range(key, value, spec, raw)
+        return value
+    if typ == "int":
+        if isinstance(raw, bool) or not isinstance(raw, int):
+            raise CaseError(f"{key} = {raw!r}: an integer is allowed")
+        _check_range(key, raw, spec, raw)
+        return raw
+    if typ == "bool":
+        if not isinstance(raw, bool):
+            raise CaseError(f"{key} = {raw!r}: true or false is allowed")
+        return raw
+    if typ == "str":
+        if not isinstance(raw, str):
+            raise CaseError(f"{key} = {raw!r}: a string is allowed")
+        return raw
+    if typ == "choice":
+        if raw not in spec["choices"]:
+            raise CaseError(f"{key} = {raw!r}: allowed values are "
+                            + ", ".join(f'"{c}"' for c in spec["choices"]))
+        return raw
+    if typ == "list":
+        if not isinstance(raw, list) or (spec["length"] and len(raw) != spec["length"]):
+            raise CaseError(f"{key} = {raw!r}: a list of {spec['length'] or 'some'} numbers "
+                            "is allowed")
+        if not all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in raw):
+            raise CaseError(f"{key} = {raw!r}: every entry must be a number")
+        return [float(v) for v in raw]
+    if typ == "pair":
+        if not isinstance(raw, list) or len(raw) != 2:
+            raise CaseError(f"{key} = {raw!r}: a list of two values [low, high] is allowed")
+        sub = dict(spec, type="quantity" if spec["kind"] != "dimensionless" else "number")
+        lo = _read_value(f"{key}[0]", raw[0], sub)
+        hi = _read_value(f"{key}[1]", raw[1], sub)
+        if not lo < hi:
+            raise CaseError(f"{key} = {raw!r}: the low bound must be below the high bound")
+        return (lo, hi)
+    raise AssertionError(typ)
+
+
+def _example(kind):
+    return {"length": "0.5 m", "speed": "40 m/s", "time": "1 h", "pressure": "500 Pa",
+            "angle": "3 deg", "rotational_speed": "30000 rpm", "specific_power": "2 kW/kg",
+            "areal_density": "1.5 kg/m**2"}.get(kind, "1")
+
+
+def _read_table(name, raw, schema):
+    if not isinstance(raw, dict):
+        raise CaseError(f"[{name}] must be a table, got {raw!r}")
+    unknown = sorted(set(raw) - set(schema))
+    if unknown:
+        raise CaseError(f"{name}.{unknown[0]}: unknown key; allowed keys in [{name}] are "
+                        + ", ".join(sorted(schema)))
+    out = {}
+    for key, spec in schema.items():
+        full = f"{name}.{key}"
+        if key in raw:
+            out[key] = _read_value(full, raw[key], spec)
+        elif spec["default"] is REQUIRED:
+            raise CaseError(f"{full} is missing (required)")
+        else:
+            out[key] = spec["default"]
+    return out
+
+
+@dataclass
+class Case:
+    """A validated case, every value in SI (see docs/case-files.md)."""
+
+    title: str
+    wing: dict
+    slot: dict
+    duct: dict
+    fan: dict
+    airfoil: dict
+    propulsion: dict
+    segments: list
+    optimize: dict
+    review: dict
+    mass: dict
+    uncertainty: dict = field(default_factory=dict)
+    calibration: dict = None
+    path: Path = None
+    text: str = ""
+
+    @property
+    def blowing(self):
+        """Per segment: does the fan run?"""
+        return np.array([s["blowing"] for s in self.segments], bool)
+
+    @property
+    def segment_names(self):
+        return [s["name"] for s in self.segments]
+
+    def value(self, key):
+        """Value at a case key path: ``"duct.jet_loss_factor"`` or ``"segment.cruise.speed"``."""
+        parts = key.split(".")
+        if parts[0] == "segment":
+            return self._segment(parts[1], key)[parts[2]]
+        table = getattr(self, parts[0], None)
+        if not isinstance(table, dict) or parts[1] not in table:
+            raise CaseError(f"{key}: no such case key")
+        return table[parts[1]]
+
+    def _segment(self, name, key):
+        for seg in self.segments:
+            if seg["name"] == name:
+                return seg
+        raise CaseError(f"{key}: no segment named {name!r}; segments are "
+                        + ", ".join(self.segment_names))
+
+    def replace(self, values):
+        """A copy with ``{key path: value}`` replaced (values in SI)."""
+        new = copy.deepcopy(self)
+        for key, val in values.items():
+            parts = key.split(".")
+            if parts[0] == "segment":
+                new._segment(parts[1], key)[parts[2]] = val
+            else:
+                getattr(new, parts[0])[parts[1]] = val
+        return new
+
+
+def load_case(path):
+    """Read, validate and convert a TOML case file.
+
+    Parameters
+    ----------
+    path : str or Path
+        The case file.
+
+    Returns
+    -------
+    Case
+        Every value in SI units.
+
+    Raises
+    ------
+    CaseError
+        For any bad input, naming the key, the value and what is allowed.
+    """
+    path = Path(path)
+    try:
+        text = path.read_text(encoding="utf-8")
+    except OSError as exc:
+        raise CaseError(f"cannot read the case file {str(path)!r}: {exc.strerror}") from None
+    try:
+        raw = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise CaseError(f"{path.name} is not valid TOML: {exc}") from None
+    return parse_case(raw, base=path.parent, path=path, text=text)
+
+
+def parse_case(raw, base=Path("."), path=None, text=""):
+    """Validate a case given as a dict (as TOML reads it); see :func:`load_case`."""
+    unknown = sorted(set(raw) - TOP_LEVEL)
+    if unknown:
+        raise CaseError(f"{unknown[0]}: unknown top-level key; allowed: " + ", ".join(sorted(TOP_LEVEL)))
+    if not isinstance(raw.get("title"), str) or not raw["title"].strip():
+        raise CaseError("title is missing (required: a one-line description of the case)")
+    raw = copy.deepcopy(raw)
+    calibration = None
+    if "calibration" in raw:
+        calibration = _apply_calibration(raw, base)
+    tables = {}
+    for name, schema in SCHEMA.items():
+        tables[name] = _read_table(name, raw.get(name, {}), schema)
+    segs = raw.get("segment")
+    if not isinstance(segs, list) or not segs:
+        raise CaseError("segment is missing: give at least one [[segment]] table")
+    segments = [_read_table(f"segment[{i}]", s, SEGMENT) for i, s in enumerate(segs)]
+    names = [s["name"] for s in segments]
+    dup = {n for n in names if names.count(n) > 1}
+    if dup:
+        raise CaseError(f"segment.name = {sorted(dup)[0]!r} is used twice; names must be unique")
+    case = Case(title=raw["title"], segments=segments, calibration=calibration, path=path,
+                text=text, **tables)
+    _check_consistency(case, base)
+    case.uncertainty = _read_uncertainty(raw.get("uncertainty", {}), case)
+    return case
+
+
+def _apply_calibration(raw, base):
+    from mdao.studies.calibration import load_fragment
+
+    table = raw.pop("calibration")
+    if not isinstance(table, dict) or set(table) != {"file"} or not isinstance(table["file"], str):
+        raise CaseError(f"calibration = {table!r}: allowed is a table with one key, file = \"PATH\"")
+    fpath = (base / table["file"]).resolve()
+    try:
+        frag = load_fragment(fpath)
+    except FileNotFoundError:
+        raise CaseError(f"calibration.file = {table['file']!r}: no such file ({fpath})") from None
+    except Exception as exc:
+        raise CaseError(f"calibration.file = {table['file']!r}: cannot read it ({exc})") from None
+    for key, value in frag["constants"].items():
+        section, name = key.split(".")
+        target = raw.setdefault(section, {})
+        if name in target:
+            raise CaseError(f"{key} is set both in the case and in the calibration "
+                            f"{table['file']!r}; remove one")
+        target[name] = value
+    validity = frag.get("validity", {})
+    cmu = validity.get("momentum_coefficient_range")
+    if cmu is not None and "momentum_coefficient_range" not in raw.setdefault("airfoil", {}):
+        raw["airfoil"]["momentum_coefficient_range"] = list(cmu)
+    frag["file"] = str(fpath)
+    return frag
+
+
+def _check_consistency(case, base):
+    d, f, s = case.duct, case.fan, case.slot
+    geometric = d["model"] == "geometric"
+    if geometric:
+        for key in ("fan_diameter", "transition_length"):
+            if d[key] is None:
+                raise CaseError(f"duct.{key} is missing (required when duct.model = \"geometric\")")
+        if s["suction_ratio"] is None:
+            raise CaseError("slot.suction_ratio is missing (required when duct.model = \"geometric\")")
+        if d["jet_loss_factor"] is not None:
+            raise CaseError("duct.jet_loss_factor is set, but duct.model = \"geometric\" builds it "
+                            "from the geometry; use duct.extra_loss to adjust it")
+    elif d["jet_loss_factor"] is None:
+        raise CaseError("duct.jet_loss_factor is missing (required when duct.model = \"lumped\")")
+    if f["model"] == "constant":
+        if f["efficiency"] is None:
+            raise CaseError("fan.efficiency is missing (required when fan.model = \"constant\")")
+    else:
+        if d["fan_diameter"] is None:
+            raise CaseError("duct.fan_diameter is missing (required when fan.model = \"map\")")
+        if f["points_file"] is not None:
+            _fit_fan_points(case, base)
+        for key in ("pressure_coefficients", "peak_efficiency", "peak_flow_coefficient",
+                    "efficiency_falloff", "flow_coefficient_range", "max_speed"):
+            if f[key] is None:
+                raise CaseError(f"fan.{key} is missing (required when fan.model = \"map\" "
+                                "without a points_file)")
+        if f["pressure_coefficients"][0] <= 0:
+            raise CaseError(f"fan.pressure_coefficients = {f['pressure_coefficients']!r}: the "
+                            "first coefficient (shut-off pressure coefficient) must be > 0")
+    if f["min_pressure_rise"] >= f["max_pressure_rise"]:
+        raise CaseError(f"fan.min_pressure_rise = {f['min_pressure_rise']:g} Pa must be below "
+                        f"fan.max_pressure_rise = {f['max_pressure_rise']:g} Pa")
+    ratio, bounds = s["ratio"], s["ratio_bounds"]
+    if bounds is not None and not bounds[0] <= ratio <= bounds[1]:
+        raise CaseError(f"slot.ratio = {ratio!r} is outside slot.ratio_bounds = {list(bounds)!r}")
+    chord = case.wing["chord"]
+    low_ratio = bounds[0] if bounds is not None else ratio
+    high_ratio = bounds[1] if bounds is not None else ratio
+    if high_ratio * chord < s["min_height"]:
+        raise CaseError(f"slot.min_height = {s['min_height'] * 1e3:g} mm cannot be met: the largest "
+                        f"slot ratio {high_ratio:g} on a {chord:g} m chord gives "
+                        f"{high_ratio * chord * 1e3:g} mm")
+    if bounds is None and low_ratio * chord < s["min_height"]:
+        raise CaseError(f"slot.ratio = {ratio!r} gives a slot below slot.min_height")
+    lo, hi = case.airfoil["momentum_coefficient_range"]
+    for seg in case.segments:
+        c = seg["momentum_coefficient"]
+        if c is not None and not lo <= c <= hi:
+            raise CaseError(f"segment {seg['name']!r}: momentum_coefficient = {c!r} is outside "
+                            f"airfoil.momentum_coefficient_range = [{lo:g}, {hi:g}]")
+    if not case.blowing.any():
+        raise CaseError("segment.blowing: no segment has blowing = true; nothing to optimize")
+    obj = case.optimize["objective"]
+    if obj != "mission-energy":
+        if not obj.startswith("segment:") or obj[8:] not in case.segment_names:
+            raise CaseError(f"optimize.objective = {obj!r}: allowed are \"mission-energy\" or "
+                            f"\"segment:NAME\" with NAME one of " + ", ".join(case.segment_names))
+        if not case.segments[case.segment_names.index(obj[8:])]["blowing"]:
+            raise CaseError(f"optimize.objective = {obj!r}: that segment has blowing = false")
+    if case.review["fan_efficiencies"] is not None:
+        if not all(0 < e <= 1 for e in case.review["fan_efficiencies"]):
+            raise CaseError(f"review.fan_efficiencies = {case.review['fan_efficiencies']!r}: each "
+                            "must be in (0, 1]")
+
+
+def _fit_fan_points(case, base):
+    """Fit the fan map from a CSV of measured points (columns with units in brackets)."""
+    from mdao.physics import fan
+
+    f = case.fan
+    fpath = base / f["points_file"]
+    kinds = {"volume_flow": "volume_flow", "pressure_rise": "pressure",
+             "speed": "rotational_speed", "efficiency": "dimensionless",
+             "electrical_power": "power", "density": "density"}
+    cols = read_unit_csv(fpath, kinds, key="fan.points_file")
+    for need in ("volume_flow", "pressure_rise", "speed"):
+        if need not in cols:
+            raise CaseError(f"fan.points_file {f['points_file']!r}: column {need!r} is missing")
+    if ("efficiency" in cols) == ("electrical_power" in cols):
+        raise CaseError(f"fan.points_file {f['points_file']!r}: give exactly one of the columns "
+                        "'efficiency' or 'electrical_power'")
+    density = cols.get("density", np.full_like(cols["speed"], 1.225))
+    try:
+        fmap, _ = fan.fit_points(cols["volume_flow"], cols["pressure_rise"], cols["speed"], density,
+                                 case.duct["fan_diameter"], efficiency=cols.get("efficiency"),
+                                 electrical_power=cols.get("electrical_power"),
+                                 motor_efficiency=f["motor_efficiency"])
+    except ValueError as exc:
+        raise CaseError(f"fan.points_file {f['points_file']!r}: {exc}") from None
+    for key in ("pressure_coefficients", "peak_efficiency", "peak_flow_coefficient",
+                "efficiency_falloff", "flow_coefficient_range"):
+        if f[key] is not None:
+            raise CaseError(f"fan.{key} is given and fan.points_file too; give one of them")
+        value = getattr(fmap, key)
+        f[key] = list(map(float, value)) if key == "pressure_coefficients" else (
+            tuple(map(float, value)) if key == "flow_coefficient_range" else float(value))
+
+
+def read_unit_csv(path, kinds, key):
+    """Read a CSV whose header names each column with its unit in brackets.
+
+    Returns ``{column: ndarray in SI}``; raises CaseError naming the column or the row.
+    """
+    from mdao.units import registry, unit_of
+
+    try:
+        with open(path, newline="", encoding="utf-8") as fh:
+            rows = list(csv.reader(fh))
+    except OSError as exc:
+        raise CaseError(f"{key}: cannot read {str(path)!r}: {exc.strerror}") from None
+    if len(rows) < 2:
+        raise CaseError(f"{key}: {str(path)!r} has no data rows")
+    out = {}
+    for j, head in enumerate(rows[0]):
+        name, _, unit = head.strip().partition("[")
+        name = name.strip()
+        unit = unit.rstrip("]").strip() or "dimensionless"
+        if name not in kinds:
+            raise CaseError(f"{key}: unknown column {name!r}; allowed: " + ", ".join(kinds))
+        if name in out:
+            raise CaseError(f"{key}: column {name!r} appears twice")
+        try:
+            u = unit_of("" if unit in ("-", "dimensionless") else unit)
+        except UnitError as exc:
+            raise CaseError(f"{key}: column {name!r}: {exc}") from None
+        values = []
+        for i, row in enumerate(rows[1:], start=1):
+            try:
+                values.append(float(row[j]))
+            except (ValueError, IndexError):
+                raise CaseError(f"{key}: row {i}, column {name!r}: not a number") from None
+        arr = np.array(values)
+        if not np.all(np.isfinite(arr)):
+            raise CaseError(f"{key}: column {name!r} holds NaN or infinity")
+        try:
+            out[name] = np.array([to_si(registry().Quantity(v, u), kinds[name]) for v in arr]) \
+                if u != registry().dimensionless else arr
+        except UnitError as exc:
+            raise CaseError(f"{key}: column {name!r}: {exc}") from None
+    return out
+
+
+def _read_uncertainty(raw, case):
+    if not isinstance(raw, dict):
+        raise CaseError(f"uncertainty = {raw!r}: a table of \"key.path\" = {{ distribution = ..., ... }}")
+    out = {}
+    for key, spec in raw.items():
+        try:
+            base = case.value(key)
+        except (CaseError, KeyError, IndexError):
+            raise CaseError(f"uncertainty.\"{key}\": not a case key path (e.g. "
+                            "\"airfoil.thrust_leverage\" or \"segment.NAME.speed\")") from None
+        if not isinstance(base, (int, float)) or isinstance(base, bool):
+            raise CaseError(f"uncertainty.\"{key}\": only numeric case values can be uncertain")
+        if not isinstance(spec, dict) or spec.get("distribution") not in DISTRIBUTIONS:
+            raise CaseError(f"uncertainty.\"{key}\" = {spec!r}: give distribution = "
+                            + " or ".join(f'"{d}"' for d in DISTRIBUTIONS))
+        need = DISTRIBUTIONS[spec["distribution"]]
+        extra = set(spec) - set(need) - {"distribution"}
+        if extra or any(k not in spec for k in need):
+            raise CaseError(f"uncertainty.\"{key}\": a {spec['distribution']} distribution takes "
+                            + ", ".join(need))
+        vals = {}
+        for k in need:
+            v = spec[k]
+            if isinstance(v, str):
+                v = _quantity_like(key, k, v, base)
+            if isinstance(v, bool) or not isinstance(v, (int, float)):
+                raise CaseError(f"uncertainty.\"{key}\".{k} = {v!r}: a number is allowed")
+            vals[k] = float(v)
+        if spec["distribution"] == "normal" and not vals["sd"] > 0:
+            raise CaseError(f"uncertainty.\"{key}\".sd = {vals['sd']!r}: must be > 0")
+        if spec["distribution"] == "uniform" and not vals["low"] < vals["high"]:
+            raise CaseError(f"uncertainty.\"{key}\": low must be below high")
+        out[key] = {"distribution": spec["distribution"], **vals}
+    return out
+
+
+KEY_KINDS = {"chord": "length", "blown_span": "length", "altitude": "length", "speed": "speed",
+             "duration": "time", "fan_diameter": "length", "transition_length": "length",
+             "roughness": "length", "min_pressure_rise": "pressure"}
+
+
+def _quantity_like(key, sub, text, base):
+    kind = KEY_KINDS.get(key.split(".")[-1], "dimensionless")
+    try:
+        return to_si(text, kind)
+    except UnitError as exc:
+        raise CaseError(f"uncertainty.\"{key}\".{sub}: {exc}") from None

@@ -1,0 +1,23 @@
+"""Index helpers for declaring sparse partials of node-wise components."""
+import numpy as np
+
+
+def diagonal(n):
+    """rows, cols of an (n x n) diagonal block: node i depends on node i of the input."""
+    nodes = np.arange(n)
+    return nodes, nodes
+
+
+def column(n):
+    """rows, cols of an (n x 1) block: every node depends on one wing-level (scalar) input."""
+    return np.arange(n), np.zeros(n, int)
+
+
+def full(n, m):
+    """rows, cols of a dense (n x m) block, row-major."""
+    return np.repeat(np.arange(n), m), np.tile(np.arange(m), n)
+
+
+def broadcast(value, n):
+    """A partial returned by the physics (array or scalar) as n values for rows/cols."""
+    return np.broadcast_to(np.asarray(value, float), (n,))

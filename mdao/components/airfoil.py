@@ -1,0 +1,100 @@
+"""Blown-section drag, its saving against the clean wing, and lift increment (wraps
+:mod:`mdao.physics.airfoil`)."""
+import numpy as np
+import openmdao.api as om
+
+from mdao.physics import airfoil as phys
+
+AIRFOIL_CITE = """@incollection{englar2001,
+  author = {Englar, R. J.},
+  title = {Circulation control pneumatic aerodynamics: blown force and moment augmentation and
+           modification},
+  booktitle = {Applications of Circulation Control Technology}, series = {AIAA Progress in
+               Astronautics and Aeronautics}, volume = {192}, year = {2001}}"""
+
+# Scalar calibration inputs of the drag model, in the order of physics.airfoil.drag_coefficient.
+_CONSTANTS = {'slot_ratio': 0.01, 'drag_clean': 0.012, 'slot_drag': 0.02,
+              'slot_drag_per_ratio': 0.0, 'thrust_leverage': -1.2,
+              'thrust_leverage_per_ratio': 0.0, 'drag_quadratic': 0.0}
+
+
+class AirfoilComp(om.ExplicitComponent):
+    """Drag coefficient and drag of the blown span at each node, and the saving against clean.
+
+    drag = q c b C_D, clean_drag = q c b C_D,clean, drag_saving = clean_drag - drag (positive when
+    blowing helps), lift_increment = (dC_L/dC_mu) C_mu.
+    """
+
+    cite = AIRFOIL_CITE
+
+    def initialize(self):
+        self.options.declare('num_nodes', types=int, default=1, lower=1, desc='operating points')
+
+    def setup(self):
+        n = self.options['num_nodes']
+        self.add_input('momentum_coefficient', 0.03 * np.ones(n), units=None, desc='C_mu')
+        self.add_input('dynamic_pressure', 1000.0 * np.ones(n), units='Pa', desc='freestream q')
+        for name, value in _CONSTANTS.items():
+            self.add_input(name, value, units=None, desc=f'{name.replace("_", " ")} (calibration)')
+        self.add_input('chord', 0.5, units='m', desc='chord of the blown section')
+        self.add_input('blown_span', 1.0, units='m', desc='span with blowing')
+        self.add_input('lift_per_momentum', 0.0, units=None, desc='dC_L/dC_mu')
+        self.add_output('drag_coefficient', 0.0 * np.ones(n), units=None, desc='blown C_D')
+        self.add_output('drag', 0.0 * np.ones(n), units='N', desc='drag of the blown span')
+        self.add_output('clean_drag', 0.0 * np.ones(n), units='N', desc='drag if clean')
+        self.add_output('drag_saving', 0.0 * np.ones(n), units='N', desc='clean_drag - drag')
+        self.add_output('lift_increment', 0.0 * np.ones(n), units=None, desc='lift coefficient gain')
+
+    def setup_partials(self):
+        n = self.options['num_nodes']
+        nodes, zeros = np.arange(n), np.zeros(n, int)
+        for of in ('drag_coefficient', 'drag', 'drag_saving'):
+            self.declare_partials(of, 'momentum_coefficient', rows=nodes, cols=nodes)
+            for wrt in _CONSTANTS:
+                if not (of == 'drag_saving' and wrt == 'drag_clean'):   # it cancels exactly
+                    self.declare_partials(of, wrt, rows=nodes, cols=zeros)
+        for of in ('drag', 'drag_saving'):
+            self.declare_partials(of, 'dynamic_pressure', rows=nodes, cols=nodes)
+            self.declare_partials(of, ['chord', 'blown_span'], rows=nodes, cols=zeros)
+        self.declare_partials('clean_drag', 'dynamic_pressure', rows=nodes, cols=nodes)
+        self.declare_partials('clean_drag', ['drag_clean', 'chord', 'blown_span'], rows=nodes,
+                              cols=zeros)
+        self.declare_partials('lift_increment', 'momentum_coefficient', rows=nodes, cols=nodes)
+        self.declare_partials('lift_increment', 'lift_per_momentum', rows=nodes, cols=zeros)
+
+    def _increment(self, inputs, derivatives=False):
+        """C_D - C_D,clean (slot penalty, blowing and quadratic terms), free of drag_clean so
+        that the saving does not depend on it even by rounding."""
+        args = {k: inputs[k][0] for k in _CONSTANTS}
+        args['drag_clean'] = 0.0
+        return phys.drag_coefficient(inputs['momentum_coefficient'], **args,
+                                     derivatives=derivatives)
+
+    def compute(self, inputs, outputs):
+        dcd = self._increment(inputs)
+        area_q = inputs['dynamic_pressure'] * inputs['chord'][0] * inputs['blown_span'][0]
+        outputs['drag_coefficient'] = inputs['drag_clean'][0] + dcd
+        outputs['drag'] = area_q * outputs['drag_coefficient']
+        outputs['clean_drag'] = area_q * inputs['drag_clean'][0]
+        outputs['drag_saving'] = -area_q * dcd
+        outputs['lift_increment'] = phys.lift_increment(inputs['momentum_coefficient'],
+                                                        inputs['lift_per_momentum'][0])
+
+    def compute_partials(self, inputs, partials):
+        inc, dinc = self._increment(inputs, derivatives=True)
+        q, c, b = inputs['dynamic_pressure'], inputs['chord'][0], inputs['blown_span'][0]
+        cd0 = inputs['drag_clean'][0]
+        area_q = q * c * b
+        for wrt, value in dinc.items():     # d(C_D)/d(drag_clean) = 1 comes from phys as well
+            partials['drag_coefficient', wrt] = value
+            partials['drag', wrt] = area_q * value
+            if wrt != 'drag_clean':
+                partials['drag_saving', wrt] = -area_q * value
+        for of, coef in (('drag', cd0 + inc), ('drag_saving', -inc), ('clean_drag', cd0)):
+            partials[of, 'dynamic_pressure'] = c * b * coef
+            partials[of, 'chord'] = q * b * coef
+            partials[of, 'blown_span'] = q * c * coef
+        partials['clean_drag', 'drag_clean'] = area_q
+        partials['lift_increment', 'momentum_coefficient'] = (
+            inputs['lift_per_momentum'][0] * np.ones_like(q))
+        partials['lift_increment', 'lift_per_momentum'] = inputs['momentum_coefficient']

@@ -1,0 +1,71 @@
+"""Jet kinematics component (wraps :func:`mdao.physics.jet.kinematics`)."""
+import numpy as np
+import openmdao.api as om
+
+from mdao.components._sparsity import broadcast, column, diagonal
+from mdao.physics import jet
+
+NODE_INPUTS = ("momentum_coefficient", "speed", "density", "speed_of_sound")
+WING_INPUTS = ("slot_ratio", "chord", "blown_span")
+
+
+class JetComp(om.ExplicitComponent):
+    """Dynamic pressure, jet velocity, mass and volume flow and jet Mach number at each node."""
+
+    cite = "Englar, R. J. Circulation control pneumatic aerodynamics. AIAA PA&A 192 (2001)."
+
+    def initialize(self):
+        self.options.declare("num_nodes", types=int, default=1, lower=1, desc="operating points")
+
+    def setup(self):
+        n = self.options["num_nodes"]
+        self.add_input("momentum_coefficient", val=0.03 * np.ones(n), desc="momentum coefficient")
+        self.add_input("speed", val=40.0 * np.ones(n), units="m/s", desc="flight speed")
+        self.add_input("density", val=1.225 * np.ones(n), units="kg/m**3", desc="air density")
+        self.add_input("speed_of_sound", val=340.294 * np.ones(n), units="m/s")
+        self.add_input("slot_ratio", val=0.01, desc="injection slot height over chord")
+        self.add_input("chord", val=0.5, units="m")
+        self.add_input("blown_span", val=1.0, units="m")
+        self.add_output("dynamic_pressure", val=1000.0 * np.ones(n), units="Pa")
+        self.add_output("jet_velocity", val=50.0 * np.ones(n), units="m/s")
+        self.add_output("mass_flow", val=0.3 * np.ones(n), units="kg/s")
+        self.add_output("volume_flow", val=0.25 * np.ones(n), units="m**3/s")
+        self.add_output("jet_mach", val=0.15 * np.ones(n))
+        self.add_output("slot_height", val=0.005, units="m")
+
+    def setup_partials(self):
+        n = self.options["num_nodes"]
+        self._pairs = []
+        for (of, wrt) in _dependencies():
+            if of == "slot_height":
+                self.declare_partials(of, wrt)
+            elif wrt in WING_INPUTS:
+                rows, cols = column(n)
+                self.declare_partials(of, wrt, rows=rows, cols=cols)
+            else:
+                rows, cols = diagonal(n)
+                self.declare_partials(of, wrt, rows=rows, cols=cols)
+            self._pairs.append((of, wrt))
+
+    def _physics(self, inputs, derivatives=False):
+        return jet.kinematics(inputs["momentum_coefficient"], inputs["slot_ratio"][0],
+                              inputs["speed"], inputs["density"], inputs["chord"][0],
+                              inputs["blown_span"][0], inputs["speed_of_sound"],
+                              derivatives=derivatives)
+
+    def compute(self, inputs, outputs):
+        state = self._physics(inputs)
+        for name, value in state._asdict().items():
+            outputs[name] = value
+
+    def compute_partials(self, inputs, partials):
+        n = self.options["num_nodes"]
+        _, d = self._physics(inputs, derivatives=True)
+        for of, wrt in self._pairs:
+            partials[of, wrt] = d[of, wrt] if of == "slot_height" else broadcast(d[of, wrt], n)
+
+
+def _dependencies():
+    """(output, input) pairs with a non-zero partial, from a probe of the physics."""
+    _, d = jet.kinematics(0.03, 0.01, 40.0, 1.2, 0.5, 1.0, 340.0, derivatives=True)
+    return sorted(d)

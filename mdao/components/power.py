@@ -1,0 +1,92 @@
+"""Segment power component: net saving at the source, energy per segment and for the mission
+(wraps :func:`mdao.physics.power.segment_power`)."""
+import numpy as np
+import openmdao.api as om
+
+from mdao.components._sparsity import broadcast, column, diagonal
+from mdao.physics import power
+
+OUTPUTS = {"propulsion_saving": "propulsion_power_saving", "fan_electric": "fan_electric_power",
+           "net": "net_power_saving"}
+NODE_INPUTS = ("drag_saving", "speed", "shaft_power")
+WING_INPUTS = ("chain_efficiency", "motor_efficiency")
+
+
+class SegmentPowerComp(om.ExplicitComponent):
+    """Power saved by the drag saving, fan electrical power, net power and energy per segment."""
+
+    cite = "Net power at the source; DESIGN.md section 2 (this project)."
+
+    def initialize(self):
+        self.options.declare("num_nodes", types=int, default=1, lower=1, desc="segments")
+        self.options.declare("blowing", default=None, allow_none=True,
+                             desc="sequence of bool per node: does the fan run? (default all)")
+
+    def _blowing(self):
+        n = self.options["num_nodes"]
+        flags = self.options["blowing"]
+        flags = np.ones(n, bool) if flags is None else np.asarray(flags, bool)
+        if flags.shape != (n,):
+            raise ValueError(f"blowing must have num_nodes={n} entries, got {flags.shape}")
+        return flags
+
+    def setup(self):
+        n = self.options["num_nodes"]
+        self.add_input("drag_saving", val=np.ones(n), units="N", desc="clean minus blown drag")
+        self.add_input("speed", val=40.0 * np.ones(n), units="m/s")
+        self.add_input("shaft_power", val=np.zeros(n), units="W", desc="fan shaft power")
+        self.add_input("duration", val=3600.0 * np.ones(n), units="s", desc="segment duration")
+        self.add_input("chain_efficiency", val=0.8, desc="source-to-thrust-power efficiency")
+        self.add_input("motor_efficiency", val=0.9, desc="fan motor and drive efficiency")
+        for name in OUTPUTS.values():
+            self.add_output(name, val=np.zeros(n), units="W")
+        self.add_output("energy_saving", val=np.zeros(n), units="J")
+        self.add_output("mission_energy_saving", val=0.0, units="J")
+
+    def setup_partials(self):
+        n = self.options["num_nodes"]
+        _, _, _, d = power.segment_power(1.0, 1.0, 1.0, 0.8, 0.9, derivatives=True)
+        self._pairs = sorted(d)
+        for key, wrt in self._pairs:
+            rows, cols = column(n) if wrt in WING_INPUTS else diagonal(n)
+            self.declare_partials(OUTPUTS[key], wrt, rows=rows, cols=cols)
+            if key == "net":
+                self.declare_partials("energy_saving", wrt, rows=rows, cols=cols)
+                if wrt in WING_INPUTS:
+                    self.declare_partials("mission_energy_saving", wrt)
+                else:
+                    self.declare_partials("mission_energy_saving", wrt, rows=np.zeros(n, int),
+                                          cols=np.arange(n))
+        rows, cols = diagonal(n)
+        self.declare_partials("energy_saving", "duration", rows=rows, cols=cols)
+        self.declare_partials("mission_energy_saving", "duration", rows=np.zeros(n, int),
+                              cols=np.arange(n))
+
+    def _physics(self, inputs, derivatives=False):
+        return power.segment_power(inputs["drag_saving"], inputs["speed"], inputs["shaft_power"],
+                                   inputs["chain_efficiency"], inputs["motor_efficiency"],
+                                   blowing=self._blowing(), derivatives=derivatives)
+
+    def compute(self, inputs, outputs):
+        prop, fan, net = self._physics(inputs)
+        outputs["propulsion_power_saving"] = prop
+        outputs["fan_electric_power"] = fan
+        outputs["net_power_saving"] = net
+        energy = power.segment_energy(net, inputs["duration"])
+        outputs["energy_saving"] = energy
+        outputs["mission_energy_saving"] = energy.sum()
+
+    def compute_partials(self, inputs, partials):
+        n = self.options["num_nodes"]
+        *_, net, d = self._physics(inputs, derivatives=True)
+        t = inputs["duration"]
+        for key, wrt in self._pairs:
+            value = broadcast(d[key, wrt], n)
+            partials[OUTPUTS[key], wrt] = value
+            if key == "net":
+                partials["energy_saving", wrt] = value * t
+                total = value * t
+                partials["mission_energy_saving", wrt] = (total.sum() if wrt in WING_INPUTS
+                                                          else total)
+        partials["energy_saving", "duration"] = net
+        partials["mission_energy_saving", "duration"] = net

@@ -1,0 +1,279 @@
+r"""Internal duct: the fan pressure rise that the jet requires, at two levels of fidelity.
+
+The fan must raise the total pressure of the ingested air from what it still has at the fan face
+to what the jet needs at the injection slot. Written against the two dynamic pressures,
+
+.. math::
+    \Delta p_{req} = K_j \frac{\rho V_j^2}{2} - K_\infty q ,
+
+where :math:`K_j = 1 + \sum_i K_i (A_j/A_i)^2` is the jet's own dynamic head (the exit loss, 1)
+plus every loss :math:`K_i`, each referred to its local velocity (area :math:`A_i`) and carried to
+the jet's, and :math:`K_\infty` is the help of the flow around the airfoil (suction slot in a
+region of high static pressure, injection slot in a region of low pressure).
+
+*Lumped*: the user gives :math:`K_j` and :math:`K_\infty`. *Geometric*: :math:`K_j` is built by
+:func:`jet_loss_factor` from the suction inlet, the bend ahead of the fan, the fan-to-slot
+transition (contraction or diffusion, Crane TP-410) and its wall friction (Churchill 1977), plus a
+calibration adder.
+
+When :math:`\Delta p_{req} \le 0` the jet is ram-driven: the freestream alone would drive it and
+a fan would windmill. :func:`ram_driven` flags that regime; it is reported, never priced as a
+negative fan power divided by an efficiency.
+
+References
+----------
+.. [1] Idelchik, I. E. *Handbook of Hydraulic Resistance*, 3rd ed., Begell House, 1996 (loss
+   coefficients referred to a local velocity and carried between sections by the area ratio).
+.. [2] Crane Co. *Flow of Fluids Through Valves, Fittings and Pipe*, Technical Paper 410, 2009.
+.. [3] Churchill, S. W. "Friction-factor equation spans all fluid-flow regimes." Chemical
+   Engineering 84, no. 24 (1977): 91-92.
+"""
+import numpy as np
+
+from mdao.physics import friction, losses, transition
+
+
+def required_pressure_rise(jet_loss_factor, freestream_assist, density, jet_velocity,
+                           dynamic_pressure, derivatives=False):
+    r"""Fan total-pressure rise the jet requires, :math:`K_j \rho V_j^2/2 - K_\infty q`, [Pa].
+
+    Parameters
+    ----------
+    jet_loss_factor : array_like
+        :math:`K_j \ge 1`: the jet's dynamic head plus every duct loss, on the jet velocity, [-].
+    freestream_assist : array_like
+        :math:`K_\infty`, of order 1, [-].
+    density : array_like
+        Air density in the duct (freestream), [kg/m^3].
+    jet_velocity : array_like
+        Jet velocity at the injection slot, [m/s].
+    dynamic_pressure : array_like
+        Freestream dynamic pressure, [Pa].
+    derivatives : bool
+        Also return the partial derivatives.
+
+    Returns
+    -------
+    dp : ndarray
+        Required pressure rise, [Pa]; <= 0 means ram-driven (see :func:`ram_driven`).
+    partials : dict
+        Only with ``derivatives``: keyed by the argument names.
+
+    Examples
+    --------
+    >>> float(required_pressure_rise(1.3, 1.0, 1.225, 80.0, 980.0))
+    4116.0
+    """
+    kj = np.asarray(jet_loss_factor, float)
+    ki = np.asarray(freestream_assist, float)
+    rho = np.asarray(density, float)
+    vj = np.asarray(jet_velocity, float)
+    q = np.asarray(dynamic_pressure, float)
+    head = 0.5 * rho * vj * vj
+    dp = kj * head - ki * q
+    if not derivatives:
+        return dp
+    zero = 0 * dp
+    return dp, {
+        "jet_loss_factor": head + zero,
+        "freestream_assist": -q + zero,
+        "density": 0.5 * kj * vj * vj + zero,
+        "jet_velocity": kj * rho * vj + zero,
+        "dynamic_pressure": -ki + zero,
+    }
+
+
+def ram_driven(required_rise):
+    """True where the jet needs no fan (required rise <= 0): the fan would windmill.
+
+    Examples
+    --------
+    >>> ram_driven([-5.0, 0.0, 12.0]).tolist()
+    [True, True, False]
+    """
+    return np.asarray(required_rise, float) <= 0.0
+
+
+def lumped_coefficients(jet_loss_factor, freestream_assist, slot_ratio):
+    r"""Coefficients of the non-dimensional ideal fan power of the lumped model.
+
+    With power over :math:`\rho V^3 S/2`, the ideal fan power is
+    :math:`K_1 C_\mu^{3/2} - K_2 C_\mu^{1/2}` with
+    :math:`K_1 = K_j / (2\sqrt{2 r_s})` and :math:`K_2 = K_\infty \sqrt{r_s/2}`
+    (derived from :math:`Q = A_j V_j` and :func:`required_pressure_rise`).
+
+    Examples
+    --------
+    >>> k1, k2 = lumped_coefficients(1.0, 1.0, 0.02)
+    >>> float(k1), float(k2)
+    (2.5, 0.1)
+    """
+    kj = np.asarray(jet_loss_factor, float)
+    ki = np.asarray(freestream_assist, float)
+    r = np.asarray(slot_ratio, float)
+    return kj / (2.0 * np.sqrt(2.0 * r)), ki * np.sqrt(0.5 * r)
+
+
+#: Reynolds number below which the duct is taken as stagnant (jet off).
+RE_FLOOR = 1.0
+
+#: Inputs of :func:`jet_loss_factor` whose partials are returned.
+GEOMETRIC_INPUTS = ("slot_ratio", "suction_ratio", "suction_inlet_loss", "bend_loss", "extra_loss",
+                    "roughness", "volume_flow", "density", "viscosity",
+                    "position", "area", "perimeter")
+
+
+def _transition_form_loss(area, position, derivatives):
+    """Form loss of the fan-to-slot transition on the jet velocity, with its partials.
+
+    A contraction (slot area below the fan's) uses Crane's gradual contraction on the downstream
+    (jet) velocity; a diffuser uses Crane's gradual enlargement on the upstream (fan-face)
+    velocity, carried to the jet's by the squared area ratio. The total angle is that of the
+    equivalent cone over the whole length.
+    """
+    a0, a1, length = area[0], area[-1], position[-1]
+    dr = (np.sqrt(a1 / np.pi) - np.sqrt(a0 / np.pi))
+    angle = 2.0 * np.arctan(np.abs(dr) / length)
+    # d(angle)/d(a0, a1, length)
+    g = 2.0 / (1.0 + (dr / length) ** 2) / length
+    sgn = np.sign(dr)
+    dang_da1 = g * sgn * 0.5 / np.sqrt(np.pi * a1)
+    dang_da0 = -g * sgn * 0.5 / np.sqrt(np.pi * a0)
+    dang_dl = -2.0 * np.abs(dr) / (length ** 2 + dr ** 2)
+    if a1 <= a0:
+        k, dk_dang, dk_dratio = losses.gradual_contraction(angle, a1 / a0, derivatives=True)
+        dk_da1 = dk_dang * dang_da1 + dk_dratio / a0
+        dk_da0 = dk_dang * dang_da0 - dk_dratio * a1 / a0 ** 2
+        dk_dl = dk_dang * dang_dl
+    else:
+        ke, dk_dang, dk_dratio = losses.gradual_expansion(angle, a0 / a1, derivatives=True)
+        carry = (a1 / a0) ** 2
+        k = ke * carry
+        dk_da1 = carry * (dk_dang * dang_da1 - dk_dratio * a0 / a1 ** 2) + ke * 2 * a1 / a0 ** 2
+        dk_da0 = carry * (dk_dang * dang_da0 + dk_dratio / a1) - ke * 2 * a1 ** 2 / a0 ** 3
+        dk_dl = carry * dk_dang * dang_dl
+    if not derivatives:
+        return k
+    return k, dk_da0, dk_da1, dk_dl
+
+
+def jet_loss_factor(slot_ratio, suction_ratio, suction_inlet_loss, bend_loss, extra_loss,
+                    roughness, volume_flow, density, viscosity, position, area, perimeter,
+                    derivatives=False):
+    r"""Geometric jet loss factor :math:`K_j` at each operating point.
+
+    .. math::
+        K_j = 1 + K_{in}\left(\frac{r_s}{r_{suc}}\right)^2
+            + K_{bend}\left(\frac{A_j}{A_{fan}}\right)^2 + K_{tr}
+            + \int_0^L \frac{f}{D_h}\left(\frac{A_j}{A}\right)^2 dx + K_{extra}
+
+    The 1 is the jet's own dynamic head (exit loss, Rennels & Hudson 2012); the suction-slot
+    inlet loss is referred to the suction-slot velocity (area ratio :math:`r_s/r_{suc}` to the
+    injection slot, equal spans); the bend loss to the fan-face velocity; the transition form
+    loss :math:`K_{tr}` and friction follow :func:`_transition_form_loss` and
+    :func:`mdao.physics.transition.friction_integral`, with Churchill's Darcy factor at
+    :math:`Re = 4 \rho Q_f / (P \mu)` at each station. All areas here are per fan.
+
+    Parameters
+    ----------
+    slot_ratio : float
+        Injection slot height over chord (one for the wing), [-].
+    suction_ratio : float or array_like
+        Suction slot height over chord, [-] (broadcasts with the nodes).
+    suction_inlet_loss, bend_loss, extra_loss : float or array_like
+        Loss coefficients on their local velocities; ``extra_loss`` on the jet's, [-]
+        (broadcast with the nodes).
+    roughness : float
+        Wall roughness of the transition, [m].
+    volume_flow : array_like
+        Flow through one fan, (n,), [m^3/s].
+    density, viscosity : array_like
+        Air density [kg/m^3] and dynamic viscosity [Pa s], (n,).
+    position, area, perimeter : array_like
+        Transition stations from :func:`mdao.physics.transition.stations`, (m,), [m], [m^2], [m].
+    derivatives : bool
+        Also return the partial derivatives.
+
+    Returns
+    -------
+    kj : ndarray
+        Jet loss factor, (n,), [-].
+    partials : dict
+        Only with ``derivatives``: keyed by :data:`GEOMETRIC_INPUTS`; station inputs give
+        (n, m) arrays, the others (n,).
+
+    Examples
+    --------
+    >>> st = transition.stations(0.08, 0.5, 0.005, 0.3, 8.0)
+    >>> kj = jet_loss_factor(0.01, 0.02, 0.5, 0.3, 0.0, 1e-5, [0.06], [1.225], [1.79e-5],
+    ...                      st.position, st.area, st.perimeter)
+    >>> bool(1.1 < kj[0] < 1.6)
+    True
+    """
+    q_f = np.atleast_1d(np.asarray(volume_flow, float))
+    rho = np.atleast_1d(np.asarray(density, float))
+    mu = np.atleast_1d(np.asarray(viscosity, float))
+    x = np.asarray(position, float)
+    area = np.asarray(area, float)
+    per = np.asarray(perimeter, float)
+    r_s = float(slot_ratio)
+    r_suc = np.asarray(suction_ratio, float)
+    if np.any(r_suc <= 0):
+        raise ValueError(f"suction_ratio must be > 0, got {np.min(r_suc)!r}")
+    suction_inlet_loss = np.asarray(suction_inlet_loss, float)
+    bend_loss = np.asarray(bend_loss, float)
+    a_jet, a_fan = area[-1], area[0]
+
+    k_in = suction_inlet_loss * (r_s / r_suc) ** 2
+    k_bend = bend_loss * (a_jet / a_fan) ** 2
+    k_tr = _transition_form_loss(area, x, derivatives=True)
+    k_tr, dtr_da0, dtr_da1, dtr_dl = k_tr
+
+    dh = 4.0 * area / per
+    reynolds = 4.0 * rho[:, None] * q_f[:, None] / (per[None, :] * mu[:, None])
+    # No flow (jet off): friction does not matter (it multiplies a zero jet head); hold the
+    # Reynolds number at a floor so the correlation stays defined, with zero derivative there.
+    stagnant = reynolds < RE_FLOOR
+    reynolds = np.where(stagnant, RE_FLOOR, reynolds)
+    eps = roughness / dh
+    f, df_dre, df_deps = friction.churchill(reynolds, eps + 0 * reynolds, derivatives=True)
+    df_dre = np.where(stagnant, 0.0, df_dre)
+    k_f, dkf = transition.friction_integral(x, area, per, f, a_jet, derivatives=True)
+
+    kj = 1.0 + k_in + k_bend + k_tr + k_f + extra_loss
+    if not derivatives:
+        return kj
+
+    n, m = reynolds.shape
+    ones = np.ones(n)
+    # friction: f depends on Re (rho, q_f, mu, perimeter) and eps (roughness, area, perimeter)
+    dkf_df = dkf["darcy"]                       # (n, m)
+    d_rho = np.sum(dkf_df * df_dre * reynolds / rho[:, None], axis=1)
+    d_q = np.sum(dkf_df * df_dre * 4.0 * rho[:, None] / (per[None, :] * mu[:, None]), axis=1)
+    d_mu = -np.sum(dkf_df * df_dre * reynolds / mu[:, None], axis=1)
+    d_rough = np.sum(dkf_df * df_deps / dh[None, :], axis=1)
+    # eps = roughness P / (4 A); Re = 4 rho Q / (P mu)
+    d_area = dkf["area"] + dkf_df * df_deps * (-eps / area)[None, :]
+    d_per = dkf["perimeter"] + dkf_df * (df_dre * (-reynolds / per[None, :])
+                                         + df_deps * (eps / per)[None, :])
+    d_pos = dkf["position"].copy()
+    d_area[:, -1] += dkf["area_ref"]
+    # form losses at the ends of the transition
+    d_area[:, 0] += -2.0 * k_bend * ones / a_fan + dtr_da0
+    d_area[:, -1] += 2.0 * k_bend * ones / a_jet + dtr_da1
+    d_pos[:, -1] += dtr_dl
+    partials = {
+        "slot_ratio": 2.0 * k_in / r_s * ones,
+        "suction_ratio": -2.0 * k_in / r_suc * ones,
+        "suction_inlet_loss": (r_s / r_suc) ** 2 * ones,
+        "bend_loss": (a_jet / a_fan) ** 2 * ones,
+        "extra_loss": ones,
+        "roughness": d_rough,
+        "volume_flow": d_q,
+        "density": d_rho,
+        "viscosity": d_mu,
+        "position": d_pos,
+        "area": d_area,
+        "perimeter": d_per,
+    }
+    return kj, partials

@@ -1,0 +1,89 @@
+"""Tables and result files: what the command line prints and writes."""
+import json
+import os
+import tempfile
+from pathlib import Path
+
+from mdao import CAUTION, __version__
+
+
+def write_atomic(path, text):
+    """Write ``text`` to ``path`` atomically (temp file in the same folder, then rename)."""
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8") as fh:
+            fh.write(text)
+        os.replace(tmp, path)
+    except BaseException:
+        if os.path.exists(tmp):
+            os.unlink(tmp)
+        raise
+
+
+def write_json(path, data):
+    """Write JSON atomically; NaN and infinities become null."""
+    write_atomic(path, json.dumps(_clean(data), indent=2) + "\n")
+
+
+def _clean(obj):
+    if isinstance(obj, float):
+        return obj if obj == obj and abs(obj) != float("inf") else None
+    if isinstance(obj, dict):
+        return {str(k): _clean(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_clean(v) for v in obj]
+    if hasattr(obj, "tolist"):
+        return _clean(obj.tolist())
+    return obj
+
+
+def _f(value, fmt):
+    return "-" if value is None else format(value, fmt)
+
+
+def segment_table(outcome, case):
+    """The per-segment table of an optimum (or of an evaluated start point)."""
+    cols = [("segment", 12, "s"), ("C_mu", 8, ".4f"), ("dP fan", 9, ".0f"), ("V_jet", 7, ".1f"),
+            ("fan rpm", 9, ".0f"), ("eta_fan", 7, ".3f"), ("P_fan", 9, ".1f"),
+            ("net save", 10, ".1f"), ("eta_be", 7, ".3f")]
+    units = ["", "-", "Pa", "m/s", "rpm", "-", "W", "W", "-"]
+    head = " ".join(f"{c[0]:>{c[1]}}" for c in cols)
+    unit_row = " ".join(f"{u:>{c[1]}}" for u, c in zip(units, cols))
+    lines = [head, unit_row, "-" * len(head)]
+    for s in outcome.segments:
+        on = s["blowing"]
+        vals = [s["name"], s["momentum_coefficient"] if on else None,
+                s["fan_pressure_rise_Pa"] if on else None, s["jet_velocity_m_s"] if on else None,
+                s["fan_speed_rpm"], s["fan_efficiency"], s["fan_shaft_power_W"] if on else None,
+                s["net_power_saving_W"], s["break_even_fan_efficiency"]]
+        cells = []
+        for v, (name, width, fmt) in zip(vals, cols):
+            cells.append(f"{v:>{width}}" if fmt == "s" else f"{_f(v, fmt):>{width}}")
+        lines.append(" ".join(cells) + ("" if on else "   (blowing off: slot penalty only)"))
+    lines.append("")
+    for s in outcome.segments:
+        if s["active_constraints"]:
+            lines.append(f"  {s['name']}: active: " + "; ".join(s["active_constraints"]))
+        if s["ram_driven"]:
+            lines.append(f"  {s['name']}: ram-driven: the jet needs no fan (required rise <= 0)")
+    if outcome.wing_active_constraints:
+        lines.append("  wing: active: " + "; ".join(outcome.wing_active_constraints))
+    return "\n".join(lines)
+
+
+def summary(outcome, case, optimized=True):
+    """The whole console report of ``optimize`` or ``evaluate``."""
+    e = outcome.mission_energy_saving_J
+    lines = [f"blownwing {__version__}: {case.title}",
+             ("optimum" if optimized else "start point (not optimized)")
+             + f": slot ratio {outcome.slot_ratio:.5f} (slot height "
+             f"{outcome.values['slot_height'] * 1e3:.2f} mm)", "",
+             segment_table(outcome, case), "",
+             f"mission energy saved at the source: {e / 3.6e6:.4f} kWh ({e:.4g} J)"
+             + ("" if e >= 0 else "  -> blowing costs energy on this mission"),
+             f"{outcome.message}; {outcome.iterations} iterations, "
+             f"{outcome.model_evaluations} model evaluations, {outcome.wall_time_s:.2f} s",
+             "", CAUTION]
+    return "\n".join(lines)

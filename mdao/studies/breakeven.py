@@ -1,0 +1,128 @@
+"""Break-even fan efficiency: the least fan efficiency at which the best point still saves power.
+
+For a segment at a given slot ratio, with the fan supplying exactly the required pressure rise,
+the net saving is :math:`P_{prop}(C_\\mu) - P_{ideal}(C_\\mu)/(\\eta_{fan}\\eta_{motor})`, where
+:math:`P_{ideal}` is the fan power at unit efficiency. It is positive for some admissible
+:math:`C_\\mu` exactly when :math:`\\eta_{fan} > \\min_{C_\\mu} P_{ideal}/(\\eta_{motor}
+P_{prop})` over the points where :math:`P_{prop} > 0`. Admissible points lie in the calibrated
+momentum-coefficient range, need at least the fan's minimum pressure rise (the fan is not idle)
+and at most its maximum, and keep the jet Mach number within its limit. A fan map's own
+efficiency curve and speed limits do not enter: the answer is the efficiency the fan must reach.
+
+The lumped model has the closed form of :func:`mdao.physics.power.break_even_lumped`; other
+models are searched on a grid and refined by golden sections, vectorized over segments (and any
+other leading axes).
+"""
+import numpy as np
+
+from mdao.physics import atmosphere, chain, duct, power
+
+GRID = 241
+GOLDEN_STEPS = 60
+
+
+def admissible_range(case, params):
+    """Lower and upper momentum coefficient per point for the break-even search (lumped bounds).
+
+    Lower: the calibrated minimum, raised to where the required rise reaches the fan's minimum
+    (lumped model only; other models filter on the evaluated rise). Upper: the calibrated maximum,
+    lowered to the jet Mach limit and to the fan's maximum pressure rise (lumped).
+    """
+    lo, hi = case.airfoil["momentum_coefficient_range"]
+    atm = atmosphere.isa(params["altitude"])
+    q = 0.5 * atm.density * params["speed"] ** 2
+    r = params["slot_ratio"]
+    mach_cap = 2 * r * (case.slot["max_jet_mach"] * atm.speed_of_sound / params["speed"]) ** 2
+    low = np.full(np.shape(q), lo)
+    high = np.minimum(hi, mach_cap)
+    if case.duct["model"] == "lumped":
+        kj, ki = params["jet_loss_factor"], params["freestream_assist"]
+        low = np.maximum(low, 2 * r * (ki + case.fan["min_pressure_rise"] / q) / kj)
+        high = np.minimum(high, 2 * r * (ki + case.fan["max_pressure_rise"] / q) / kj)
+    return low, high
+
+
+def _ratio(case, params, cmu, blowing):
+    """P_ideal / (eta_motor P_prop) at momentum coefficients ``cmu``; +inf where inadmissible."""
+    out = chain.evaluate(dict(params, momentum_coefficient=cmu), _options(case), blowing=True)
+    prop = out["propulsion_power_saving"]
+    dp = out["required_pressure_rise"]
+    ok = ((prop > 0) & (dp >= case.fan["min_pressure_rise"] * (1 - 1e-12))
+          & (dp <= case.fan["max_pressure_rise"]) & (out["jet_mach"] <= case.slot["max_jet_mach"]))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        r = out["ideal_power"] / (params["motor_efficiency"] * prop)
+    return np.where(ok, r, np.inf)
+
+
+def _options(case):
+    from mdao.system import chain_options
+    return chain_options(case)
+
+
+def break_even_efficiency(case, slot_ratio=None, params=None):
+    """Break-even fan efficiency of each segment; NaN where no efficiency up to 1 breaks even.
+
+    Parameters
+    ----------
+    case : mdao.case.Case
+    slot_ratio : float, optional
+        Slot ratio to use (default: the case's).
+    params : dict, optional
+        Chain parameters (default: the case's); any may carry extra leading axes for maps.
+
+    Returns
+    -------
+    ndarray
+        Per segment (and leading axes of ``params``); NaN for non-blowing segments too.
+    """
+    from mdao.system import chain_parameters
+
+    p = chain_parameters(case) if params is None else dict(params)
+    if slot_ratio is not None:
+        p["slot_ratio"] = np.asarray(slot_ratio, float)
+    p.pop("fan_pressure_rise", None)
+    lo, hi = admissible_range(case, p)
+    shape = np.broadcast(lo, hi, *[np.asarray(v) for k, v in p.items()
+                                    if k != "pressure_coefficients"]).shape
+    lo, hi = np.broadcast_to(lo, shape), np.broadcast_to(hi, shape)
+    if case.duct["model"] == "lumped" and case.fan["model"] == "constant" and not case.fan["compressible"]:
+        k1, k2 = duct.lumped_coefficients(p["jet_loss_factor"], p["freestream_assist"],
+                                          p["slot_ratio"])
+        from mdao.physics.airfoil import slot_penalty, thrust_leverage_at
+        k3 = slot_penalty(p["slot_ratio"], p.get("slot_drag", 0.0), p.get("slot_drag_per_ratio", 0.0))
+        beta = thrust_leverage_at(p["slot_ratio"], p["thrust_leverage"],
+                                  p.get("thrust_leverage_per_ratio", 0.0))
+        if np.any(np.asarray(p.get("drag_quadratic", 0.0)) != 0):
+            eff = _search(case, p, lo, hi)
+        else:
+            eff = power.break_even_lumped(k1, k2, k3, beta, lo, hi)
+            eff = eff * p["chain_efficiency"] / p["motor_efficiency"]
+    else:
+        eff = _search(case, p, lo, hi)
+    eff = np.broadcast_to(np.asarray(eff, float), shape).copy()
+    eff[(eff > 1.0) | ~np.isfinite(eff) | (hi <= lo)] = np.nan
+    if params is None:
+        eff[..., ~case.blowing] = np.nan
+    return eff
+
+
+def _search(case, p, lo, hi):
+    """Grid then vectorized golden-section search of min ratio over [lo, hi] (log scale)."""
+    t = np.linspace(0.0, 1.0, GRID)
+    llo, lhi = np.log(lo)[..., None], np.log(np.maximum(hi, lo))[..., None]
+    grid = np.exp(llo + (lhi - llo) * t)
+    pe = {k: (np.asarray(v)[..., None] if k != "pressure_coefficients" else v)
+          for k, v in p.items()}
+    vals = _ratio(case, pe, grid, True)
+    k = np.argmin(vals, axis=-1)
+    a = np.take_along_axis(grid, np.maximum(k - 1, 0)[..., None], -1)[..., 0]
+    b = np.take_along_axis(grid, np.minimum(k + 1, GRID - 1)[..., None], -1)[..., 0]
+    best = np.take_along_axis(vals, k[..., None], -1)[..., 0]
+    g = (np.sqrt(5.0) - 1.0) / 2.0
+    pe = {k2: (np.asarray(v) if k2 != "pressure_coefficients" else v) for k2, v in p.items()}
+    for _ in range(GOLDEN_STEPS):
+        c, d = b - g * (b - a), a + g * (b - a)
+        left = _ratio(case, pe, c, True) < _ratio(case, pe, d, True)
+        a, b = np.where(left, a, c), np.where(left, d, b)
+    mid = 0.5 * (a + b)
+    return np.minimum(best, _ratio(case, pe, mid, True))

@@ -1,0 +1,279 @@
+"""The wired blown-wing group and the optimization problem built from a case.
+
+:class:`BlownWingGroup` wires atmosphere, jet, transition (geometric duct), duct loss, fan,
+airfoil and segment power, one node per segment (or operating point), with promoted names in the
+trade's words. :func:`build_problem` turns a validated :class:`mdao.case.Case` into a set-up
+``om.Problem`` with design variables, constraints, objective and SLSQP.
+"""
+import numpy as np
+import openmdao.api as om
+
+from mdao.components.airfoil import AirfoilComp
+from mdao.components.atmosphere import AtmosphereComp
+from mdao.components.duct import DuctLossComp
+from mdao.components.fan import FanComp
+from mdao.components.jet import JetComp
+from mdao.components.power import SegmentPowerComp
+from mdao.components.transition import TransitionComp
+
+#: Case key path -> promoted input name of BlownWingGroup (wing-level constants).
+PARAMETERS = {
+    "wing.chord": "chord",
+    "wing.blown_span": "blown_span",
+    "slot.ratio": "slot_ratio",
+    "slot.suction_ratio": "suction_ratio",
+    "duct.jet_loss_factor": "jet_loss_factor",
+    "duct.freestream_assist": "freestream_assist",
+    "duct.fan_diameter": "fan_diameter",
+    "duct.transition_length": "transition_length",
+    "duct.slot_exponent": "slot_exponent",
+    "duct.roughness": "roughness",
+    "duct.bend_loss": "bend_loss",
+    "duct.suction_inlet_loss": "suction_inlet_loss",
+    "duct.extra_loss": "extra_loss",
+    "fan.efficiency": "fan_rated_efficiency",
+    "fan.motor_efficiency": "motor_efficiency",
+    "fan.pressure_coefficients": "pressure_coefficients",
+    "fan.peak_efficiency": "peak_efficiency",
+    "fan.peak_flow_coefficient": "peak_flow_coefficient",
+    "fan.efficiency_falloff": "efficiency_falloff",
+    "airfoil.drag_clean": "drag_clean",
+    "airfoil.slot_drag": "slot_drag",
+    "airfoil.slot_drag_per_ratio": "slot_drag_per_ratio",
+    "airfoil.thrust_leverage": "thrust_leverage",
+    "airfoil.thrust_leverage_per_ratio": "thrust_leverage_per_ratio",
+    "airfoil.drag_quadratic": "drag_quadratic",
+    "airfoil.lift_per_momentum": "lift_per_momentum",
+    "propulsion.chain_efficiency": "chain_efficiency",
+}
+#: Per-segment case keys -> promoted node inputs.
+SEGMENT_INPUTS = {"altitude": "altitude", "speed": "speed", "duration": "duration"}
+
+_LUMPED_ONLY = {"jet_loss_factor"}
+_GEOMETRIC_ONLY = {"suction_ratio", "transition_length", "slot_exponent", "roughness",
+                   "bend_loss", "suction_inlet_loss", "extra_loss"}
+_CONSTANT_FAN_ONLY = {"fan_rated_efficiency"}
+_MAP_ONLY = {"pressure_coefficients", "peak_efficiency", "peak_flow_coefficient",
+             "efficiency_falloff"}
+
+
+class BlownWingGroup(om.Group):
+    """Blown wing at ``num_nodes`` operating points: from flight condition to net power saved.
+
+    Inputs (promoted): ``altitude`` [m], ``speed`` [m/s], ``duration`` [s],
+    ``momentum_coefficient`` and ``fan_pressure_rise`` [Pa] per node; the wing-level constants of
+    :data:`PARAMETERS`. Outputs include ``required_pressure_rise`` [Pa], ``jet_velocity`` [m/s],
+    ``volume_flow`` [m**3/s], ``shaft_power`` [W], ``drag`` [N], ``net_power_saving`` [W],
+    ``energy_saving`` [J] per node and ``mission_energy_saving`` [J].
+    """
+
+    def initialize(self):
+        self.options.declare("num_nodes", types=int, default=1, lower=1, desc="segments or points")
+        self.options.declare("duct_model", default="lumped", values=("lumped", "geometric"))
+        self.options.declare("fan_model", default="constant", values=("constant", "map"))
+        self.options.declare("fans", types=int, default=1, lower=1, desc="fans along the span")
+        self.options.declare("stations", types=int, default=33, lower=3)
+        self.options.declare("schedule", default="monotone-area", values=("monotone-area", "linear"))
+        self.options.declare("compressible", types=bool, default=False)
+        self.options.declare("blowing", default=None, allow_none=True,
+                             desc="per node: does the fan run (default: all)")
+        self.options.declare("follow_requirement", types=bool, default=False,
+                             desc="feed the required pressure rise to the fan (fixed-design "
+                                  "studies) instead of taking fan_pressure_rise as an input")
+
+    def setup(self):
+        o = self.options
+        n = o["num_nodes"]
+        self.add_subsystem("atmosphere", AtmosphereComp(num_nodes=n), promotes=["*"])
+        self.add_subsystem("jet", JetComp(num_nodes=n), promotes=["*"])
+        if o["duct_model"] == "geometric":
+            self.add_subsystem("transition", TransitionComp(
+                num_nodes=n, fans=o["fans"], stations=o["stations"], schedule=o["schedule"]),
+                promotes=["*"])
+        self.add_subsystem("duct", DuctLossComp(num_nodes=n, model=o["duct_model"], fans=o["fans"],
+                                                stations=o["stations"]), promotes=["*"])
+        fan = FanComp(num_nodes=n, model=o["fan_model"], fans=o["fans"],
+                      compressible=o["compressible"])
+        if o["follow_requirement"]:
+            self.add_subsystem("fan", fan, promotes_inputs=[("fan_pressure_rise", "fan_pressure_rise_in"), "*"],
+                               promotes_outputs=["*"])
+            self.connect("required_pressure_rise", "fan_pressure_rise_in")
+        else:
+            self.add_subsystem("fan", fan, promotes=["*"])
+        self.add_subsystem("airfoil", AirfoilComp(num_nodes=n), promotes=["*"])
+        self.add_subsystem("power", SegmentPowerComp(num_nodes=n, blowing=o["blowing"]),
+                           promotes=["*"])
+
+        self.set_input_defaults("slot_ratio", 0.01)
+        self.set_input_defaults("chord", 0.5, units="m")
+        self.set_input_defaults("blown_span", 1.0, units="m")
+        self.set_input_defaults("speed", 40.0 * np.ones(n), units="m/s")
+        self.set_input_defaults("momentum_coefficient", 0.03 * np.ones(n))
+        if o["duct_model"] == "geometric" and o["fan_model"] == "map":
+            self.set_input_defaults("fan_diameter", 0.08, units="m")
+
+
+def group_options(case):
+    """BlownWingGroup options for a case."""
+    return dict(num_nodes=len(case.segments), duct_model=case.duct["model"],
+                fan_model=case.fan["model"], fans=case.duct["fans"],
+                stations=case.duct["stations"], schedule=case.duct["schedule"],
+                compressible=case.fan["compressible"], blowing=list(case.blowing))
+
+
+def applicable_parameters(case):
+    """Case key paths of :data:`PARAMETERS` that the case's models use."""
+    skip = set()
+    skip |= _GEOMETRIC_ONLY if case.duct["model"] == "lumped" else _LUMPED_ONLY
+    skip |= _MAP_ONLY if case.fan["model"] == "constant" else _CONSTANT_FAN_ONLY
+    if case.duct["model"] == "lumped" and case.fan["model"] == "constant":
+        skip.add("fan_diameter")
+    return {k: v for k, v in PARAMETERS.items() if v not in skip}
+
+
+def set_case_values(prob, case, start=True, follow_requirement=False):
+    """Load a case's constants and segments into a set-up problem (SI units)."""
+    for key, name in applicable_parameters(case).items():
+        value = case.value(key)
+        if value is None:
+            continue
+        prob.set_val(name, np.asarray(value, float))
+    for key, name in SEGMENT_INPUTS.items():
+        prob.set_val(name, np.array([s[key] for s in case.segments], float))
+    if start:
+        cmu, dp = start_point(case)
+        prob.set_val("momentum_coefficient", cmu)
+        if not follow_requirement:
+            prob.set_val("fan_pressure_rise", dp)
+
+
+def start_point(case):
+    """Start values: momentum coefficient per segment and the pressure rise it requires.
+
+    The start momentum coefficient is the segment's own when given, else the geometric mean of
+    the calibrated range; non-blowing segments get zero. The start pressure rise is the
+    requirement at that point, held within the fan's allowed range.
+    """
+    from mdao.physics import chain
+
+    lo, hi = case.airfoil["momentum_coefficient_range"]
+    cmu = np.array([s["momentum_coefficient"] or np.sqrt(lo * hi) for s in case.segments])
+    cmu = np.where(case.blowing, cmu, 0.0)
+    out = chain.evaluate(chain_parameters(case, momentum_coefficient=cmu), chain_options(case),
+                         blowing=case.blowing)
+    dp = np.clip(out["required_pressure_rise"], case.fan["min_pressure_rise"],
+                 case.fan["max_pressure_rise"])
+    return cmu, dp
+
+
+def chain_options(case):
+    """The :class:`mdao.physics.chain.ChainOptions` of a case."""
+    from mdao.physics.chain import ChainOptions
+
+    return ChainOptions(duct_model=case.duct["model"], fan_model=case.fan["model"],
+                        fans=case.duct["fans"], stations=case.duct["stations"],
+                        schedule=case.duct["schedule"], compressible=case.fan["compressible"])
+
+
+def chain_parameters(case, **overrides):
+    """Inputs of :func:`mdao.physics.chain.evaluate` for a case (per-segment arrays)."""
+    params = {}
+    for key, name in applicable_parameters(case).items():
+        value = case.value(key)
+        if value is not None:
+            params[name] = np.asarray(value, float)
+    for key, name in SEGMENT_INPUTS.items():
+        params[name] = np.array([s[key] for s in case.segments], float)
+    params.update(overrides)
+    return params
+
+
+def build_problem(case, follow_requirement=False, driver=True):
+    """A set-up problem for a case: design variables, constraints, objective and SLSQP.
+
+    Design variables: the slot ratio (when ``slot.ratio_bounds`` are given and differ), and per
+    blowing segment the fan pressure rise (bounds: the fan's minimum and maximum) and the
+    momentum coefficient (bounds: the calibrated range). Constraints: fan pressure rise equals
+    the requirement; jet Mach limit; fan speed and flow-coefficient range (map fan); diffusion
+    half-angle (geometric duct); minimum slot height (when the slot ratio varies). Objective:
+    mission energy saved (maximized) or one segment's net power.
+
+    Parameters
+    ----------
+    case : mdao.case.Case
+    follow_requirement : bool
+        Wire the required pressure rise to the fan (fixed-design studies; then there is no
+        pressure design variable nor equality constraint).
+    driver : bool
+        Attach the SLSQP driver and the design variables, constraints and objective.
+    """
+    opts = group_options(case)
+    opts["follow_requirement"] = follow_requirement
+    prob = om.Problem(reports=False)
+    prob.model.add_subsystem("wing", BlownWingGroup(**opts), promotes=["*"])
+    blow = np.flatnonzero(case.blowing)
+    if driver:
+        _add_optimization(prob, case, blow, follow_requirement)
+    prob.setup(force_alloc_complex=False)
+    set_case_values(prob, case, follow_requirement=follow_requirement)
+    prob.final_setup()
+    return prob
+
+
+def _add_optimization(prob, case, blow, follow):
+    model = prob.model
+    cmu0, dp0 = start_point(case)
+    lo, hi = case.airfoil["momentum_coefficient_range"]
+    bounds = case.slot["ratio_bounds"]
+    if bounds is not None and bounds[1] > bounds[0]:
+        model.add_design_var("slot_ratio", lower=bounds[0], upper=bounds[1], ref=bounds[1])
+        if case.slot["min_height"] > 0:
+            model.add_constraint("slot_height", lower=case.slot["min_height"],
+                                 ref=case.slot["min_height"])
+    model.add_design_var("momentum_coefficient", indices=blow, lower=lo, upper=hi, ref=hi)
+    dp_ref = float(np.max(dp0[blow]))
+    if not follow:
+        model.add_subsystem("pressure_balance", om.EQConstraintComp(
+            "pressure_balance", eq_units="Pa", lhs_name="fan_pressure_rise",
+            rhs_name="required_pressure_rise", shape=(len(case.segments),), normalize=False,
+            use_mult=False), promotes_inputs=["fan_pressure_rise", "required_pressure_rise"],
+            promotes_outputs=["pressure_balance"])
+        model.set_input_defaults("fan_pressure_rise", dp0, units="Pa")
+        model.add_design_var("fan_pressure_rise", indices=blow, lower=case.fan["min_pressure_rise"],
+                             upper=case.fan["max_pressure_rise"], ref=dp_ref)
+        model.add_constraint("pressure_balance", equals=0.0, indices=blow, ref=dp_ref)
+    model.add_constraint("jet_mach", upper=case.slot["max_jet_mach"], indices=blow,
+                         ref=case.slot["max_jet_mach"])
+    if case.fan["model"] == "map":
+        model.add_constraint("fan_speed", upper=case.fan["max_speed"], indices=blow,
+                             ref=case.fan["max_speed"])
+        flo, fhi = case.fan["flow_coefficient_range"]
+        model.add_constraint("flow_coefficient", lower=flo, upper=fhi, indices=blow, ref=fhi)
+    if case.duct["model"] == "geometric":
+        limit = case.duct["max_diffusion_half_angle"]
+        model.add_constraint("diffusion_half_angle", upper=limit, ref=limit)
+    objective = case.optimize["objective"]
+    if objective == "mission-energy":
+        params = None
+        scale = _energy_scale(case)
+        model.add_objective("mission_energy_saving", ref=-scale)
+    else:
+        i = case.segment_names.index(objective[8:])
+        model.add_objective("net_power_saving", index=i, ref=-_power_scale(case))
+    prob.driver = om.ScipyOptimizeDriver(optimizer="SLSQP", maxiter=case.optimize["max_iterations"],
+                                         tol=case.optimize["tolerance"], disp=False)
+    prob.driver.declare_coloring = None
+
+
+def _power_scale(case):
+    """A power of the right size for scaling: the clean-wing drag power of the first segment."""
+    from mdao.physics import atmosphere
+
+    seg = case.segments[0]
+    rho = atmosphere.isa(seg["altitude"]).density
+    return float(0.5 * rho * seg["speed"] ** 3 * case.wing["chord"] * case.wing["blown_span"]
+                 * case.airfoil["drag_clean"] / case.propulsion["chain_efficiency"])
+
+
+def _energy_scale(case):
+    return _power_scale(case) * sum(s["duration"] for s in case.segments)
