@@ -9,3 +9,10 @@ def _quiet_openmdao(tmp_path, monkeypatch):
     monkeypatch.setenv("OPENMDAO_WORKDIR", str(tmp_path))
     monkeypatch.chdir(tmp_path)
     yield
+
+
+@pytest.fixture
+def cases_dir():
+    """The bundled example cases."""
+    from pathlib import Path
+    return Path(__file__).resolve().parent / "cases"

@@ -195,11 +195,29 @@ def _outcome(case, prob, converged, message, iterations, evals, devals, wall):
                    problem=prob)
 
 
-def optimize(case, problem=None):
-    """Optimize a case. Returns an :class:`Outcome`; ``converged`` is False when the driver
-    failed or the returned point violates a constraint (the message says which)."""
+def optimize(case, problem=None, warm_start=None):
+    """Optimize a case.
+
+    Parameters
+    ----------
+    case : mdao.case.Case
+    problem : om.Problem, optional
+        A problem already built by :func:`mdao.system.build_problem` for this case.
+    warm_start : Outcome, optional
+        Start from this earlier optimum (slot ratio, momentum coefficients, pressure rises),
+        e.g. for re-optimizing after a small change of one input.
+
+    Returns
+    -------
+    Outcome
+        ``converged`` is False when the driver failed or the returned point violates a
+        constraint (the message says which).
+    """
     t0 = time.perf_counter()
     prob = problem if problem is not None else build_problem(case)
+    if warm_start is not None:
+        for name in ("slot_ratio", "momentum_coefficient", "fan_pressure_rise"):
+            prob.set_val(name, warm_start.values[name])
     result = prob.run_driver()
     wall = time.perf_counter() - t0
     vals = _read(prob, case)

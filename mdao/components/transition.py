@@ -1,0 +1,97 @@
+"""Transition-duct stations from the fan to the injection slot (wraps
+:func:`mdao.physics.transition.stations`). Wing-level: one duct per fan, all fans alike."""
+import numpy as np
+import openmdao.api as om
+
+from mdao.physics.transition import SCHEDULES, stations
+
+TRANSITION_CITE = """@book{rennels2012,
+  author = {Rennels, Donald C. and Hudson, Hobart M.}, title = {Pipe Flow: A Practical and
+  Comprehensive Guide}, publisher = {Wiley}, year = {2012}
+}
+@misc{lame1818, author = {Lam\\'e, Gabriel}, title = {Examen des diff\\'erentes m\\'ethodes employ\\'ees
+  pour r\\'esoudre les probl\\`emes de g\\'eom\\'etrie}, year = {1818}, note = {super-ellipse}
+}"""
+
+_INPUTS = (("slot_ratio", "", 0.01, "injection slot height over chord"),
+           ("chord", "m", 0.5, "wing chord"),
+           ("blown_span", "m", 1.0, "span of the blown wing"),
+           ("fan_diameter", "m", 0.08, "fan (duct inlet) diameter"),
+           ("transition_length", "m", 0.3, "length of the fan-to-slot duct"),
+           ("slot_exponent", "", 8.0, "super-ellipse exponent of the slot section"))
+# station outputs: name, field of TransitionStations, units, description
+_OUTPUTS = (("station_position", "position", "m", "distance from the fan face"),
+            ("station_area", "area", "m**2", "section area"),
+            ("station_perimeter", "perimeter", "m", "section perimeter"),
+            ("station_hydraulic_diameter", "hydraulic_diameter", "m", "hydraulic diameter 4A/P"),
+            ("diffusion_half_angle", "half_angle", "rad",
+             "equivalent cone half-angle between stations (positive when diffusing)"))
+
+
+class TransitionComp(om.ExplicitComponent):
+    """Sections of the supply duct from each fan's circle to its share of the injection slot."""
+
+    cite = TRANSITION_CITE
+
+    def initialize(self):
+        self.options.declare("num_nodes", types=int, default=1, lower=1,
+                             desc="operating points (accepted; the duct is wing-level)")
+        self.options.declare("fans", types=int, default=2, lower=1, desc="fans along the blown span")
+        self.options.declare("stations", types=int, default=33, lower=3, desc="stations along the duct")
+        self.options.declare("schedule", default="monotone-area", values=SCHEDULES,
+                             desc="section schedule along the duct")
+
+    def setup(self):
+        m = self.options["stations"]
+        for name, units, value, desc in _INPUTS:
+            self.add_input(name, val=value, units=units or None, desc=desc)
+        for name, field, units, desc in _OUTPUTS:
+            size = m - 1 if field == "half_angle" else m
+            self.add_output(name, val=np.ones(size), units=units, desc=desc)
+
+    def _dependencies(self):
+        """Inputs each output depends on: the position on the length only, the sections on all
+        but the length; with the monotone-area schedule the areas (hence the angles) not on the
+        slot exponent (the outlet area is w h whatever the exponent)."""
+        names = [k for k, *_ in _INPUTS]
+        sections = [k for k in names if k != "transition_length"]
+        area_wrt = sections
+        if self.options["schedule"] == "monotone-area":
+            area_wrt = [k for k in sections if k != "slot_exponent"]
+        return {"station_position": ["transition_length"], "station_area": area_wrt,
+                "station_perimeter": sections, "station_hydraulic_diameter": sections,
+                "diffusion_half_angle": area_wrt + ["transition_length"]}
+
+    def setup_partials(self):
+        # dense columns against the scalar inputs
+        for name, wrt in self._dependencies().items():
+            self.declare_partials(name, wrt)
+
+    def _geometry(self, inputs):
+        fans = self.options["fans"]
+        return dict(fan_diameter=inputs["fan_diameter"][0],
+                    slot_width=inputs["blown_span"][0] / fans,
+                    slot_height=inputs["slot_ratio"][0] * inputs["chord"][0],
+                    length=inputs["transition_length"][0],
+                    slot_exponent=inputs["slot_exponent"][0],
+                    schedule=self.options["schedule"], count=self.options["stations"])
+
+    def compute(self, inputs, outputs):
+        result = stations(**self._geometry(inputs))
+        for name, field, *_ in _OUTPUTS:
+            outputs[name] = getattr(result, field)
+
+    def compute_partials(self, inputs, partials):
+        _, d = stations(**self._geometry(inputs), derivatives=True)
+        fans = self.options["fans"]
+        chord, slot_ratio = inputs["chord"][0], inputs["slot_ratio"][0]
+        chain = {"fan_diameter": lambda f: d[f, "fan_diameter"],
+                 "slot_exponent": lambda f: d[f, "slot_exponent"],
+                 "transition_length": lambda f: d[f, "length"],
+                 "blown_span": lambda f: d[f, "slot_width"] / fans,
+                 "slot_ratio": lambda f: d[f, "slot_height"] * chord,
+                 "chord": lambda f: d[f, "slot_height"] * slot_ratio}
+        fields = {name: field for name, field, *_ in _OUTPUTS}
+        for name, wrt in self._dependencies().items():
+            for k in wrt:
+                partials[name, k] = chain[k](fields[name])

@@ -1,0 +1,287 @@
+"""Supply duct from the fan's circle to the injection slot, through super-ellipse sections.
+
+Stations run from the fan face (t = 0, a circle of the fan's diameter) to the slot (t = 1, a
+super-ellipse of the slot's exponent whose area is exactly the slot's ``width * height``).
+Two schedules of the sections along the duct:
+
+- ``"monotone-area"``: area by a smoothstep between inlet and outlet (monotone, zero slope at both
+  ends), log aspect ratio and exponent linear; the semi-axes are solved from them.
+- ``"linear"``: semi-axes interpolated linearly. Kept to show the trap: for a wide thin slot the
+  area swells by tens of percent mid-duct, an unintended diffuser.
+"""
+from collections import namedtuple
+
+import numpy as np
+
+from mdao.physics import superellipse
+
+__all__ = ["TransitionStations", "SCHEDULES", "INPUTS", "FIELDS", "stations",
+           "equivalent_cone_half_angle", "friction_integral"]
+
+TransitionStations = namedtuple(
+    "TransitionStations",
+    "position area perimeter hydraulic_diameter semi_axis_y semi_axis_z exponent half_angle")
+TransitionStations.__doc__ = (
+    "Duct stations: position [m], area [m**2], perimeter [m], hydraulic_diameter [m], "
+    "semi_axis_y [m], semi_axis_z [m], exponent [-] (all count long) and half_angle [rad] "
+    "(count-1 long, between stations).")
+
+SCHEDULES = ("monotone-area", "linear")
+INPUTS = ("fan_diameter", "slot_width", "slot_height", "length", "slot_exponent")
+FIELDS = ("position", "area", "perimeter", "hydraulic_diameter", "half_angle")
+
+
+def _positive(name, value):
+    value = np.asarray(value, dtype=float)
+    if np.any(~(value > 0.0)):
+        raise ValueError(f"{name} must be > 0; got {float(value[~(value > 0.0)].ravel()[0])!r}")
+    return value
+
+
+def _half_angle(position, area, d_position=None, d_area=None):
+    """atan(diff(sqrt(A/pi)) / diff(x)) between stations, and its differential."""
+    radius = np.sqrt(area / np.pi)
+    dr, dx = np.diff(radius, axis=-1), np.diff(position, axis=-1)
+    angle = np.arctan2(dr, dx)
+    if d_area is None:
+        return angle
+    d_radius = d_area / (2.0 * np.sqrt(np.pi * area))
+    ddr, ddx = np.diff(d_radius, axis=-1), np.diff(d_position, axis=-1)
+    return angle, (dx * ddr - dr * ddx) / (dx * dx + dr * dr)
+
+
+def stations(fan_diameter, slot_width, slot_height, length, slot_exponent,
+             schedule="monotone-area", count=33, derivatives=False):
+    r"""Sections of the transition duct at ``count`` equally spaced stations.
+
+    Inlet: circle of diameter :math:`D` (:math:`n = 2`). Outlet: super-ellipse of exponent
+    :math:`n_1`, aspect :math:`w/h`, area exactly :math:`A_1 = w h`. With :math:`t \in [0, 1]`:
+    :math:`n(t) = 2 + (n_1 - 2) t`, and for ``"monotone-area"``
+
+    .. math::
+        A(t) = A_0 + (A_1 - A_0)(3t^2 - 2t^3),\qquad \ln \mathrm{AR}(t) = t \ln(w/h),
+
+    the semi-axes solved by :func:`mdao.physics.superellipse.semi_axes`; for ``"linear"`` the
+    semi-axes run linearly from inlet to outlet. Hydraulic diameter :math:`4A/P`; equivalent cone
+    half-angle between stations :math:`\arctan(\Delta\sqrt{A/\pi}/\Delta x)` (positive when
+    diffusing).
+
+    Parameters
+    ----------
+    fan_diameter : float or array_like
+        Fan (inlet) diameter, [m], > 0.
+    slot_width, slot_height : float or array_like
+        Slot width (along the span) and height, [m], > 0.
+    length : float or array_like
+        Duct length, [m], > 0.
+    slot_exponent : float or array_like
+        Super-ellipse exponent of the outlet, [-], >= 2.
+    schedule : {"monotone-area", "linear"}
+        How the sections vary along the duct.
+    count : int
+        Number of stations, >= 3 (the station axis is last).
+    derivatives : bool
+        Also return the partial derivatives.
+
+    Returns
+    -------
+    stations : TransitionStations
+        Fields of shape ``(..., count)``; ``half_angle`` of shape ``(..., count - 1)``.
+    derivs : dict
+        ``{(field, input): ndarray}`` for field in ``FIELDS`` and input in ``INPUTS``, each the
+        field's shape (only when ``derivatives`` is true).
+
+    References
+    ----------
+    .. [1] Lame curve area and perimeter: :mod:`mdao.physics.superellipse`.
+    .. [2] Equivalent cone angle of a non-circular diffuser: Blevins, R. D., *Applied Fluid
+       Dynamics Handbook*, Van Nostrand Reinhold, 1984, ch. 6 (from memory).
+
+    Examples
+    --------
+    >>> s = stations(0.08, 0.25, 0.005, 0.3, 8.0, count=5)
+    >>> round(float(s.area[-1]), 12), round(float(s.area[0]), 12)
+    (0.00125, 0.005026548246)
+    """
+    if schedule not in SCHEDULES:
+        raise ValueError(f"schedule must be one of {SCHEDULES}; got {schedule!r}")
+    if not isinstance(count, (int, np.integer)) or count < 3:
+        raise ValueError(f"count must be an integer >= 3; got {count!r}")
+    d, w, h, length = (_positive(k, v)[..., None] for k, v in
+                       zip(INPUTS[:4], (fan_diameter, slot_width, slot_height, length)))
+    n1 = np.asarray(slot_exponent, dtype=float)[..., None]
+    if np.any(~(n1 >= 2.0)):
+        raise ValueError(f"slot_exponent must be >= 2; got {float(n1[~(n1 >= 2.0)].ravel()[0])!r}")
+
+    t = np.linspace(0.0, 1.0, count)
+    shape = np.broadcast_shapes(d.shape, w.shape, h.shape, length.shape, n1.shape, t.shape)
+    position = np.broadcast_to(t * length, shape)
+    n = np.broadcast_to(2.0 + (n1 - 2.0) * t, shape)
+    area0, area1, aspect1 = 0.25 * np.pi * d * d, w * h, w / h
+    zero = np.zeros(shape)
+    # differentials of the schedule's primary quantities, per input: (dA, da, db, dn) are filled
+    # below; dn and d position are simple.
+    d_n = {k: zero for k in INPUTS}
+    d_n["slot_exponent"] = np.broadcast_to(t, shape) + zero
+    d_pos = {k: zero for k in INPUTS}
+    d_pos["length"] = np.broadcast_to(t, shape) + zero
+
+    if schedule == "monotone-area":
+        smooth = t * t * (3.0 - 2.0 * t)
+        area = np.broadcast_to(area0 + (area1 - area0) * smooth, shape)
+        aspect = np.broadcast_to(aspect1 ** t, shape)
+        a, b, da, db = superellipse.semi_axes(area, aspect, n, derivatives=True)
+        d_area = {"fan_diameter": 0.5 * np.pi * d * (1.0 - smooth) + zero,
+                  "slot_width": h * smooth + zero, "slot_height": w * smooth + zero,
+                  "length": zero, "slot_exponent": zero}
+        d_aspect = {k: zero for k in INPUTS}
+        d_aspect["slot_width"] = t * aspect / w
+        d_aspect["slot_height"] = -t * aspect / h
+        d_a = {k: da["area"] * d_area[k] + da["aspect"] * d_aspect[k] + da["n"] * d_n[k]
+               for k in INPUTS}
+        d_b = {k: db["area"] * d_area[k] + db["aspect"] * d_aspect[k] + db["n"] * d_n[k]
+               for k in INPUTS}
+    else:
+        a1, b1, da1, db1 = superellipse.semi_axes(area1, aspect1, n1, derivatives=True)
+        a = np.broadcast_to(0.5 * d * (1.0 - t) + a1 * t, shape)
+        b = np.broadcast_to(0.5 * d * (1.0 - t) + b1 * t, shape)
+        area, area_a, area_b, area_n = superellipse.area(a, b, n, derivatives=True)
+        # outlet semi-axes against the inputs: through area1 = w h and aspect1 = w / h
+        d1 = {"slot_width": (h, 1.0 / h), "slot_height": (w, -w / h**2)}
+        d_a, d_b = {}, {}
+        for k in INPUTS:
+            if k in d1:
+                dA1, dAR1 = d1[k]
+                d_a1 = da1["area"] * dA1 + da1["aspect"] * dAR1
+                d_b1 = db1["area"] * dA1 + db1["aspect"] * dAR1
+            elif k == "slot_exponent":
+                d_a1, d_b1 = da1["n"], db1["n"]
+            else:
+                d_a1 = d_b1 = 0.0
+            d_inlet = 0.5 * (1.0 - t) if k == "fan_diameter" else 0.0
+            d_a[k] = d_inlet + d_a1 * t + zero
+            d_b[k] = d_inlet + d_b1 * t + zero
+        d_area = {k: area_a * d_a[k] + area_b * d_b[k] + area_n * d_n[k] for k in INPUTS}
+
+    result = superellipse.perimeter(a, b, n, derivatives=derivatives)
+    perimeter = result[0] if derivatives else result
+    hydraulic = 4.0 * area / perimeter
+    if not derivatives:
+        angle = _half_angle(position, area)
+        return TransitionStations(position, area, perimeter, hydraulic, a, b, n, angle)
+
+    _, p_a, p_b, p_n = result
+    derivs = {}
+    for k in INPUTS:
+        d_perimeter = p_a * d_a[k] + p_b * d_b[k] + p_n * d_n[k]
+        angle, d_angle = _half_angle(position, area, d_pos[k], d_area[k])
+        derivs["position", k] = d_pos[k]
+        derivs["area", k] = d_area[k]
+        derivs["perimeter", k] = d_perimeter
+        derivs["hydraulic_diameter", k] = 4.0 * (d_area[k] - area * d_perimeter / perimeter) / perimeter
+        derivs["half_angle", k] = d_angle
+    return TransitionStations(position, area, perimeter, hydraulic, a, b, n, angle), derivs
+
+
+def equivalent_cone_half_angle(area_in, area_out, length):
+    r"""Half-angle of the cone with the same length and end areas.
+
+    .. math:: \theta_e = \arctan\frac{\sqrt{A_2/\pi} - \sqrt{A_1/\pi}}{L}
+
+    Parameters
+    ----------
+    area_in, area_out : array_like
+        Inlet and outlet areas, [m**2], > 0.
+    length : array_like
+        Axial length, [m], > 0.
+
+    Returns
+    -------
+    theta : ndarray
+        Equivalent cone half-angle, [rad]; positive for a diffuser, negative for a nozzle.
+
+    Notes
+    -----
+    Steady attached flow needs a total angle :math:`2\theta_e` of at most about 5-7 deg (Mehta &
+    Bradshaw 1979, from memory).
+
+    References
+    ----------
+    .. [1] Mehta, R. D. and Bradshaw, P. "Design rules for small low speed wind tunnels."
+       Aeronautical Journal 83 (1979): 443-449 (from memory).
+
+    Examples
+    --------
+    >>> round(float(equivalent_cone_half_angle(np.pi, 4.0 * np.pi, 10.0)), 12)
+    0.099668652491
+    """
+    area_in, area_out = _positive("area_in", area_in), _positive("area_out", area_out)
+    length = _positive("length", length)
+    return np.arctan((np.sqrt(area_out / np.pi) - np.sqrt(area_in / np.pi)) / length)
+
+
+def friction_integral(position, area, perimeter, darcy, area_ref, derivatives=False):
+    r"""Friction loss coefficient of the duct, referred to the velocity at ``area_ref``.
+
+    .. math::
+        K_f = \int_0^L \frac{f}{D_h}\left(\frac{A_{ref}}{A}\right)^2 dx,\qquad D_h = \frac{4A}{P}
+
+    by the trapezoid rule over the stations.
+
+    Parameters
+    ----------
+    position, area, perimeter : array_like, shape (count,)
+        Station positions [m], areas [m**2] and perimeters [m].
+    darcy : array_like, shape (n, count)
+        Darcy friction factor at each station for each operating point, [-].
+    area_ref : float or array_like, shape (n,)
+        Area whose velocity the coefficient refers to, [m**2].
+    derivatives : bool
+        Also return the partial derivatives.
+
+    Returns
+    -------
+    K : ndarray, shape (n,)
+        Friction loss coefficient, [-].
+    d : dict
+        Partials of K keyed ``'position'``, ``'area'``, ``'perimeter'``, ``'darcy'`` (each
+        (n, count): dK_i / dx_ij) and ``'area_ref'`` ((n,)); only when ``derivatives`` is true.
+
+    References
+    ----------
+    .. [1] Darcy-Weisbach friction loss, e.g. White, F. M. *Fluid Mechanics*, 7th ed.,
+       McGraw-Hill, 2011, sec. 6.6, with the hydraulic diameter for non-circular ducts (sec. 6.8).
+
+    Examples
+    --------
+    >>> x = np.linspace(0.0, 1.0, 3)
+    >>> a = np.full(3, np.pi / 4)            # 1 m circular duct, 1 m long
+    >>> p = np.full(3, np.pi)
+    >>> float(friction_integral(x, a, p, np.full((1, 3), 0.02), np.pi / 4)[0])
+    0.02
+    """
+    position = np.asarray(position, dtype=float)
+    area = _positive("area", area)
+    perimeter = _positive("perimeter", perimeter)
+    darcy = np.atleast_2d(np.asarray(darcy, dtype=float))
+    area_ref = _positive("area_ref", area_ref)
+    ref = np.reshape(area_ref, (-1, 1)) if area_ref.ndim else area_ref
+    scale = perimeter / (4.0 * area) * (ref / area) ** 2
+    g = darcy * scale
+    dx = np.diff(position)
+    mean = 0.5 * (g[:, 1:] + g[:, :-1])
+    k = np.sum(mean * dx, axis=-1)
+    if not derivatives:
+        return k
+    weights = np.zeros(position.shape)
+    weights[1:] += 0.5 * dx
+    weights[:-1] += 0.5 * dx
+    d_position = np.zeros(g.shape)
+    d_position[:, 1:] += mean
+    d_position[:, :-1] -= mean
+    d_g = np.broadcast_to(weights, g.shape)
+    return k, {"position": d_position,
+               "area": -3.0 * g / area * d_g,
+               "perimeter": g / perimeter * d_g,
+               "darcy": scale * d_g + np.zeros(g.shape),
+               "area_ref": 2.0 * k / area_ref}

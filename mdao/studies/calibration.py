@@ -1,0 +1,733 @@
+r"""Calibration of the reduced-order constants from the designer's own CFD or wind-tunnel runs.
+
+Three linear least-squares fits, each solved by a QR factorisation of the column-equilibrated
+design matrix (never the normal equations) [1]_:
+
+Duct relation (runs with the jet on), for the jet loss factor :math:`K_j` and the freestream
+assist :math:`K_\infty`:
+
+.. math::
+    \Delta p_{fan} = K_j \tfrac12\rho V_j^2 - K_\infty q .
+
+Dividing by :math:`q` shows what separates them: :math:`\Delta p/q = K_j (V_j/V)^2 - K_\infty`,
+so the ratio :math:`(V_j/V)^2 = C_\mu / (2 r_s)` must vary across the runs, and so must the
+freestream dynamic pressure itself (else :math:`K_\infty q` cannot be told from a constant
+pressure offset).
+
+Drag model (all runs, jet-off runs included):
+
+.. math::
+    C_D = C_{D,clean} + \Delta C_{D,slot} + \Delta C_{D,slot}' r_s + (\beta + \beta' r_s) C_\mu .
+
+With ``drag_coefficient_clean`` given, :math:`C_D - C_{D,clean}` is fitted on :math:`[1, C_\mu]`
+(one slot ratio) or :math:`[1, r_s, C_\mu, r_s C_\mu]` (several), and the clean drag reported is
+the mean of the given column. Without it, several slot ratios are required: :math:`C_D` is fitted on
+:math:`[1, r_s, C_\mu, r_s C_\mu]` with :math:`\Delta C_{D,slot} = 0`, i.e. the slot penalty is
+taken as proportional to the slot ratio (the result says so).
+
+Lift (when ``lift_coefficient`` is given): :math:`C_L = C_{L,0} + (dC_L/dC_\mu) C_\mu`.
+
+Per constant: value, standard error, 95 % confidence interval (Student t, dof = runs - constants)
+and covariance; per fit: :math:`R^2` (centred when the model has an intercept, about zero
+otherwise, as statsmodels does), residual standard deviation, runs used, ranges covered, and
+outliers: runs whose internally or externally studentized residual exceeds 3 in magnitude [2]_,
+flagged by their 1-based data row and never dropped.
+
+Plausibility warnings (:class:`CalibrationWarning`, also listed in the result), each a rule of
+thumb, ``common practice, no source``: :math:`K_j` about 1.3 (warn outside 1.0-2.5; below 1 the duct
+would recover more than the jet's own head), :math:`K_\infty` about 1 (warn outside 0.3-2.0), drag
+slope :math:`dC_D/dC_\mu = \beta + \beta' r_s` about -1.5 (warn outside -4 to -0.3 anywhere in the
+slot-ratio range covered), jet-off slotted drag about three times the clean drag (warn when the
+ratio leaves 1-8 in the slot-ratio range covered).
+
+References
+----------
+.. [1] Golub, G. H. and Van Loan, C. F. *Matrix Computations*, 4th ed., Johns Hopkins, 2013,
+   section 5.3 (least squares by Householder QR; why not the normal equations).
+.. [2] Belsley, D. A., Kuh, E. and Welsch, R. E. *Regression Diagnostics*, Wiley, 1980, ch. 2
+   (leverage, internally and externally studentized residuals).
+.. [3] Seber, G. A. F. and Lee, A. J. *Linear Regression Analysis*, 2nd ed., Wiley, 2003, ch. 3
+   and 5 (covariance, Student-t confidence intervals).
+.. [4] NIST Statistical Reference Datasets, linear least squares, Longley (1967): the check of the
+   least-squares core in the tests.
+"""
+import hashlib
+import json
+import math
+import os
+import tempfile
+import warnings
+
+import numpy as np
+from scipy import linalg, stats
+
+from mdao.studies.runs import CalibrationError, check_runs, derived, fit_plan, read_runs
+
+try:
+    import tomllib
+except ModuleNotFoundError:  # Python 3.10
+    import tomli as tomllib
+
+__all__ = ["CalibrationError", "CalibrationWarning", "PLAUSIBLE", "CAUTION", "read_runs",
+           "least_squares", "calibrate", "calibrate_file", "format_summary", "load_fragment",
+           "fragment_text"]
+
+CAUTION = ("Preliminary design estimates: not airworthiness evidence; regulations, the certifying "
+           "authority and licensed engineering practice govern.")
+
+#: Rules of thumb (common practice, no source): (typical value, low, high) of the warning band.
+PLAUSIBLE = {
+    "duct.jet_loss_factor": (1.3, 1.0, 2.5),
+    "duct.freestream_assist": (1.0, 0.3, 2.0),
+    "drag_slope": (-1.5, -4.0, -0.3),
+    "jet_off_to_clean": (3.0, 1.0, 8.0),
+}
+
+#: Order of the case constants in the outputs.
+CONSTANT_ORDER = ("duct.jet_loss_factor", "duct.freestream_assist", "airfoil.drag_clean",
+                  "airfoil.slot_drag", "airfoil.slot_drag_per_ratio", "airfoil.thrust_leverage",
+                  "airfoil.thrust_leverage_per_ratio", "airfoil.lift_per_momentum")
+
+#: Outlier threshold on the studentized residuals.
+OUTLIER_LIMIT = 3.0
+#: Smallest relative spread (max - min) / mean of q and of (V_j/V)^2 that identifies K_inf.
+MIN_RELATIVE_SPREAD = 0.01
+#: Largest condition number of the column-equilibrated design matrix.
+MAX_CONDITION = 1e10
+
+
+class CalibrationWarning(UserWarning):
+    """A fitted constant far from the usual values for such sections (not an error)."""
+
+
+def least_squares(design, response, level=0.95):
+    """Ordinary least squares by Householder QR of the column-equilibrated design matrix.
+
+    Parameters
+    ----------
+    design : array_like, shape (n, p)
+        Design matrix X (one row per run).
+    response : array_like, shape (n,)
+        Response y.
+    level : float
+        Confidence level of the intervals, [-].
+
+    Returns
+    -------
+    dict
+        ``params`` (p,), ``stderr`` (p,), ``covariance`` (p, p), ``ci`` (p, 2), ``fitted``,
+        ``residuals``, ``leverage``, ``studentized_internal``, ``studentized_external`` (n,),
+        ``dof``, ``residual_std``, ``r2``, ``r2_kind`` ('centred' with a constant column, else
+        'uncentred'), ``condition`` of the equilibrated X.
+
+    Raises
+    ------
+    CalibrationError
+        Fewer than p + 1 rows, or X rank-deficient (condition above :data:`MAX_CONDITION`).
+
+    Notes
+    -----
+    With :math:`X D = Q R` (D scales each column to unit norm): :math:`b = D R^{-1} Q^T y`,
+    :math:`\\mathrm{Cov}\\,b = s^2 D R^{-1} R^{-T} D`, :math:`s^2 = \\|y - Xb\\|^2/(n-p)`,
+    leverage :math:`h_i = \\|Q_{i,:}\\|^2`, internally studentized :math:`r_i/(s\\sqrt{1-h_i})`,
+    externally :math:`r_i/(s_{(i)}\\sqrt{1-h_i})` with
+    :math:`s_{(i)}^2 = (\\|r\\|^2 - r_i^2/(1-h_i))/(n-p-1)` [2]_.
+
+    Examples
+    --------
+    >>> fit = least_squares([[1, 0], [1, 1], [1, 2], [1, 3]], [1.0, 3.0, 5.0, 7.5])
+    >>> [round(float(v), 12) for v in fit['params']], round(float(fit['residual_std']), 12)
+    ([0.9, 2.15], 0.19364916731)
+    """
+    x = np.asarray(design, dtype=float)
+    y = np.asarray(response, dtype=float)
+    n, p = x.shape
+    if n <= p:
+        raise CalibrationError(f"{n} runs cannot fit {p} constants")
+    norms = np.linalg.norm(x, axis=0)
+    if np.any(norms == 0):
+        raise CalibrationError("a column of the design matrix is all zero")
+    xs = x / norms
+    singular = linalg.svdvals(xs)
+    condition = singular[0] / singular[-1] if singular[-1] > 0 else math.inf
+    if condition > MAX_CONDITION:
+        raise CalibrationError(f"the design matrix is rank-deficient (condition {condition:.3g})")
+    q, r = linalg.qr(xs, mode="economic")
+    coef_scaled = linalg.solve_triangular(r, q.T @ y)
+    params = coef_scaled / norms
+    fitted = x @ params
+    residuals = y - fitted
+    dof = n - p
+    sse = float(residuals @ residuals)
+    variance = sse / dof
+    r_inv = linalg.solve_triangular(r, np.eye(p))
+    covariance = variance * (r_inv @ r_inv.T) / np.outer(norms, norms)
+    stderr = np.sqrt(np.diag(covariance))
+    t = stats.t.ppf(0.5 + level / 2, dof)
+    has_constant = bool(np.any((np.ptp(x, axis=0) == 0) & (x[0] != 0)))
+    total = float(np.sum((y - y.mean()) ** 2)) if has_constant else float(y @ y)
+    leverage = np.sum(q ** 2, axis=1)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        spread = np.sqrt(1.0 - leverage)
+        internal = residuals / (math.sqrt(variance) * spread)
+        deleted = (sse - residuals ** 2 / (1.0 - leverage)) / (dof - 1) if dof > 1 else np.nan
+        external = residuals / (np.sqrt(deleted) * spread)
+    return {
+        "params": params, "stderr": stderr, "covariance": covariance,
+        "ci": np.column_stack([params - t * stderr, params + t * stderr]), "t": t,
+        "fitted": fitted, "residuals": residuals, "leverage": leverage,
+        "studentized_internal": internal, "studentized_external": external,
+        "dof": dof, "residual_std": math.sqrt(variance),
+        "r2": 1.0 - sse / total if total > 0 else math.nan,
+        "r2_kind": "centred" if has_constant else "uncentred", "condition": condition,
+    }
+
+
+def _number(value):
+    value = float(value)
+    return value if math.isfinite(value) else None
+
+
+def _ranges(d, rows):
+    return {
+        "momentum_coefficient": [float(d["momentum_coefficient"][rows].min()),
+                                 float(d["momentum_coefficient"][rows].max())],
+        "slot_ratio": [float(d["slot_ratio"][rows].min()), float(d["slot_ratio"][rows].max())],
+        "reynolds": [float(d["reynolds"][rows].min()), float(d["reynolds"][rows].max())],
+        "speed": [float(d["speed"][rows].min()), float(d["speed"][rows].max())],
+    }
+
+
+def _fit_record(name, model, response, names, design, y, rows, d, hint):
+    """Run one fit and package it JSON-ready."""
+    try:
+        fit = least_squares(design, y)
+    except CalibrationError as exc:
+        raise CalibrationError(f"{name} fit: {exc}; {hint}") from None
+    row_numbers = np.flatnonzero(rows) + 1
+    flagged = np.flatnonzero(np.fmax(np.abs(np.nan_to_num(fit["studentized_internal"])),
+                                     np.abs(np.nan_to_num(fit["studentized_external"])))
+                             > OUTLIER_LIMIT)
+    outliers = [{"row": int(row_numbers[i]), "residual": float(fit["residuals"][i]),
+                 "studentized_internal": _number(fit["studentized_internal"][i]),
+                 "studentized_external": _number(fit["studentized_external"][i])}
+                for i in flagged]
+    return {
+        "model": model, "response": response,
+        "parameters": {n: {"value": float(fit["params"][i]), "stderr": float(fit["stderr"][i]),
+                           "ci95": [float(fit["ci"][i, 0]), float(fit["ci"][i, 1])]}
+                       for i, n in enumerate(names)},
+        "covariance": {"parameters": list(names), "matrix": fit["covariance"].tolist()},
+        "r2": _number(fit["r2"]), "r2_kind": fit["r2_kind"],
+        "residual_std": float(fit["residual_std"]), "runs": int(rows.sum()), "dof": fit["dof"],
+        "t95": float(fit["t"]), "condition": float(fit["condition"]),
+        "ranges": _ranges(d, rows), "rows": row_numbers.tolist(),
+        "fitted": fit["fitted"].tolist(), "residuals": fit["residuals"].tolist(),
+        "studentized_external": [_number(v) for v in fit["studentized_external"]],
+        "outliers": outliers, "warnings": [],
+    }
+
+
+def _spread(values):
+    values = np.asarray(values, float)
+    return float(np.ptp(values) / abs(values.mean()))
+
+
+def _fit_duct(d, fan_rise):
+    rows = d["jet_on"]
+    q, jet_q = d["dynamic_pressure"][rows], d["jet_dynamic_pressure"][rows]
+    if _spread(q) < MIN_RELATIVE_SPREAD:
+        raise CalibrationError(
+            "duct fit: the freestream dynamic pressure never varies across the jet-on runs, so "
+            "duct.freestream_assist cannot be told from a constant offset; `speed` (or "
+            "`density`/`altitude`) must vary independently of the jet")
+    if _spread(jet_q / q) < MIN_RELATIVE_SPREAD:
+        raise CalibrationError(
+            "duct fit: the jet's dynamic pressure is proportional to the freestream's across the "
+            "runs ((V_j/V)^2 constant), so duct.jet_loss_factor and duct.freestream_assist cannot "
+            "be separated; `speed` (or `density`/`altitude`) must vary independently of the jet "
+            "(`mass_flow`/`volume_flow`)")
+    return _fit_record(
+        "duct", "fan_pressure_rise = K_j rho V_j^2/2 - K_inf q", "fan_pressure_rise [Pa]",
+        ["duct.jet_loss_factor", "duct.freestream_assist"],
+        np.column_stack([jet_q, -q]), fan_rise[rows], rows, d,
+        "`speed` (or `density`/`altitude`) must vary independently of the jet")
+
+
+def _fit_drag(runs, d, several):
+    cmu, ratio = d["momentum_coefficient"], d["slot_ratio"]
+    rows = np.ones(cmu.shape, bool)
+    notes, extra = [], {}
+    if several:
+        design = np.column_stack([np.ones_like(cmu), ratio, cmu, ratio * cmu])
+        hint = ("vary `mass_flow`/`volume_flow` (the momentum coefficient) at two or more slot "
+                "heights")
+    else:
+        design = np.column_stack([np.ones_like(cmu), cmu])
+        hint = "vary `mass_flow`/`volume_flow` (the momentum coefficient)"
+    drag = runs["drag_coefficient"]
+    if "drag_coefficient_clean" in runs:
+        clean = runs["drag_coefficient_clean"]
+        y, response = drag - clean, "drag_coefficient - drag_coefficient_clean [-]"
+        names = (["airfoil.slot_drag", "airfoil.slot_drag_per_ratio", "airfoil.thrust_leverage",
+                  "airfoil.thrust_leverage_per_ratio"] if several
+                 else ["airfoil.slot_drag", "airfoil.thrust_leverage"])
+        n = clean.size
+        se = float(np.std(clean, ddof=1) / math.sqrt(n))
+        t = float(stats.t.ppf(0.975, n - 1))
+        mean = float(clean.mean())
+        extra["airfoil.drag_clean"] = {"value": mean, "stderr": se,
+                                       "ci95": [mean - t * se, mean + t * se],
+                                       "source": "mean of drag_coefficient_clean"}
+        model = ("drag_coefficient - drag_coefficient_clean = slot_drag + slot_drag_per_ratio r_s "
+                 "+ (thrust_leverage + thrust_leverage_per_ratio r_s) C_mu" if several else
+                 "drag_coefficient - drag_coefficient_clean = slot_drag + thrust_leverage C_mu")
+    else:
+        if not several:
+            raise CalibrationError(
+                "drag fit: with one slot ratio, clean drag and slot penalty cannot be separated; "
+                "give the column `drag_coefficient_clean` or vary `slot_height` (slot ratio)")
+        y, response = drag, "drag_coefficient [-]"
+        names = ["airfoil.drag_clean", "airfoil.slot_drag_per_ratio", "airfoil.thrust_leverage",
+                 "airfoil.thrust_leverage_per_ratio"]
+        extra["airfoil.slot_drag"] = {"value": 0.0, "stderr": 0.0, "ci95": [0.0, 0.0],
+                                      "fixed": True,
+                                      "source": "slot penalty taken proportional to slot "
+                                                "ratio (no drag_coefficient_clean given)"}
+        notes.append("no drag_coefficient_clean column: the slot penalty is taken proportional to "
+                     "the slot ratio (airfoil.slot_drag fixed at 0) and airfoil.drag_clean is the "
+                     "fit's intercept at zero slot ratio")
+        model = ("drag_coefficient = drag_clean + slot_drag_per_ratio r_s + (thrust_leverage + "
+                 "thrust_leverage_per_ratio r_s) C_mu")
+    record = _fit_record("drag", model, response, names, design, y, rows, d, hint)
+    record["derived_constants"] = extra
+    return record, notes
+
+
+def _fit_lift(runs, d):
+    cmu = d["momentum_coefficient"]
+    return _fit_record(
+        "lift", "lift_coefficient = lift_coefficient_jet_off + lift_per_momentum C_mu",
+        "lift_coefficient [-]", ["lift_coefficient_jet_off", "airfoil.lift_per_momentum"],
+        np.column_stack([np.ones_like(cmu), cmu]), runs["lift_coefficient"],
+        np.ones(cmu.shape, bool), d, "vary `mass_flow`/`volume_flow` (the momentum coefficient)")
+
+
+def _plausibility(constants, ratio_range):
+    """Warnings for constants far from the rules of thumb (common practice, no source)."""
+    found = []
+
+    def check(key, label, value, where=""):
+        typical, low, high = PLAUSIBLE[key]
+        if not low <= value <= high:
+            found.append(("duct" if key.startswith("duct") else "drag",
+                          f"{label} = {value:.4g}{where} is far from the usual ~{typical:g} "
+                          f"(expected {low:g} to {high:g}; common practice, no source): check the "
+                          "runs and units"))
+
+    for key, label in (("duct.jet_loss_factor", "jet loss factor K_j"),
+                       ("duct.freestream_assist", "freestream assist K_inf")):
+        check(key, label, constants[key]["value"])
+    value = {k: v["value"] for k, v in constants.items()}
+    for r_s in sorted(set(ratio_range)):
+        where = f" at slot ratio {r_s:.4g}"
+        check("drag_slope", "drag slope dC_D/dC_mu",
+              value["airfoil.thrust_leverage"] + value.get("airfoil.thrust_leverage_per_ratio", 0.0)
+              * r_s, where)
+        clean = value["airfoil.drag_clean"]
+        jet_off = clean + value["airfoil.slot_drag"] + value.get("airfoil.slot_drag_per_ratio",
+                                                                  0.0) * r_s
+        if clean <= 0:
+            found.append(("drag", f"clean drag {clean:.4g} is not positive: check the runs"))
+            break
+        check("jet_off_to_clean", "jet-off over clean drag", jet_off / clean, where)
+    return found
+
+
+def calibrate(runs):
+    """Fit the reduced-order constants to a table of runs.
+
+    Parameters
+    ----------
+    runs : dict of str to array_like
+        Columns in SI (see :data:`mdao.studies.runs.COLUMNS`), e.g. from :func:`read_runs`.
+
+    Returns
+    -------
+    dict
+        JSON-ready: ``constants`` (case key path -> ``value``, ``stderr``, ``ci95``),
+        ``covariance`` (``parameters``, ``matrix``; zero between separate fits), ``fits``
+        (``duct``, ``drag``, ``lift``), ``validity`` (ranges over all runs), ``warnings``,
+        ``notes``, ``caution``.
+
+    Raises
+    ------
+    CalibrationError
+        Unusable runs, or a constant the runs cannot identify (the message names the column
+        that must vary).
+
+    Warns
+    -----
+    CalibrationWarning
+        A constant far from the usual values (see :data:`PLAUSIBLE`).
+    """
+    runs = check_runs(runs)
+    plan = fit_plan(runs)
+    d = derived(runs)
+    d["speed"] = runs["speed"]
+    notes = list(d["notes"])
+    fits = {"duct": _fit_duct(d, runs["fan_pressure_rise"])}
+    if not d["jet_on"].all():
+        off = (np.flatnonzero(~d["jet_on"]) + 1).tolist()
+        notes.append(f"jet-off runs (rows {off}) are left out of the duct fit and used in the "
+                     "drag and lift fits")
+    fits["drag"], drag_notes = _fit_drag(runs, d, plan["several_slot_ratios"])
+    notes += drag_notes
+    if "lift_coefficient" in runs:
+        fits["lift"] = _fit_lift(runs, d)
+    found = {}
+    for fit in fits.values():
+        for key, entry in fit["parameters"].items():
+            if key in CONSTANT_ORDER:
+                found[key] = dict(entry)
+    for key, entry in fits["drag"].pop("derived_constants").items():
+        found[key] = entry
+        fits["drag"].setdefault("fixed_or_given", {})[key] = entry
+    constants = {key: found[key] for key in CONSTANT_ORDER if key in found}
+    parameters = list(constants)
+    matrix = np.zeros((len(parameters), len(parameters)))
+    for fit in fits.values():
+        names = fit["covariance"]["parameters"]
+        cov = np.asarray(fit["covariance"]["matrix"])
+        for i, a in enumerate(names):
+            for j, b in enumerate(names):
+                if a in constants and b in constants:
+                    matrix[parameters.index(a), parameters.index(b)] = cov[i, j]
+    for key, entry in constants.items():
+        if key not in fits["drag"]["parameters"] and key not in fits["duct"]["parameters"] \
+                and key != "airfoil.lift_per_momentum":
+            k = parameters.index(key)
+            matrix[k, k] = entry["stderr"] ** 2
+    all_rows = np.ones(runs["speed"].shape, bool)
+    validity = _ranges(d, all_rows)
+    warned = _plausibility(constants, validity["slot_ratio"])
+    for fit_name, message in warned:
+        fits[fit_name]["warnings"].append(message)
+        warnings.warn(message, CalibrationWarning, stacklevel=2)
+    return {
+        "constants": constants,
+        "covariance": {"parameters": parameters, "matrix": matrix.tolist()},
+        "fits": fits, "validity": validity, "runs": int(all_rows.size),
+        "warnings": [message for _, message in warned], "notes": notes,
+        "rules_of_thumb": {k: {"typical": v[0], "warn_outside": [v[1], v[2]],
+                               "source": "common practice, no source"}
+                           for k, v in PLAUSIBLE.items()},
+        "caution": CAUTION,
+    }
+
+
+def _toml_value(value):
+    if isinstance(value, str):
+        return json.dumps(value)
+    if isinstance(value, (list, tuple)):
+        return "[" + ", ".join(_toml_value(v) for v in value) + "]"
+    value = float(value)
+    if not math.isfinite(value):
+        raise CalibrationError(f"cannot write the non-finite value {value} to TOML")
+    return repr(value)
+
+
+def fragment_text(result, source=None):
+    """The calibration fragment a case file reads (TOML text, written by hand).
+
+    Parameters
+    ----------
+    result : dict
+        From :func:`calibrate`.
+    source : dict, optional
+        ``{'csv': path, 'sha256': digest}``, written as comments.
+
+    Returns
+    -------
+    str
+        TOML with sections ``[duct]``, ``[airfoil]``, ``[validity]``, ``[uncertainty]``.
+    """
+    constants, validity = result["constants"], result["validity"]
+    lines = ["# blownwing calibration fragment (generated); preliminary design estimates"]
+    if source:
+        lines.append(f"# runs: {source['csv']} (sha256 {source['sha256']})")
+    for section in ("duct", "airfoil"):
+        lines.append(f"[{section}]")
+        for key, entry in constants.items():
+            if key.startswith(section + "."):
+                comment = "  # fixed: " + entry["source"] if entry.get("fixed") else ""
+                lines.append(f"{key.split('.', 1)[1]} = {_toml_value(entry['value'])}{comment}")
+        if section == "airfoil":
+            lines.append("momentum_coefficient_range = "
+                         + _toml_value(validity["momentum_coefficient"]))
+    lines += ["[validity]",
+              "slot_ratio_range = " + _toml_value(validity["slot_ratio"]),
+              "reynolds_range = " + _toml_value(validity["reynolds"]),
+              "speed_range = " + _toml_value([f"{float(v)!r} m/s" for v in validity["speed"]]),
+              "[uncertainty]",
+              "parameters = " + _toml_value(result["covariance"]["parameters"]),
+              "stderr = " + _toml_value([constants[k]["stderr"]
+                                         for k in result["covariance"]["parameters"]]),
+              "# covariance: full matrix over `parameters`, zero between separate fits",
+              "covariance = ["]
+    lines += ["  " + _toml_value(row) + "," for row in result["covariance"]["matrix"]]
+    lines.append("]")
+    return "\n".join(lines) + "\n"
+
+
+def load_fragment(path):
+    """Read a calibration fragment (``calibration.toml``) back.
+
+    Parameters
+    ----------
+    path : str or path-like
+        The fragment.
+
+    Returns
+    -------
+    dict
+        ``constants`` (case key path -> value), ``stderr`` (key -> value), ``covariance``
+        (``parameters``, ``matrix``), ``validity``: ``momentum_coefficient_range``,
+        ``slot_ratio_range``, ``reynolds_range`` [-] and ``speed_range`` [m/s], each [low, high].
+
+    Raises
+    ------
+    CalibrationError
+        Missing section or key, or an inconsistent uncertainty block (names the key).
+    """
+    with open(path, "rb") as handle:
+        try:
+            data = tomllib.load(handle)
+        except tomllib.TOMLDecodeError as exc:
+            raise CalibrationError(f"{path}: not valid TOML ({exc})") from None
+    for section in ("duct", "airfoil", "validity", "uncertainty"):
+        if not isinstance(data.get(section), dict):
+            raise CalibrationError(f"{path}: missing section [{section}]")
+    airfoil = dict(data["airfoil"])
+    validity = {}
+    if "momentum_coefficient_range" not in airfoil:
+        raise CalibrationError(f"{path}: missing key airfoil.momentum_coefficient_range")
+    validity["momentum_coefficient_range"] = [float(v) for v in
+                                              airfoil.pop("momentum_coefficient_range")]
+    constants = {f"duct.{k}": float(v) for k, v in data["duct"].items()}
+    constants.update({f"airfoil.{k}": float(v) for k, v in airfoil.items()})
+    from mdao.studies.runs import _ureg
+    for key in ("slot_ratio_range", "reynolds_range", "speed_range"):
+        if key not in data["validity"]:
+            raise CalibrationError(f"{path}: missing key validity.{key}")
+    validity["slot_ratio_range"] = [float(v) for v in data["validity"]["slot_ratio_range"]]
+    validity["reynolds_range"] = [float(v) for v in data["validity"]["reynolds_range"]]
+    try:
+        validity["speed_range"] = [float(_ureg().Quantity(v).to("m/s").magnitude)
+                                   for v in data["validity"]["speed_range"]]
+    except Exception as exc:
+        raise CalibrationError(f"{path}: validity.speed_range must be speeds like \"12.0 m/s\" "
+                               f"({exc})") from None
+    unc = data["uncertainty"]
+    for key in ("parameters", "stderr", "covariance"):
+        if key not in unc:
+            raise CalibrationError(f"{path}: missing key uncertainty.{key}")
+    names = list(unc["parameters"])
+    matrix = [[float(v) for v in row] for row in unc["covariance"]]
+    if sorted(names) != sorted(constants):
+        raise CalibrationError(f"{path}: uncertainty.parameters {names} do not match the "
+                               f"constants {sorted(constants)}")
+    if len(unc["stderr"]) != len(names) or len(matrix) != len(names) \
+            or any(len(row) != len(names) for row in matrix):
+        raise CalibrationError(f"{path}: uncertainty.stderr and uncertainty.covariance must be "
+                               f"of size {len(names)} (one per parameter)")
+    return {"constants": constants,
+            "stderr": {k: float(v) for k, v in zip(names, unc["stderr"])},
+            "covariance": {"parameters": names, "matrix": matrix},
+            "validity": validity}
+
+
+def _write_atomic(path, write):
+    """Write through ``write(handle)`` into a temporary file beside ``path``, then os.replace."""
+    folder = os.path.dirname(os.path.abspath(path))
+    fd, temp = tempfile.mkstemp(dir=folder, prefix="." + os.path.basename(path) + ".",
+                                suffix=".tmp")
+    try:
+        with os.fdopen(fd, "wb") as handle:
+            write(handle)
+        os.replace(temp, path)
+    except BaseException:
+        if os.path.exists(temp):
+            os.remove(temp)
+        raise
+
+
+def _plots(runs, result, out_dir):
+    """PNG plots (duct collapse, drag against C_mu with 95 % band, residuals); [] without
+    matplotlib."""
+    try:
+        from matplotlib.figure import Figure
+    except ImportError:
+        return []
+    d = derived(runs)
+    written = []
+    fits = result["fits"]
+
+    def save(fig, name):
+        path = os.path.join(out_dir, name)
+        _write_atomic(path, lambda handle: fig.savefig(handle, format="png", dpi=120))
+        written.append(path)
+
+    duct = fits["duct"]
+    rows = np.asarray(duct["rows"]) - 1
+    q = d["dynamic_pressure"][rows]
+    x = d["jet_dynamic_pressure"][rows] / q
+    k_j = duct["parameters"]["duct.jet_loss_factor"]["value"]
+    k_inf = duct["parameters"]["duct.freestream_assist"]["value"]
+    fig = Figure(figsize=(6.4, 4.8))
+    ax = fig.add_subplot()
+    points = ax.scatter(x, runs["fan_pressure_rise"][rows] / q, c=d["slot_ratio"][rows], s=18)
+    fig.colorbar(points, ax=ax, label="slot ratio [-]")
+    line = np.linspace(0.0, x.max() * 1.05, 50)
+    ax.plot(line, k_j * line - k_inf, "k-", label=f"fit: K_j = {k_j:.3f}, K_inf = {k_inf:.3f}")
+    ax.set_xlabel("jet over freestream dynamic pressure (V_j/V)^2 [-]")
+    ax.set_ylabel("fan pressure rise over q [-]")
+    ax.set_title("Duct runs collapsed on the fitted relation")
+    ax.legend()
+    ax.grid(alpha=0.3)
+    save(fig, "duct_collapse.png")
+
+    drag = fits["drag"]
+    names = drag["covariance"]["parameters"]
+    beta = np.array([drag["parameters"][n]["value"] for n in names])
+    cov = np.asarray(drag["covariance"]["matrix"])
+    cmu, ratio = d["momentum_coefficient"], d["slot_ratio"]
+    given = "drag_coefficient_clean" in runs
+    y = runs["drag_coefficient"] - (runs["drag_coefficient_clean"] if given else 0.0)
+    fig = Figure(figsize=(6.4, 4.8))
+    ax = fig.add_subplot()
+    values = np.sort(ratio)
+    groups = [values[0]] + [v for a, v in zip(values[:-1], values[1:]) if v > a * (1 + 1e-6)]
+    line = np.linspace(0.0, cmu.max() * 1.05, 60)
+    for r_s in groups:
+        near = np.abs(ratio - r_s) <= 1e-6 * r_s
+        color = ax.scatter(cmu[near], y[near], s=18).get_facecolor()[0]
+        design = (np.column_stack([np.ones_like(line), np.full_like(line, r_s), line, r_s * line])
+                  if len(names) == 4 else np.column_stack([np.ones_like(line), line]))
+        mean = design @ beta
+        half = drag["t95"] * np.sqrt(np.einsum("ij,jk,ik->i", design, cov, design))
+        ax.plot(line, mean, color=color, label=f"r_s = {r_s:.4g}")
+        ax.fill_between(line, mean - half, mean + half, color=color, alpha=0.2)
+    ax.set_xlabel("momentum coefficient C_mu [-]")
+    ax.set_ylabel("C_D - C_D,clean [-]" if given else "drag coefficient C_D [-]")
+    ax.set_title("Drag against momentum coefficient (fit, 95 % confidence band)")
+    ax.legend()
+    ax.grid(alpha=0.3)
+    save(fig, "drag_momentum.png")
+
+    fig = Figure(figsize=(6.4, 2.2 * len(fits) + 1.0))
+    for i, (name, fit) in enumerate(fits.items(), start=1):
+        ax = fig.add_subplot(len(fits), 1, i)
+        student = np.array([np.nan if v is None else v for v in fit["studentized_external"]])
+        ax.plot(fit["rows"], student, "o", ms=4)
+        for o in fit["outliers"]:
+            ax.annotate(f"row {o['row']}", (o["row"], o["studentized_external"] or 0.0))
+        ax.axhline(OUTLIER_LIMIT, color="r", lw=0.8)
+        ax.axhline(-OUTLIER_LIMIT, color="r", lw=0.8)
+        ax.axhline(0.0, color="k", lw=0.5)
+        ax.set_ylabel(f"{name}\nstudentized")
+        ax.grid(alpha=0.3)
+    ax.set_xlabel("run (data row)")
+    fig.suptitle("Externally studentized residuals (|value| > 3 flagged)")
+    fig.tight_layout()
+    save(fig, "residuals.png")
+    return written
+
+
+def calibrate_file(csv_path, out_dir, plots=True):
+    """Read runs, fit, and write ``calibration.json``, ``calibration.toml`` and the plots.
+
+    Parameters
+    ----------
+    csv_path : str or path-like
+        Table of runs (see :func:`read_runs`).
+    out_dir : str or path-like
+        Output folder (created if absent). Each file is written atomically.
+    plots : bool
+        Also write PNG plots when matplotlib is installed.
+
+    Returns
+    -------
+    dict
+        The result of :func:`calibrate` with ``source`` (``csv``, ``sha256``) and ``files``.
+    """
+    runs = read_runs(csv_path)
+    result = calibrate(runs)
+    with open(csv_path, "rb") as handle:
+        digest = hashlib.sha256(handle.read()).hexdigest()
+    result["source"] = {"csv": os.fspath(csv_path), "sha256": digest}
+    os.makedirs(out_dir, exist_ok=True)
+    json_path = os.path.join(out_dir, "calibration.json")
+    toml_path = os.path.join(out_dir, "calibration.toml")
+    files = [json_path, toml_path]
+    if plots:
+        files += _plots(runs, result, out_dir)
+    result["files"] = [os.fspath(f) for f in files]
+    text = fragment_text(result, result["source"])
+    _write_atomic(toml_path, lambda handle: handle.write(text.encode("utf-8")))
+    blob = json.dumps(result, indent=2, allow_nan=False) + "\n"
+    _write_atomic(json_path, lambda handle: handle.write(blob.encode("utf-8")))
+    return result
+
+
+def format_summary(result):
+    """Plain-text summary for the console.
+
+    Parameters
+    ----------
+    result : dict
+        From :func:`calibrate` or :func:`calibrate_file`.
+
+    Returns
+    -------
+    str
+        Constants with standard errors and 95 % intervals, fit statistics, warnings, outliers,
+        notes, and the closing caution line.
+    """
+    lines = []
+    if "source" in result:
+        lines.append(f"Calibration of {result['source']['csv']} ({result['runs']} runs)")
+    lines.append(f"{'constant':36s} {'value':>12s} {'stderr':>11s}   95 % interval")
+    for key, entry in result["constants"].items():
+        low, high = entry["ci95"]
+        tag = "  (fixed)" if entry.get("fixed") else (
+            "  (mean of given column)" if "source" in entry else "")
+        lines.append(f"{key:36s} {entry['value']:12.5g} {entry['stderr']:11.3g}   "
+                     f"[{low:.5g}, {high:.5g}]{tag}")
+    lines.append("")
+    lines.append(f"{'fit':6s} {'runs':>5s} {'dof':>4s} {'R^2':>9s} {'resid std':>11s}  "
+                 "C_mu range        slot ratio range")
+    for name, fit in result["fits"].items():
+        r = fit["ranges"]
+        r2 = "n/a" if fit["r2"] is None else f"{fit['r2']:.5f}"
+        lines.append(f"{name:6s} {fit['runs']:5d} {fit['dof']:4d} {r2:>9s} "
+                     f"{fit['residual_std']:11.4g}  [{r['momentum_coefficient'][0]:.4g}, "
+                     f"{r['momentum_coefficient'][1]:.4g}]  [{r['slot_ratio'][0]:.4g}, "
+                     f"{r['slot_ratio'][1]:.4g}]")
+    v = result["validity"]
+    lines.append(f"validity: Reynolds {v['reynolds'][0]:.3g} to {v['reynolds'][1]:.3g}, "
+                 f"speed {v['speed'][0]:.4g} to {v['speed'][1]:.4g} m/s")
+    lines.append("")
+    lines.append("Warnings: " + ("none" if not result["warnings"] else ""))
+    lines += [f"  - {w}" for w in result["warnings"]]
+    outliers = [(name, o) for name, fit in result["fits"].items() for o in fit["outliers"]]
+    lines.append("Outliers (|studentized residual| > 3, kept in the fit): "
+                 + ("none" if not outliers else ""))
+    lines += [f"  - {name} fit, row {o['row']}: residual {o['residual']:.4g}, studentized "
+              f"{o['studentized_external'] or o['studentized_internal']:.3g}"
+              for name, o in outliers]
+    if result["notes"]:
+        lines.append("Notes:")
+        lines += [f"  - {n}" for n in result["notes"]]
+    lines.append(CAUTION)
+    return "\n".join(lines)

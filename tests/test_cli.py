@@ -1,0 +1,123 @@
+"""The command line end to end: bundled cases, bad input (exit 2), no convergence (exit 3)."""
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from mdao.cli import main
+
+CASES = Path(__file__).resolve().parent.parent / "cases"
+GOOD = (CASES / "survey-drone.toml").read_text()
+
+
+@pytest.mark.parametrize("name", ["survey-drone.toml", "coastal-patrol.toml"])
+def test_optimize_bundled_case(name, tmp_path, capsys):
+    assert main(["optimize", str(CASES / name), "--out", str(tmp_path / "o")]) == 0
+    text = capsys.readouterr().out
+    assert "mission energy saved" in text and "Preliminary design estimates" in text
+    data = json.loads((tmp_path / "o" / "results.json").read_text())
+    for key in ("converged", "message", "iterations", "model_evaluations", "slot_ratio",
+                "mission_energy_saving_J", "segments"):
+        assert key in data
+    assert data["converged"] is True
+    seg = data["segments"][0]
+    for key in ("name", "blowing", "momentum_coefficient", "fan_pressure_rise_Pa",
+                "required_pressure_rise_Pa", "jet_velocity_m_s", "volume_flow_m3_s",
+                "fan_speed_rpm", "fan_efficiency", "fan_shaft_power_W", "drag_N", "drag_clean_N",
+                "net_power_saving_W", "energy_saving_J", "break_even_fan_efficiency",
+                "active_constraints"):
+        assert key in seg
+    total = sum(s["energy_saving_J"] for s in data["segments"])
+    assert total == pytest.approx(data["mission_energy_saving_J"], rel=1e-12)
+    assert not list(tmp_path.glob("o/.*tmp"))
+
+
+def test_evaluate_start_point(capsys):
+    assert main(["evaluate", str(CASES / "survey-drone.toml")]) == 0
+    assert "start point (not optimized)" in capsys.readouterr().out
+
+
+def test_python_dash_m_entry_point(tmp_path):
+    done = subprocess.run([sys.executable, "-m", "mdao", "optimize", str(CASES / "survey-drone.toml")],
+                          capture_output=True, text=True, cwd=tmp_path,
+                          env={"OPENMDAO_REPORTS": "0", "PATH": "/usr/bin:/bin"})
+    assert done.returncode == 0, done.stderr
+    assert "optimum" in done.stdout
+
+
+def test_not_converged_exits_3(tmp_path, capsys):
+    bad = tmp_path / "short.toml"
+    bad.write_text(GOOD.replace('objective = "mission-energy"',
+                                'objective = "mission-energy"\nmax_iterations = 2'))
+    assert main(["optimize", str(bad), "--out", str(tmp_path / "o")]) == 3
+    captured = capsys.readouterr()
+    assert "NOT CONVERGED" in captured.err
+    assert "optimum:" not in captured.out
+    assert json.loads((tmp_path / "o" / "results.json").read_text())["converged"] is False
+
+
+def _swap(old, new):
+    assert old in GOOD, old
+    return GOOD.replace(old, new, 1)
+
+
+BAD = {
+    "wrong dimension": (_swap('chord = "0.42 m"', 'chord = "0.42 s"'), "wing.chord"),
+    "no unit": (_swap('chord = "0.42 m"', "chord = 0.42"), "wing.chord"),
+    "unknown unit": (_swap('speed = "16 m/s"', 'speed = "16 furlongs/zz"'), "speed"),
+    "missing key": (_swap('blown_span = "3.2 m"\n', ""), "wing.blown_span"),
+    "unknown key": (_swap('[wing]\n', '[wing]\nsweep = "3 deg"\n'), "wing.sweep"),
+    "unknown table": (_swap('[wing]\n', '[tail]\narea = 1\n[wing]\n'), "tail"),
+    "negative chord": (_swap('chord = "0.42 m"', 'chord = "-0.42 m"'), "wing.chord"),
+    "ratio out of range": (_swap("ratio = 0.010 ", "ratio = 0.5 "), "slot.ratio"),
+    "bounds reversed": (_swap("ratio_bounds = [0.004, 0.020]", "ratio_bounds = [0.02, 0.004]"),
+                        "slot.ratio_bounds"),
+    "ratio outside bounds": (_swap("ratio = 0.010 ", "ratio = 0.030 "), "slot.ratio"),
+    "efficiency above one": (_swap("efficiency = 0.70", "efficiency = 1.3"), "fan.efficiency"),
+    "bad duct model": (_swap('model = "lumped"', 'model = "cfd"'), "duct.model"),
+    "lumped without K_j": (_swap("jet_loss_factor = 1.22 ", "extra_loss = 0.1 "),
+                           "duct.jet_loss_factor"),
+    "K_j below one": (_swap("jet_loss_factor = 1.22 ", "jet_loss_factor = 0.8 "),
+                      "duct.jet_loss_factor"),
+    "positive thrust leverage": (_swap("thrust_leverage = -1.7 ", "thrust_leverage = 1.7 "),
+                                 "airfoil.thrust_leverage"),
+    "altitude too high": (_swap('altitude = "120 m"', 'altitude = "25 km"'), "altitude"),
+    "duration not a time": (_swap('duration = "2.2 h"', 'duration = "2.2 m"'), "duration"),
+    "duplicate segment": (_swap('name = "transit"', 'name = "survey"'), "segment.name"),
+    "unknown objective segment": (_swap('objective = "mission-energy"',
+                                        'objective = "segment:cruise"'), "optimize.objective"),
+    "min height unreachable": (_swap('min_height = "2 mm"', 'min_height = "20 mm"'),
+                               "slot.min_height"),
+    "string for bool": (_swap('name = "climb"', 'name = "climb"\nblowing = "yes"'), "blowing"),
+    "bad uncertainty key": (_swap('"fan.efficiency" = {', '"fan.wheel" = {'), "fan.wheel"),
+    "bad distribution": (_swap('distribution = "uniform"', 'distribution = "weibull"'),
+                         "fan.efficiency"),
+    "range pair": (_swap("momentum_coefficient_range = [0.005, 0.15]",
+                         "momentum_coefficient_range = [0.005]"),
+                   "airfoil.momentum_coefficient_range"),
+    "min above max pressure": (_swap('min_pressure_rise = "80 Pa"', 'min_pressure_rise = "80 kPa"'),
+                               "fan.min_pressure_rise"),
+    "not toml": ("title = \n[wing", "TOML"),
+    "no title": (_swap('title = "Forestry survey drone, lumped duct and constant-efficiency fan"',
+                       ""), "title"),
+    "map without diameter": (_swap('model = "constant"', 'model = "map"'), "fan_diameter"),
+}
+
+
+@pytest.mark.parametrize("label", sorted(BAD))
+def test_bad_case_exits_2_naming_the_key(label, tmp_path, capsys):
+    text, key = BAD[label]
+    path = tmp_path / "bad.toml"
+    path.write_text(text)
+    assert main(["optimize", str(path), "--out", str(tmp_path / "o")]) == 2
+    err = capsys.readouterr().err
+    assert key in err, err
+    assert "Traceback" not in err
+    assert not (tmp_path / "o").exists()
+
+
+def test_missing_case_file_exits_2(tmp_path, capsys):
+    assert main(["optimize", str(tmp_path / "nope.toml")]) == 2
+    assert "nope.toml" in capsys.readouterr().err

@@ -1,0 +1,158 @@
+"""The main job: the wired problem, its totals, and the optimum against the closed form."""
+import copy
+
+import numpy as np
+import pytest
+from openmdao.utils.assert_utils import assert_check_totals
+
+from mdao.case import parse_case
+from mdao.optimum import optimize
+from mdao.physics import atmosphere, duct, power
+from mdao.system import build_problem
+
+BASE = {
+    "title": "closed-form check",
+    "wing": {"chord": "0.5 m", "blown_span": "2 m"},
+    "slot": {"ratio": 0.01},
+    "duct": {"model": "lumped", "jet_loss_factor": 1.3, "freestream_assist": 0.9},
+    "fan": {"model": "constant", "efficiency": 0.7, "motor_efficiency": 0.9,
+            "min_pressure_rise": "1 Pa", "max_pressure_rise": "50 kPa"},
+    "airfoil": {"drag_clean": 0.01, "slot_drag": 0.02, "thrust_leverage": -1.5,
+                "momentum_coefficient_range": [0.001, 0.5]},
+    "propulsion": {"chain_efficiency": 0.8},
+    "segment": [{"name": "a", "altitude": "0 m", "speed": "30 m/s", "duration": "1 h"},
+                {"name": "b", "altitude": "3000 m", "speed": "45 m/s", "duration": "2 h"},
+                {"name": "c", "altitude": "9000 m", "speed": "60 m/s", "duration": "0.5 h"}],
+    "optimize": {"tolerance": 1e-12},
+}
+
+
+def _case(**changes):
+    raw = copy.deepcopy(BASE)
+    for path, value in changes.items():
+        table, key = path.split("__")
+        raw[table][key] = value
+    return parse_case(raw)
+
+
+@pytest.mark.parametrize("changes", [
+    {},
+    {"duct__jet_loss_factor": 1.6, "airfoil__thrust_leverage": -2.0, "slot__ratio": 0.006},
+    {"duct__freestream_assist": 0.4, "fan__efficiency": 0.55, "airfoil__slot_drag": 0.01},
+    {"slot__ratio": 0.02, "propulsion__chain_efficiency": 0.6, "fan__motor_efficiency": 0.95},
+])
+def test_lumped_optimum_matches_closed_form(changes):
+    """Optimum C_mu and net power per segment against DESIGN.md section 2's closed form
+    (positive root of 3 K1 x^2 - 2 B eta_eff x - K2 = 0), to 1e-5 relative."""
+    case = _case(**changes)
+    out = optimize(case)
+    assert out.converged, out.message
+    r, kj = case.slot["ratio"], case.duct["jet_loss_factor"]
+    k1, k2 = duct.lumped_coefficients(kj, case.duct["freestream_assist"], r)
+    eta = case.fan["efficiency"] * case.fan["motor_efficiency"] / case.propulsion["chain_efficiency"]
+    c_star = power.lumped_optimum(k1, k2, case.airfoil["thrust_leverage"], eta)
+    s_star = power.lumped_net_saving(c_star, k1, k2, case.airfoil["slot_drag"],
+                                     case.airfoil["thrust_leverage"], eta)
+    for i, seg in enumerate(case.segments):
+        rho = atmosphere.isa(seg["altitude"]).density
+        scale = 0.5 * rho * seg["speed"] ** 3 * case.wing["chord"] * case.wing["blown_span"]
+        net = s_star * scale / case.propulsion["chain_efficiency"]
+        got = out.segments[i]
+        assert got["momentum_coefficient"] == pytest.approx(c_star, rel=1e-5)
+        assert got["net_power_saving_W"] == pytest.approx(net, rel=1e-5)
+
+
+def test_independent_hand_calculation_of_one_segment():
+    """Every figure of one segment recomputed by hand from the definitions (DESIGN.md)."""
+    case = _case()
+    out = optimize(case)
+    seg = out.segments[1]
+    atm = atmosphere.isa(3000.0)
+    v, c, r, ch, b = 45.0, seg["momentum_coefficient"], 0.01, 0.5, 2.0
+    q = 0.5 * atm.density * v * v
+    vj = v * np.sqrt(c / (2 * r))
+    flow = r * ch * b * vj
+    dp = 1.3 * 0.5 * atm.density * vj ** 2 - 0.9 * q
+    shaft = flow * dp / 0.7
+    drag = q * ch * b * (0.01 + 0.02 - 1.5 * c)
+    net = (q * ch * b * 0.01 - drag) * v / 0.8 - shaft / 0.9
+    assert seg["jet_velocity_m_s"] == pytest.approx(vj, rel=1e-12)
+    assert seg["volume_flow_m3_s"] == pytest.approx(flow, rel=1e-12)
+    assert seg["required_pressure_rise_Pa"] == pytest.approx(dp, rel=1e-12)
+    assert seg["fan_pressure_rise_Pa"] == pytest.approx(dp, rel=1e-6)
+    assert seg["fan_shaft_power_W"] == pytest.approx(shaft, rel=1e-6)
+    assert seg["drag_N"] == pytest.approx(drag, rel=1e-12)
+    assert seg["net_power_saving_W"] == pytest.approx(net, rel=1e-6)
+    assert seg["energy_saving_J"] == pytest.approx(net * 7200.0, rel=1e-6)
+
+
+def test_break_even_reported_matches_closed_form():
+    case = _case()
+    out = optimize(case)
+    k1, k2 = duct.lumped_coefficients(1.3, 0.9, 0.01)
+    for i, seg in enumerate(case.segments):
+        atm = atmosphere.isa(seg["altitude"])
+        q = 0.5 * atm.density * seg["speed"] ** 2
+        lo = max(0.001, 2 * 0.01 * (0.9 + 1.0 / q) / 1.3)
+        ratio = power.break_even_lumped(k1, k2, 0.02, -1.5, lo, 0.5)
+        assert out.segments[i]["break_even_fan_efficiency"] == pytest.approx(
+            ratio * 0.8 / 0.9, rel=1e-10)
+        # at that efficiency the best admissible point just breaks even
+        eta = out.segments[i]["break_even_fan_efficiency"] * 0.9 / 0.8
+        grid = np.linspace(lo, 0.5, 200001)
+        assert power.lumped_net_saving(grid, k1, k2, 0.02, -1.5, eta).max() == pytest.approx(0, abs=1e-9)
+
+
+@pytest.mark.parametrize("path", ["survey-drone.toml", "coastal-patrol.toml"])
+def test_totals_of_built_problem(path, cases_dir):
+    """Analytic total derivatives of the optimization problem against finite differences
+    (both fidelity levels: lumped duct + constant fan, geometric duct + fan map)."""
+    from mdao.case import load_case
+    prob = build_problem(load_case(cases_dir / path))
+    prob.run_model()
+    data = prob.check_totals(out_stream=None, method="cs" if False else "fd", form="central",
+                             step=1e-6, step_calc="rel_avg")
+    assert_check_totals(data, atol=1e-6, rtol=1e-5)
+
+
+@pytest.mark.parametrize("path", ["survey-drone.toml", "coastal-patrol.toml"])
+def test_same_optimum_from_several_starts(path, cases_dir):
+    from mdao.case import load_case
+    case = load_case(cases_dir / path)
+    ref = optimize(case)
+    assert ref.converged, ref.message
+    rng = np.random.default_rng(3)
+    lo, hi = case.airfoil["momentum_coefficient_range"]
+    bounds = case.slot["ratio_bounds"]
+    for _ in range(3):
+        changes = {f"segment.{s['name']}.momentum_coefficient": float(rng.uniform(lo, 0.8 * hi))
+                   for s in case.segments}
+        changes["slot.ratio"] = float(rng.uniform(*bounds))
+        other = optimize(case.replace(changes))
+        assert other.converged, other.message
+        assert other.mission_energy_saving_J == pytest.approx(ref.mission_energy_saving_J, rel=1e-6)
+        assert other.slot_ratio == pytest.approx(ref.slot_ratio, rel=1e-4)
+        np.testing.assert_allclose(other.values["momentum_coefficient"],
+                                   ref.values["momentum_coefficient"], rtol=1e-4, atol=1e-9)
+
+
+def test_segment_objective():
+    case = _case(optimize__objective="segment:b")
+    out = optimize(case)
+    assert out.converged
+    full = optimize(_case())
+    assert out.segments[1]["net_power_saving_W"] == pytest.approx(
+        full.segments[1]["net_power_saving_W"], rel=1e-6)
+
+
+def test_blowing_off_segment_carries_slot_penalty_only():
+    raw = copy.deepcopy(BASE)
+    raw["segment"][2]["blowing"] = False
+    out = optimize(parse_case(raw))
+    seg = out.segments[2]
+    atm = atmosphere.isa(9000.0)
+    q = 0.5 * atm.density * 60.0 ** 2
+    assert seg["momentum_coefficient"] == 0.0
+    assert seg["fan_shaft_power_W"] == 0.0
+    assert seg["net_power_saving_W"] == pytest.approx(-q * 1.0 * 0.02 * 60.0 / 0.8, rel=1e-12)
+    assert seg["break_even_fan_efficiency"] is None
