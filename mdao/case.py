@@ -120,6 +120,7 @@ SCHEMA = {
         "duct_areal_density": _q("areal_density", default=1.2, lo=0),
         "installation_factor": _n(default=1.2, lo=1, hi=3),
         "power_margin": _n(default=1.25, lo=1, hi=3),
+        "duct_wetted_ratio": _n(default=1.5, lo=0, hi=10),
     },
 }
 
@@ -430,6 +431,18 @@ def _check_consistency(case, base):
         raise CaseError(f"fan.min_pressure_rise = {f['min_pressure_rise']:g} Pa must be below "
                         f"fan.max_pressure_rise = {f['max_pressure_rise']:g} Pa")
     ratio, bounds = s["ratio"], s["ratio_bounds"]
+    valid = (case.calibration or {}).get("validity", {}).get("slot_ratio_range")
+    if valid is not None:
+        where = f"the calibrated slot ratio range [{valid[0]:g}, {valid[1]:g}] of {case.calibration['file']}"
+        if bounds is None:
+            if not valid[0] <= ratio <= valid[1]:
+                raise CaseError(f"slot.ratio = {ratio!r} is outside {where}")
+        else:
+            low, high = max(bounds[0], valid[0]), min(bounds[1], valid[1])
+            if low >= high:
+                raise CaseError(f"slot.ratio_bounds = {list(bounds)!r} do not overlap {where}")
+            s["ratio_bounds"] = bounds = (low, high)
+            s["ratio"] = ratio = min(max(ratio, low), high)
     if bounds is not None and not bounds[0] <= ratio <= bounds[1]:
         raise CaseError(f"slot.ratio = {ratio!r} is outside slot.ratio_bounds = {list(bounds)!r}")
     chord = case.wing["chord"]

@@ -189,9 +189,13 @@ def _number(value):
 
 
 def _ranges(d, rows):
+    """Ranges covered. The momentum-coefficient range is that of the blown runs: jet-off runs
+    inform the drag fit's intercept but do not make blowing at vanishing C_mu a calibrated
+    operating point."""
+    cmu = d["momentum_coefficient"][rows]
+    blown = cmu[cmu > 0] if np.any(cmu > 0) else cmu
     return {
-        "momentum_coefficient": [float(d["momentum_coefficient"][rows].min()),
-                                 float(d["momentum_coefficient"][rows].max())],
+        "momentum_coefficient": [float(blown.min()), float(blown.max())],
         "slot_ratio": [float(d["slot_ratio"][rows].min()), float(d["slot_ratio"][rows].max())],
         "reynolds": [float(d["reynolds"][rows].min()), float(d["reynolds"][rows].max())],
         "speed": [float(d["speed"][rows].min()), float(d["speed"][rows].max())],

@@ -1,0 +1,221 @@
+"""Blowing-system mass component (wraps :mod:`mdao.physics.mass`) and helpers to place it beside
+:class:`mdao.system.BlownWingGroup` in an aircraft model.
+
+The component takes the rated shaft power of all fans as an input: the aircraft model makes it a
+design variable and holds ``power_headroom >= 0`` in every blowing segment (see
+:func:`mdao.physics.mass.power_headroom`). Its output ``blowing_system_mass`` [kg] is what the
+aircraft's mass build-up charges.
+"""
+import numpy as np
+import openmdao.api as om
+
+from mdao.components._sparsity import broadcast, column
+from mdao.physics import mass as phys
+
+MASS_CITE = """@book{raymer2018,
+  author = {Raymer, Daniel P.}, title = {Aircraft Design: A Conceptual Approach},
+  edition = {6th}, publisher = {AIAA}, year = {2018}, note = {weight build-up, chapter 15}
+}"""
+
+#: Case key path -> input name of BlowingSystemMassComp (``[mass]`` table of a case).
+MASS_PARAMETERS = {
+    "mass.fan_specific_power": "fan_specific_power",
+    "mass.motor_specific_power": "motor_specific_power",
+    "mass.duct_areal_density": "duct_areal_density",
+    "mass.installation_factor": "installation_factor",
+    "mass.power_margin": "power_margin",
+    "mass.duct_wetted_ratio": "duct_wetted_ratio",
+}
+
+_SCALARS = (("rated_shaft_power", "W", 500.0, "rated shaft power of all fans"),
+            ("fan_specific_power", "W/kg", 2500.0, "fan shaft power per fan mass"),
+            ("motor_specific_power", "W/kg", 5000.0, "motor shaft power per motor mass"),
+            ("duct_areal_density", "kg/m**2", 1.2, "duct wall mass per wetted area"),
+            ("installation_factor", None, 1.2, "installed over bare mass"),
+            ("power_margin", None, 1.25, "rating over the largest need"),
+            ("extra_wetted_area", "m**2", 0.0, "further duct wetted area (plenums, channels)"))
+
+
+class BlowingSystemMassComp(om.ExplicitComponent):
+    """Installed mass of the fans, motors and ducts, and the rated-power headroom per node.
+
+    Inputs: ``rated_shaft_power`` [W], ``shaft_power`` [W] per node, the specific powers
+    [W/kg], ``duct_areal_density`` [kg/m**2], ``installation_factor``, ``power_margin``,
+    ``extra_wetted_area`` [m**2]; lumped duct: ``chord`` [m], ``blown_span`` [m],
+    ``duct_wetted_ratio``; geometric duct: ``station_position`` [m] and ``station_perimeter`` [m]
+    of one fan's transition. Outputs: ``fan_motor_mass`` [kg], ``duct_wetted_area`` [m**2],
+    ``duct_mass`` [kg], ``blowing_system_mass`` [kg], ``power_headroom`` [W] per node
+    (``rated - margin * shaft``; the rating alone where the fan does not run).
+    """
+
+    cite = MASS_CITE
+
+    def initialize(self):
+        self.options.declare("num_nodes", types=int, default=1, lower=1, desc="segments")
+        self.options.declare("duct_model", default="lumped", values=("lumped", "geometric"),
+                             desc="lumped: wetted area from the planform; geometric: from the "
+                                  "transition stations")
+        self.options.declare("fans", types=int, default=1, lower=1, desc="fans along the span")
+        self.options.declare("stations", types=int, default=33, lower=2,
+                             desc="transition stations (geometric duct)")
+        self.options.declare("blowing", default=None, allow_none=True,
+                             desc="sequence of bool per node: does the fan run? (default all)")
+
+    def _blowing(self):
+        n = self.options["num_nodes"]
+        flags = self.options["blowing"]
+        flags = np.ones(n, bool) if flags is None else np.asarray(flags, bool)
+        if flags.shape != (n,):
+            raise ValueError(f"blowing must have num_nodes={n} entries, got {flags.shape}")
+        return flags
+
+    def setup(self):
+        n = self.options["num_nodes"]
+        for name, units, value, desc in _SCALARS:
+            self.add_input(name, val=value, units=units, desc=desc)
+        self.add_input("shaft_power", val=np.zeros(n), units="W", desc="fan shaft power per node")
+        if self.options["duct_model"] == "lumped":
+            self.add_input("chord", val=0.5, units="m", desc="chord of the blown section")
+            self.add_input("blown_span", val=1.0, units="m", desc="span with blowing")
+            self.add_input("duct_wetted_ratio", val=1.5, desc="duct wetted area over planform")
+        else:
+            m = self.options["stations"]
+            self.add_input("station_position", val=np.linspace(0.0, 0.3, m), units="m",
+                           desc="transition stations from the fan face")
+            self.add_input("station_perimeter", val=np.linspace(0.25, 1.0, m), units="m",
+                           desc="transition section perimeter")
+        self.add_output("fan_motor_mass", val=0.3, units="kg", desc="fans and motors, bare")
+        self.add_output("duct_wetted_area", val=1.0, units="m**2", desc="all ducts")
+        self.add_output("duct_mass", val=1.0, units="kg", desc="duct walls, bare")
+        self.add_output("blowing_system_mass", val=1.0, units="kg", desc="installed system mass")
+        self.add_output("power_headroom", val=np.zeros(n), units="W",
+                        desc="rated minus margin times shaft power")
+
+    def _area_inputs(self):
+        if self.options["duct_model"] == "lumped":
+            return ["chord", "blown_span", "duct_wetted_ratio", "extra_wetted_area"]
+        return ["station_position", "station_perimeter", "extra_wetted_area"]
+
+    def setup_partials(self):
+        n = self.options["num_nodes"]
+        rot = ["rated_shaft_power", "fan_specific_power", "motor_specific_power"]
+        area = self._area_inputs()
+        self.declare_partials("fan_motor_mass", rot)
+        self.declare_partials("duct_wetted_area", area)
+        self.declare_partials("duct_mass", area + ["duct_areal_density"])
+        self.declare_partials("blowing_system_mass",
+                              rot + area + ["duct_areal_density", "installation_factor"])
+        rows, cols = column(n)
+        self.declare_partials("power_headroom", ["rated_shaft_power", "power_margin"],
+                              rows=rows, cols=cols)
+        on = np.flatnonzero(self._blowing())
+        if on.size:
+            self.declare_partials("power_headroom", "shaft_power", rows=on, cols=on)
+
+    def _area(self, inputs, derivatives=False):
+        """Wetted area and its partials {input: value or array}."""
+        extra = inputs["extra_wetted_area"][0]  # not checked here: finite differences step across 0
+        if self.options["duct_model"] == "lumped":
+            out = phys.lumped_wetted_area(inputs["chord"][0], inputs["blown_span"][0],
+                                          inputs["duct_wetted_ratio"][0], derivatives=derivatives)
+            if not derivatives:
+                return out + extra
+            area, d = out
+            return area + extra, {"chord": d["chord"], "blown_span": d["blown_span"],
+                                  "duct_wetted_ratio": d["wetted_ratio"], "extra_wetted_area": 1.0}
+        out = phys.transition_wetted_area(inputs["station_position"], inputs["station_perimeter"],
+                                          fans=self.options["fans"], derivatives=derivatives)
+        if not derivatives:
+            return out + extra
+        area, d_x, d_p = out
+        return area + extra, {"station_position": d_x, "station_perimeter": d_p,
+                              "extra_wetted_area": 1.0}
+
+    def _rotating(self, inputs, derivatives=False):
+        return phys.rotating_mass(inputs["rated_shaft_power"][0], inputs["fan_specific_power"][0],
+                                  inputs["motor_specific_power"][0], derivatives=derivatives)
+
+    def compute(self, inputs, outputs):
+        rot = self._rotating(inputs)
+        area = self._area(inputs)
+        outputs["fan_motor_mass"] = rot
+        outputs["duct_wetted_area"] = area
+        outputs["duct_mass"] = inputs["duct_areal_density"] * area
+        outputs["blowing_system_mass"] = phys.blowing_system_mass(
+            rot, area, inputs["duct_areal_density"][0], inputs["installation_factor"][0])
+        on = self._blowing()
+        outputs["power_headroom"] = phys.power_headroom(
+            inputs["rated_shaft_power"][0], np.where(on, inputs["shaft_power"], 0.0),
+            inputs["power_margin"][0])
+
+    def compute_partials(self, inputs, partials):
+        n = self.options["num_nodes"]
+        rot, d_rot = self._rotating(inputs, derivatives=True)
+        area, d_area = self._area(inputs, derivatives=True)
+        density = inputs["duct_areal_density"][0]
+        _, d_m = phys.blowing_system_mass(rot, area, density, inputs["installation_factor"][0],
+                                          derivatives=True)
+        for k, v in d_rot.items():
+            partials["fan_motor_mass", k] = v
+            partials["blowing_system_mass", k] = d_m["rotating"] * v
+        for k, v in d_area.items():
+            partials["duct_wetted_area", k] = v
+            partials["duct_mass", k] = density * np.asarray(v)
+            partials["blowing_system_mass", k] = d_m["wetted_area"] * np.asarray(v)
+        partials["duct_mass", "duct_areal_density"] = area
+        partials["blowing_system_mass", "duct_areal_density"] = d_m["duct_areal_density"]
+        partials["blowing_system_mass", "installation_factor"] = d_m["installation_factor"]
+        on = self._blowing()
+        _, d_h = phys.power_headroom(inputs["rated_shaft_power"][0],
+                                     np.where(on, inputs["shaft_power"], 0.0),
+                                     inputs["power_margin"][0], derivatives=True)
+        partials["power_headroom", "rated_shaft_power"] = broadcast(d_h["rated_shaft_power"], n)
+        partials["power_headroom", "power_margin"] = broadcast(d_h["power_margin"], n)
+        if on.any():
+            partials["power_headroom", "shaft_power"] = broadcast(d_h["shaft_power"], n)[on]
+
+
+def add_blowing_system_mass(model, case=None, name="blowing_mass", **options):
+    """Add a :class:`BlowingSystemMassComp` beside a BlownWingGroup, promoted with ``*``.
+
+    Parameters
+    ----------
+    model : om.Group
+        The group that also holds the (promoted) BlownWingGroup.
+    case : mdao.case.Case, optional
+        Take ``num_nodes``, ``duct_model``, ``fans``, ``stations`` and ``blowing`` from it.
+    name : str
+        Subsystem name.
+    **options
+        Component options (override the case's).
+
+    Returns
+    -------
+    BlowingSystemMassComp
+        The added component. Call :func:`set_mass_values` after ``setup``.
+    """
+    opts = {}
+    if case is not None:
+        opts = dict(num_nodes=len(case.segments), duct_model=case.duct["model"],
+                    fans=case.duct["fans"], stations=case.duct["stations"],
+                    blowing=list(case.blowing))
+    opts.update(options)
+    comp = BlowingSystemMassComp(**opts)
+    model.add_subsystem(name, comp, promotes=["*"])
+    return comp
+
+
+def mass_values(case):
+    """``{input name: SI value}`` of the case's ``[mass]`` table for the component."""
+    out = {}
+    for key, name in MASS_PARAMETERS.items():
+        if name == "duct_wetted_ratio" and case.duct["model"] != "lumped":
+            continue
+        out[name] = float(case.value(key))
+    return out
+
+
+def set_mass_values(prob, case, prefix=""):
+    """Set the case's ``[mass]`` values on a set-up problem (``prefix``: promoted path)."""
+    for name, value in mass_values(case).items():
+        prob.set_val(prefix + name, value)

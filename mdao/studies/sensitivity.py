@@ -1,0 +1,467 @@
+r"""Sensitivities of the mission energy saving: fixed-design, post-optimal, elasticities, tornado.
+
+The answer studied is the mission energy saved at the source, :math:`E` [J]. For every model
+constant and operating input :math:`p` (a case key path such as ``"duct.jet_loss_factor"`` or
+``"segment.cruise.speed"``):
+
+* **fixed-design derivative** :math:`\partial E/\partial p`: slot ratio and momentum coefficients
+  held at the optimum, the fan pressure rise following the duct requirement (so the pressure
+  constraint stays satisfied); from OpenMDAO's total derivatives of
+  :func:`mdao.system.build_problem` with ``follow_requirement=True``;
+* **post-optimal derivative** :math:`dE^*/dp`: how the optimum itself moves, by central
+  differences of warm-started re-optimizations (:func:`post_optimal_derivatives`), cross-checked
+  by the Lagrange multipliers of the active constraints (:func:`multiplier_derivatives`,
+  :math:`dE^*/dp = \partial E/\partial p - \lambda^T \partial g/\partial p` with
+  :math:`\nabla_x E = J_x^T\lambda` solved by least squares over the active set);
+* **elasticity** :math:`(\partial E/\partial p)\,p/E`;
+* a **tornado**: :math:`E` at the fixed design re-evaluated (not linearized) with each input at the
+  low and high end of its spread (:func:`input_spread`).
+
+By the envelope theorem the two derivatives agree at an optimum where no binding constraint
+depends on :math:`p` [1]_; they differ where one does (e.g. the jet Mach limit against speed).
+
+References
+----------
+.. [1] Fiacco, A. V. *Introduction to Sensitivity and Stability Analysis in Nonlinear
+   Programming*. Academic Press, 1983, ch. 3 (derivative of the optimal value: the envelope
+   theorem and the multiplier formula).
+.. [2] Saltelli, A. et al. *Global Sensitivity Analysis: The Primer*. Wiley, 2008, ch. 1
+   (one-at-a-time ranges, the tornado chart's basis).
+"""
+import numpy as np
+
+from mdao.case import SCHEMA, SEGMENT
+from mdao.physics import chain
+from mdao.system import (PARAMETERS, SEGMENT_INPUTS, applicable_parameters, build_problem,
+                         chain_options, chain_parameters)
+
+#: Inputs the geometric duct takes as one value for the wing (cannot vary along samples).
+WING_GEOMETRY = ("fan_diameter", "blown_span", "slot_ratio", "chord", "transition_length",
+                 "slot_exponent", "roughness")
+#: Vector-valued or design inputs that are not reported as sensitivities.
+NOT_STUDIED = ("slot.ratio", "fan.pressure_coefficients")
+#: Absolute step scale for inputs whose value is zero (post-optimal differences).
+ZERO_SCALE = {"altitude": 1000.0, "roughness": 1e-5}
+#: Relative step of the post-optimal central differences.
+POST_OPTIMAL_STEP = 1e-3
+
+
+# --- inputs: key paths, promoted names, ranges --------------------------------------------------
+def sensitivity_keys(case):
+    """Case key paths studied: the applicable model constants and each segment's speed,
+    altitude and duration (in that order)."""
+    keys = [k for k in applicable_parameters(case) if k not in NOT_STUDIED
+            and case.value(k) is not None]
+    for seg in case.segment_names:
+        keys += [f"segment.{seg}.speed", f"segment.{seg}.altitude", f"segment.{seg}.duration"]
+    return keys
+
+
+def promoted(case, key):
+    """``(promoted input name, segment index or None)`` of a case key path."""
+    parts = key.split(".")
+    if parts[0] == "segment":
+        if parts[2] not in SEGMENT_INPUTS:
+            raise ValueError(f"key = {key!r}: segment inputs are "
+                             + ", ".join(SEGMENT_INPUTS))
+        return SEGMENT_INPUTS[parts[2]], case.segment_names.index(parts[1])
+    if key not in PARAMETERS:
+        raise ValueError(f"key = {key!r} is not a model input; allowed: "
+                         + ", ".join(sorted(PARAMETERS)))
+    return PARAMETERS[key], None
+
+
+def allowed_range(key):
+    """``(low, high)`` the case schema allows for a key path (open ends included as closed)."""
+    parts = key.split(".")
+    spec = SEGMENT[parts[2]] if parts[0] == "segment" else SCHEMA[parts[0]][parts[1]]
+    lo, hi = spec["range"][:2]
+    return lo, hi
+
+
+def unit_of(key):
+    """SI unit of a key path, for tables ('-' for pure numbers)."""
+    name = key.split(".")[-1]
+    return {"chord": "m", "blown_span": "m", "fan_diameter": "m", "transition_length": "m",
+            "roughness": "m", "speed": "m/s", "altitude": "m", "duration": "s",
+            "min_height": "m", "min_pressure_rise": "Pa", "max_pressure_rise": "Pa",
+            "max_speed": "rev/s", "max_diffusion_half_angle": "rad"}.get(name, "-")
+
+
+def design_parameters(case, outcome):
+    """Chain parameters at the optimal design, the fan following the requirement."""
+    return chain_parameters(case, slot_ratio=np.asarray(outcome.slot_ratio, float),
+                            momentum_coefficient=np.asarray(
+                                outcome.values["momentum_coefficient"], float))
+
+
+def set_columns(case, params, columns):
+    """Chain parameters with inputs replaced by sample columns.
+
+    Parameters
+    ----------
+    case : mdao.case.Case
+    params : dict
+        Chain parameters (per-segment arrays), e.g. from :func:`design_parameters`.
+    columns : dict
+        ``{key path: ndarray (n,)}``: one value per sample.
+
+    Returns
+    -------
+    dict
+        Parameters whose varied entries carry a leading sample axis ``(n, segments)`` or
+        ``(n, 1)``.
+    """
+    out = dict(params)
+    for key, vals in columns.items():
+        name, seg = promoted(case, key)
+        vals = np.asarray(vals, float)
+        if seg is None:
+            out[name] = vals[:, None]
+        else:
+            base = np.asarray(out[name], float)
+            arr = np.array(np.broadcast_to(base, vals.shape + base.shape[-1:]))
+            arr[..., seg] = vals
+            out[name] = arr
+    return out
+
+
+def evaluate_design(case, outcome, columns):
+    """Chain outputs at the optimal design with inputs replaced by sample columns.
+
+    One vectorized call over samples; only when the geometric duct's wing geometry varies (it
+    takes one geometry per evaluation) does it loop over the samples.
+
+    Returns
+    -------
+    dict
+        The chain outputs with a leading sample axis, plus ``mission_energy_saving`` (n,) [J].
+    """
+    params = design_parameters(case, outcome)
+    opts = chain_options(case)
+    nseg = len(case.segments)
+    n = len(next(iter(columns.values()))) if columns else 1
+    geo = [k for k in columns if case.duct["model"] == "geometric"
+           and promoted(case, k)[0] in WING_GEOMETRY]
+    if not geo:
+        rows = [chain.evaluate(set_columns(case, params, columns), opts, blowing=case.blowing)]
+    else:  # one geometry per evaluation: loop over samples (slow path, said in the docs)
+        rows = [chain.evaluate(set_columns(case, params, {k: np.asarray(v)[i:i + 1]
+                                                          for k, v in columns.items()}),
+                               opts, blowing=case.blowing) for i in range(n)]
+    m = n if len(rows) == 1 else 1
+    out = {k: np.concatenate([np.broadcast_to(r[k], (m, nseg)) for r in rows])
+           for k in rows[0] if k != "diffusion_half_angle"}
+    out["diffusion_half_angle"] = rows[0].get("diffusion_half_angle")
+    out["mission_energy_saving"] = out["energy_saving"].sum(axis=-1)
+    return out
+
+
+# --- fixed-design derivatives (OpenMDAO totals) -------------------------------------------------
+def fixed_design_derivatives(case, outcome, keys=None):
+    """Derivatives of the mission energy saving at the fixed optimal design, [J per SI unit].
+
+    Slot ratio and momentum coefficients held; the fan's pressure rise follows the duct
+    requirement. From ``compute_totals`` of :func:`mdao.system.build_problem` with
+    ``follow_requirement=True, driver=False``.
+
+    Parameters
+    ----------
+    case : mdao.case.Case
+    outcome : mdao.optimum.Outcome
+        The optimum.
+    keys : list of str, optional
+        Key paths (default :func:`sensitivity_keys`).
+
+    Returns
+    -------
+    dict
+        ``{key path: derivative}``.
+    """
+    keys = sensitivity_keys(case) if keys is None else list(keys)
+    prob = build_problem(case, follow_requirement=True, driver=False)
+    prob.set_val("slot_ratio", outcome.slot_ratio)
+    prob.set_val("momentum_coefficient", outcome.values["momentum_coefficient"])
+    prob.run_model()
+    names = sorted({promoted(case, k)[0] for k in keys})
+    totals = prob.compute_totals(of=["mission_energy_saving"], wrt=names)
+    out = {}
+    for key in keys:
+        name, seg = promoted(case, key)
+        row = np.asarray(totals["mission_energy_saving", name], float).ravel()
+        out[key] = float(row[0 if seg is None else seg])
+    return out
+
+
+# --- post-optimal derivatives -------------------------------------------------------------------
+def _set_input(prob, case, key, value):
+    name, seg = promoted(case, key)
+    if seg is None:
+        prob.set_val(name, value)
+    else:
+        arr = np.array([s[key.split(".")[2]] for s in case.segments], float)
+        arr[seg] = value
+        prob.set_val(name, arr)
+
+
+def _reoptimize(prob, case, outcome, key, value):
+    """Warm-started re-optimization with one input changed; (energy [J], converged, message)."""
+    from mdao.optimum import _feasible, _read
+
+    _set_input(prob, case, key, value)
+    for name in ("slot_ratio", "momentum_coefficient", "fan_pressure_rise"):
+        prob.set_val(name, outcome.values[name])
+    result = prob.run_driver()
+    vals = _read(prob, case.replace({key: value}))
+    bad = _feasible(case.replace({key: value}), vals)
+    _set_input(prob, case, key, case.value(key))
+    return vals["mission_energy_saving"], bool(result.success) and not bad, "; ".join(bad)
+
+
+def step_for(case, key, step=POST_OPTIMAL_STEP):
+    """Difference step of a key: ``step`` times its value (or a scale where the value is 0)."""
+    value = float(case.value(key))
+    scale = abs(value) if value != 0 else ZERO_SCALE.get(key.split(".")[-1], 1.0)
+    return step * scale
+
+
+def post_optimal_derivatives(case, outcome, keys=None, step=POST_OPTIMAL_STEP, progress=None):
+    """Derivatives of the optimal mission energy saving, dE*/dp, by re-optimization.
+
+    Central differences of warm-started re-optimizations (each input changed by ``step`` times
+    its value, both signs); a one-sided second-order difference where the central one would
+    leave the input's allowed range (e.g. an altitude of 0 m).
+
+    Parameters
+    ----------
+    case, outcome
+        The case and its optimum.
+    keys : list of str, optional
+        Key paths (default :func:`sensitivity_keys`).
+    step : float
+        Relative step, (0, 0.1].
+    progress : callable, optional
+        ``progress(done, total)`` after each input.
+
+    Returns
+    -------
+    dict
+        ``{key: {"derivative": float or None, "converged": bool, "scheme": "central" or
+        "forward" or "backward", "step": float}}``; ``derivative`` is None when a
+        re-optimization failed.
+    """
+    if not 0 < step <= 0.1:
+        raise ValueError(f"step = {step!r}: allowed (0, 0.1]")
+    keys = sensitivity_keys(case) if keys is None else list(keys)
+    prob = build_problem(case)
+    out = {}
+    e0 = outcome.mission_energy_saving_J
+    for i, key in enumerate(keys):
+        v = float(case.value(key))
+        h = step_for(case, key, step)
+        lo, hi = allowed_range(key)
+        if v - h >= lo and v + h <= hi:
+            scheme, pts, coef = "central", (v - h, v + h), (-0.5, 0.5)
+        elif v + 2 * h <= hi:
+            scheme, pts, coef = "forward", (v + h, v + 2 * h), (2.0, -0.5)
+        else:
+            scheme, pts, coef = "backward", (v - h, v - 2 * h), (-2.0, 0.5)
+        total, ok, why = 0.0, True, []
+        for p, c in zip(pts, coef):
+            e, conv, msg = _reoptimize(prob, case, outcome, key, p)
+            ok &= conv
+            if msg:
+                why.append(msg)
+            total += c * e
+        if scheme == "forward":
+            total -= 1.5 * e0
+        elif scheme == "backward":
+            total += 1.5 * e0
+        out[key] = {"derivative": total / h if ok else None, "converged": ok, "scheme": scheme,
+                    "step": h, "message": "; ".join(why)}
+        if progress:
+            progress(i + 1, len(keys))
+    return out
+
+
+# --- post-optimal derivatives from the multipliers ----------------------------------------------
+def _active_rows(case, outcome):
+    """Active constraints as (output name, index, kind) with kind 'eq', 'dv' or 'out'."""
+    from mdao.optimum import ACTIVE_TOL
+
+    v = outcome.values
+    rows = []
+    near = lambda a, b, s: abs(a - b) <= ACTIVE_TOL * max(abs(s), 1e-300)  # noqa: E731
+    lo, hi = case.airfoil["momentum_coefficient_range"]
+    bounds = case.slot["ratio_bounds"]
+    if bounds is not None and bounds[1] > bounds[0]:
+        if near(v["slot_ratio"], bounds[0], bounds[1]) or near(v["slot_ratio"], bounds[1], bounds[1]):
+            rows.append(("slot_ratio", 0, "dv"))
+        if case.slot["min_height"] > 0 and near(v["slot_height"], case.slot["min_height"],
+                                                case.slot["min_height"]):
+            rows.append(("slot_height", 0, "out"))
+    for i in np.flatnonzero(case.blowing):
+        rows.append(("balance", i, "eq"))
+        c, dp = v["momentum_coefficient"][i], v["fan_pressure_rise"][i]
+        if near(c, lo, hi) or near(c, hi, hi):
+            rows.append(("momentum_coefficient", i, "dv"))
+        if near(dp, case.fan["min_pressure_rise"], case.fan["min_pressure_rise"]) or \
+                near(dp, case.fan["max_pressure_rise"], case.fan["max_pressure_rise"]):
+            rows.append(("fan_pressure_rise", i, "dv"))
+        if near(v["jet_mach"][i], case.slot["max_jet_mach"], case.slot["max_jet_mach"]):
+            rows.append(("jet_mach", i, "out"))
+        if case.fan["model"] == "map":
+            flo, fhi = case.fan["flow_coefficient_range"]
+            if near(v["fan_speed"][i], case.fan["max_speed"], case.fan["max_speed"]):
+                rows.append(("fan_speed", i, "out"))
+            if near(v["flow_coefficient"][i], flo, fhi) or near(v["flow_coefficient"][i], fhi, fhi):
+                rows.append(("flow_coefficient", i, "out"))
+    if case.duct["model"] == "geometric":
+        ang = np.asarray(v["diffusion_half_angle"]).ravel()
+        limit = case.duct["max_diffusion_half_angle"]
+        for j in np.flatnonzero(ang >= limit * (1 - ACTIVE_TOL)):
+            rows.append(("diffusion_half_angle", int(j), "out"))
+    return rows
+
+
+def multiplier_derivatives(case, outcome, keys=None):
+    r"""Post-optimal derivatives from the Lagrange multipliers of the active constraints.
+
+    At the optimum :math:`\nabla_x E = J_x^T \lambda` over the active constraints (pressure
+    balance, active bounds and inequality constraints); :math:`\lambda` is solved by least
+    squares and :math:`dE^*/dp = \partial E/\partial p - \lambda^T \partial g/\partial p`, the
+    partials taken at fixed design variables (fan pressure rise included) from OpenMDAO totals.
+
+    Returns
+    -------
+    dict
+        ``{"derivatives": {key: float}, "residual": float, "active": [names]}``; ``residual``
+        is the relative stationarity residual :math:`\|\nabla_x E - J_x^T\lambda\| /
+        \|\nabla_x E\|` (small when the active set is right and the optimum is converged).
+    """
+    keys = sensitivity_keys(case) if keys is None else list(keys)
+    prob = build_problem(case, driver=False)
+    for name in ("slot_ratio", "momentum_coefficient", "fan_pressure_rise"):
+        prob.set_val(name, outcome.values[name])
+    prob.run_model()
+    blow = np.flatnonzero(case.blowing)
+    bounds = case.slot["ratio_bounds"]
+    slot_free = bounds is not None and bounds[1] > bounds[0]
+    dvs = (["slot_ratio"] if slot_free else []) + ["momentum_coefficient", "fan_pressure_rise"]
+    rows = _active_rows(case, outcome)
+    outs = sorted({r[0] for r in rows if r[2] == "out"})
+    pnames = sorted({promoted(case, k)[0] for k in keys})
+    of = ["mission_energy_saving", "required_pressure_rise"] + outs
+    tot = prob.compute_totals(of=of, wrt=dvs + pnames)
+    nseg = len(case.segments)
+
+    def block(of_name, wrt_name):
+        return np.atleast_2d(np.asarray(tot[of_name, wrt_name], float))
+
+    # columns of x: slot_ratio (if free), C_mu[blow], dp[blow]
+    def xrow(of_name, idx):
+        parts = []
+        if slot_free:
+            parts.append(block(of_name, "slot_ratio")[idx, :])
+        parts.append(block(of_name, "momentum_coefficient")[idx, blow])
+        parts.append(block(of_name, "fan_pressure_rise")[idx, blow])
+        return np.concatenate(parts)
+
+    nx = (1 if slot_free else 0) + 2 * len(blow)
+    grad = xrow("mission_energy_saving", 0)
+    a_rows, p_rows = [], []
+    for name, i, kind in rows:
+        if kind == "eq":  # g = dp_fan - dp_required
+            r = -xrow("required_pressure_rise", i)
+            r[(1 if slot_free else 0) + len(blow) + list(blow).index(i)] += 1.0
+            p_rows.append({n: -block("required_pressure_rise", n)[i] for n in pnames})
+        elif kind == "dv":
+            r = np.zeros(nx)
+            if name == "slot_ratio":
+                r[0] = 1.0
+            else:
+                off = (1 if slot_free else 0) + (len(blow) if name == "fan_pressure_rise" else 0)
+                r[off + list(blow).index(i)] = 1.0
+            p_rows.append({n: np.zeros(block("mission_energy_saving", n).shape[1]) for n in pnames})
+        else:
+            r = xrow(name, i)
+            p_rows.append({n: block(name, n)[i] for n in pnames})
+        a_rows.append(r)
+    a = np.array(a_rows)
+    lam = np.linalg.lstsq(a.T, grad, rcond=None)[0]
+    resid = float(np.linalg.norm(grad - a.T @ lam) / max(np.linalg.norm(grad), 1e-300))
+    out = {}
+    for key in keys:
+        name, seg = promoted(case, key)
+        j = 0 if seg is None else seg
+        d = block("mission_energy_saving", name)[0, j]
+        d -= sum(l * pr[name][j] for l, pr in zip(lam, p_rows))
+        out[key] = float(d)
+    del nseg
+    return {"derivatives": out, "residual": resid,
+            "active": [f"{n}[{i}]" for n, i, _ in rows]}
+
+
+# --- elasticities and the tornado ---------------------------------------------------------------
+def elasticity(derivative, value, answer):
+    """Relative change of the answer per relative change of the input, ``d * value / answer``."""
+    if derivative is None or answer == 0:
+        return None
+    return float(derivative) * float(value) / float(answer)
+
+
+def input_spread(case, key):
+    """Low and high ends of an input's uncertainty for the tornado, with the basis used.
+
+    Priority: the case's ``[uncertainty]`` entry (normal: value -/+ one sd; uniform: its low and
+    high), else the calibration's standard error (value -/+ one se), else the ``[review] band``
+    (value times 1 -/+ band). Ends are clipped to the key's allowed range (the basis says so).
+
+    Returns
+    -------
+    (low, high, basis) : (float, float, str)
+    """
+    v = float(case.value(key))
+    unc = case.uncertainty.get(key)
+    cal = (case.calibration or {}).get("stderr", {})
+    if unc is not None and unc["distribution"] == "normal":
+        low, high, basis = v - unc["sd"], v + unc["sd"], f"uncertainty table: normal, sd {unc['sd']:.4g}"
+    elif unc is not None:
+        low, high, basis = unc["low"], unc["high"], "uncertainty table: uniform range"
+    elif key in cal:
+        low, high, basis = v - cal[key], v + cal[key], f"calibrated standard error {cal[key]:.4g}"
+    else:
+        b = case.review["band"]
+        low, high, basis = v * (1 - b), v * (1 + b), f"default band +/-{b:.0%}"
+        low, high = min(low, high), max(low, high)
+    lo, hi = allowed_range(key)
+    if low < lo or high > hi:
+        low, high = max(low, lo), min(high, hi)
+        basis += ", clipped to the allowed range"
+    return float(low), float(high), basis
+
+
+def tornado(case, outcome, keys=None):
+    """Mission energy at the fixed optimal design with each input at the ends of its spread.
+
+    Re-evaluated through the NumPy chain (not linearized), the fan following the requirement.
+
+    Returns
+    -------
+    list of dict
+        ``parameter``, ``low``, ``high``, ``basis``, ``energy_low_J``, ``energy_high_J``,
+        ``swing_J`` (``|high - low|`` of the energies), sorted by swing, largest first; inputs
+        with no spread (value 0 and no stated uncertainty) are left out.
+    """
+    keys = sensitivity_keys(case) if keys is None else list(keys)
+    rows = []
+    for key in keys:
+        low, high, basis = input_spread(case, key)
+        if high <= low:
+            continue
+        e = evaluate_design(case, outcome, {key: np.array([low, high])})["mission_energy_saving"]
+        rows.append({"parameter": key, "value": float(case.value(key)), "low": low, "high": high,
+                     "basis": basis, "energy_low_J": float(e[0]), "energy_high_J": float(e[1]),
+                     "swing_J": float(abs(e[1] - e[0]))})
+    rows.sort(key=lambda r: -r["swing_J"])
+    return rows
