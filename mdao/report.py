@@ -1,42 +1,6 @@
 """Tables and result files: what the command line prints and writes."""
-import json
-import os
-import tempfile
-from pathlib import Path
-
 from mdao import CAUTION, __version__
-
-
-def write_atomic(path, text):
-    """Write ``text`` to ``path`` atomically (temp file in the same folder, then rename)."""
-    path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            fh.write(text)
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
-
-
-def write_json(path, data):
-    """Write JSON atomically; NaN and infinities become null."""
-    write_atomic(path, json.dumps(_clean(data), indent=2) + "\n")
-
-
-def _clean(obj):
-    if isinstance(obj, float):
-        return obj if obj == obj and abs(obj) != float("inf") else None
-    if isinstance(obj, dict):
-        return {str(k): _clean(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
-        return [_clean(v) for v in obj]
-    if hasattr(obj, "tolist"):
-        return _clean(obj.tolist())
-    return obj
+from mdao.files import write_atomic, write_json  # noqa: F401 (re-exported)
 
 
 def _f(value, fmt):

@@ -254,7 +254,6 @@ def _add_optimization(prob, case, blow, follow):
         model.add_constraint("diffusion_half_angle", upper=limit, ref=limit)
     objective = case.optimize["objective"]
     if objective == "mission-energy":
-        params = None
         scale = _energy_scale(case)
         model.add_objective("mission_energy_saving", ref=-scale)
     else:

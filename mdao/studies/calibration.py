@@ -55,12 +55,12 @@ import hashlib
 import json
 import math
 import os
-import tempfile
 import warnings
 
 import numpy as np
 from scipy import linalg, stats
 
+from mdao.files import write_atomic
 from mdao.studies.runs import CalibrationError, check_runs, derived, fit_plan, read_runs
 
 try:
@@ -551,21 +551,6 @@ def load_fragment(path):
             "validity": validity}
 
 
-def _write_atomic(path, write):
-    """Write through ``write(handle)`` into a temporary file beside ``path``, then os.replace."""
-    folder = os.path.dirname(os.path.abspath(path))
-    fd, temp = tempfile.mkstemp(dir=folder, prefix="." + os.path.basename(path) + ".",
-                                suffix=".tmp")
-    try:
-        with os.fdopen(fd, "wb") as handle:
-            write(handle)
-        os.replace(temp, path)
-    except BaseException:
-        if os.path.exists(temp):
-            os.remove(temp)
-        raise
-
-
 def _plots(runs, result, out_dir):
     """PNG plots (duct collapse, drag against C_mu with 95 % band, residuals); [] without
     matplotlib."""
@@ -579,7 +564,7 @@ def _plots(runs, result, out_dir):
 
     def save(fig, name):
         path = os.path.join(out_dir, name)
-        _write_atomic(path, lambda handle: fig.savefig(handle, format="png", dpi=120))
+        write_atomic(path, lambda handle: fig.savefig(handle, format="png", dpi=120))
         written.append(path)
 
     duct = fits["duct"]
@@ -678,9 +663,9 @@ def calibrate_file(csv_path, out_dir, plots=True):
         files += _plots(runs, result, out_dir)
     result["files"] = [os.fspath(f) for f in files]
     text = fragment_text(result, result["source"])
-    _write_atomic(toml_path, lambda handle: handle.write(text.encode("utf-8")))
+    write_atomic(toml_path, text)
     blob = json.dumps(result, indent=2, allow_nan=False) + "\n"
-    _write_atomic(json_path, lambda handle: handle.write(blob.encode("utf-8")))
+    write_atomic(json_path, blob)
     return result
 
 

@@ -77,18 +77,10 @@ _POSITIVE = ("speed", "density", "chord", "span", "slot_height")
 _NON_NEGATIVE = ("mass_flow", "volume_flow")
 _HEADER = re.compile(r"^\s*([A-Za-z_][A-Za-z0-9_]*)\s*(?:\[(.*)\])?\s*$")
 
-#: Sea-level ISA temperature [K] and Sutherland constants (ICAO Doc 7488).
-_T0, _SUTHERLAND_B, _SUTHERLAND_S = 288.15, 1.458e-6, 110.4
-
-_UREG = None
-
 
 def _ureg():
-    global _UREG
-    if _UREG is None:
-        import pint
-        _UREG = pint.UnitRegistry()
-    return _UREG
+    from mdao.units import registry
+    return registry()
 
 
 def _si_factor(name, unit):
@@ -277,10 +269,6 @@ def read_runs(path):
     return check_runs({name: data[:, j] for j, name in enumerate(names)})
 
 
-def _sutherland(temperature):
-    return _SUTHERLAND_B * temperature ** 1.5 / (temperature + _SUTHERLAND_S)
-
-
 def atmosphere_state(altitude):
     """(density [kg/m^3], viscosity [Pa s]) from the ISA at ``altitude`` [m] (0-20 km)."""
     from mdao.physics.atmosphere import isa
@@ -321,7 +309,7 @@ def derived(runs):
         rho = np.asarray(runs["density"], float) if "density" in runs else rho_isa
     else:
         rho = np.asarray(runs["density"], float)
-        mu = np.full_like(rho, _sutherland(_T0))
+        mu = np.full_like(rho, atmosphere_state(0.0)[1])
         notes.append("viscosity taken at the sea-level ISA temperature 288.15 K (only density "
                      "given; add an 'altitude' column for the ISA viscosity)")
     volume_flow = (np.asarray(runs["mass_flow"], float) / rho if "mass_flow" in runs

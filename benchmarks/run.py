@@ -1,0 +1,208 @@
+"""Speed against the floor: the whole chain three ways, each bundled optimization, and the review's
+sweep and Monte Carlo throughput. Prints a table and ratios; asserts nothing.
+
+Run from the repository root::
+
+    python benchmarks/run.py [--json PATH] [--quick]
+
+The floor is the lumped chain (ISA troposphere, jet, duct, constant-efficiency fan, drag, net
+power and energy) written as tightly as plain NumPy allows, on the same arithmetic as the model.
+"""
+import argparse
+import os
+import sys
+import time
+import tracemalloc
+from pathlib import Path
+
+import numpy as np
+
+os.environ.setdefault("OPENMDAO_REPORTS", "0")
+ROOT = Path(__file__).resolve().parent.parent
+CASES = sorted((ROOT / "cases").glob("*.toml"))
+
+CONST = dict(slot_ratio=0.012, chord=0.5, blown_span=2.0, jet_loss_factor=1.25,
+             freestream_assist=0.9, fan_rated_efficiency=0.7, motor_efficiency=0.9,
+             drag_clean=0.011, slot_drag=0.02, thrust_leverage=-1.6, chain_efficiency=0.8)
+
+
+def operating_points(n, seed=0):
+    rng = np.random.default_rng(seed)
+    return dict(altitude=rng.uniform(0.0, 10000.0, n), speed=rng.uniform(15.0, 80.0, n),
+                duration=rng.uniform(60.0, 7200.0, n),
+                momentum_coefficient=rng.uniform(0.01, 0.15, n))
+
+
+def floor(pts, c=CONST):
+    """Plain-NumPy floor: the same arithmetic, fused by hand, no intermediates kept."""
+    z = pts["altitude"]
+    h = 6356766.0 * z / (6356766.0 + z)
+    t = 288.15 - 0.0065 * h
+    rho = 1.225 * (t / 288.15) ** 4.2558797
+    v = pts["speed"]
+    cmu = pts["momentum_coefficient"]
+    q = 0.5 * rho * v * v
+    vj = v * np.sqrt(cmu / (2.0 * c["slot_ratio"]))
+    area = c["chord"] * c["blown_span"]
+    flow = c["slot_ratio"] * area * vj
+    dp = c["jet_loss_factor"] * 0.5 * rho * vj * vj - c["freestream_assist"] * q
+    shaft = flow * np.maximum(dp, 0.0) / c["fan_rated_efficiency"]
+    saving = -q * area * (c["slot_drag"] + c["thrust_leverage"] * cmu)
+    net = saving * v / c["chain_efficiency"] - shaft / c["motor_efficiency"]
+    return net * pts["duration"]
+
+
+def direct(pts):
+    from mdao.physics import chain
+    return chain.evaluate(dict(CONST, **pts))["energy_saving"]
+
+
+def group_problem(n):
+    import openmdao.api as om
+    from mdao.system import BlownWingGroup
+    prob = om.Problem(reports=False)
+    prob.model.add_subsystem("wing", BlownWingGroup(num_nodes=n, follow_requirement=True),
+                             promotes=["*"])
+    prob.setup()
+    for k, v in CONST.items():
+        prob.set_val(k, v)
+    return prob
+
+
+def group(prob, pts):
+    for k, v in pts.items():
+        prob.set_val(k, v)
+    prob.run_model()
+    return prob.get_val("energy_saving")
+
+
+def best_of(fn, repeat):
+    times = []
+    for _ in range(repeat):
+        t0 = time.perf_counter()
+        out = fn()
+        times.append(time.perf_counter() - t0)
+    return min(times), out
+
+
+def bench_chain(sizes, repeat):
+    rows = []
+    for n in sizes:
+        pts = operating_points(n)
+        t_floor, e_floor = best_of(lambda: floor(pts), repeat)
+        t_direct, e_direct = best_of(lambda: direct(pts), repeat)
+        prob = group_problem(n)
+        t_group, e_group = best_of(lambda: group(prob, pts), repeat)
+        # the three must agree, or the timing is meaningless
+        scale = np.abs(e_floor).max()
+        assert np.abs(e_direct - e_floor).max() < 1e-6 * scale, "direct path disagrees with floor"
+        assert np.abs(e_group - e_floor).max() < 1e-6 * scale, "group disagrees with floor"
+        rows.append(dict(points=n, floor_s=t_floor, direct_s=t_direct, group_s=t_group,
+                         direct_over_floor=t_direct / t_floor, group_over_floor=t_group / t_floor))
+    return rows
+
+
+def bench_optimizations(repeat):
+    from mdao.case import load_case
+    from mdao.optimum import optimize
+    from mdao.system import build_problem
+    rows = []
+    for path in CASES:
+        case = load_case(path)
+        t_an, out = best_of(lambda: optimize(case), repeat)
+
+        def fd_run():
+            prob = build_problem(case)
+            prob.model.approx_totals(method="fd", step=1e-7, form="forward", step_calc="rel")
+            prob.setup()
+            from mdao.system import set_case_values
+            set_case_values(prob, case)
+            return optimize(case, problem=prob)
+        t_fd, out_fd = best_of(fd_run, repeat)
+        rows.append(dict(case=path.stem, wall_s=t_an, converged=out.converged,
+                         iterations=out.iterations, model_evaluations=out.model_evaluations,
+                         derivative_evaluations=out.derivative_evaluations,
+                         fd_wall_s=t_fd, fd_converged=out_fd.converged,
+                         fd_model_evaluations=out_fd.model_evaluations,
+                         fd_over_analytic=t_fd / t_an))
+    return rows
+
+
+def bench_studies(repeat):
+    """Net-power sweep over 1e6 (momentum coefficient x fan efficiency) points and a 1e5-sample
+    Monte Carlo, each one vectorized call of the direct chain; peak memory by tracemalloc."""
+    from mdao.case import load_case
+    from mdao.physics import chain
+    from mdao.system import chain_options, chain_parameters
+    case = load_case(ROOT / "cases" / "survey-drone.toml")
+    opts = chain_options(case)
+    params = chain_parameters(case)
+    nseg = len(case.segments)
+    ngrid = 10**6 // nseg
+    cmu = np.linspace(*case.airfoil["momentum_coefficient_range"], ngrid)[:, None]
+
+    def sweep():
+        return chain.evaluate(dict(params, momentum_coefficient=cmu), opts)["net_power_saving"]
+    tracemalloc.start()
+    t_sweep, out = best_of(sweep, repeat)
+    _, peak = tracemalloc.get_traced_memory()
+    tracemalloc.stop()
+    rng = np.random.default_rng(1)
+    samples = 10**5
+    draws = dict(params, momentum_coefficient=np.full(nseg, 0.05),
+                 thrust_leverage=rng.normal(params["thrust_leverage"], 0.15, (samples, 1)),
+                 jet_loss_factor=rng.normal(params["jet_loss_factor"], 0.08, (samples, 1)))
+
+    def monte_carlo():
+        return chain.evaluate(draws, opts)["energy_saving"].sum(axis=-1)
+    t_mc, _ = best_of(monte_carlo, repeat)
+    return dict(sweep_points=int(out.size), sweep_1e6_s=t_sweep, sweep_1e6_peak_MB=peak / 2**20,
+                monte_carlo_samples=samples, monte_carlo_1e5_s=t_mc)
+
+
+def main(argv=None):
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--json", default=None, help="also write the figures to this JSON file")
+    parser.add_argument("--quick", action="store_true", help="smaller sizes, one repeat")
+    args = parser.parse_args(argv)
+    sizes = (10**3, 10**4) if args.quick else (10**3, 10**5, 10**6)
+    repeat = 1 if args.quick else 3
+
+    chain_rows = bench_chain(sizes, repeat)
+    print("Whole chain, lumped duct and constant fan (best of %d)" % repeat)
+    print(f"{'points':>9} {'floor s':>10} {'direct s':>10} {'group s':>10} {'direct/floor':>13} {'group/floor':>12}")
+    for r in chain_rows:
+        print(f"{r['points']:>9} {r['floor_s']:>10.4f} {r['direct_s']:>10.4f} {r['group_s']:>10.4f} "
+              f"{r['direct_over_floor']:>13.2f} {r['group_over_floor']:>12.2f}")
+    opt_rows = bench_optimizations(repeat)
+    print("\nBundled optimizations: analytic totals against finite-difference totals")
+    print(f"{'case':>16} {'wall s':>8} {'iter':>5} {'model ev':>9} {'deriv ev':>9} {'FD wall s':>10} {'FD/analytic':>12}")
+    for r in opt_rows:
+        print(f"{r['case']:>16} {r['wall_s']:>8.3f} {r['iterations']:>5} {r['model_evaluations']:>9} "
+              f"{r['derivative_evaluations']:>9} {r['fd_wall_s']:>10.3f} {r['fd_over_analytic']:>12.2f}")
+    studies = bench_studies(repeat)
+    print(f"\nSweep of {studies['sweep_points']} points: {studies['sweep_1e6_s']:.3f} s, peak "
+          f"{studies['sweep_1e6_peak_MB']:.0f} MB; Monte Carlo of {studies['monte_carlo_samples']} "
+          f"samples: {studies['monte_carlo_1e5_s']:.3f} s")
+
+    by_n = {r["points"]: r for r in chain_rows}
+    figures = {
+        "direct_over_floor_1e6": by_n.get(10**6, chain_rows[-1])["direct_over_floor"],
+        "group_over_floor_1e5": by_n.get(10**5, chain_rows[-1])["group_over_floor"],
+        "optimize_wall_s": {r["case"]: r["wall_s"] for r in opt_rows},
+        "fd_over_analytic": {r["case"]: r["fd_over_analytic"] for r in opt_rows},
+        "sweep_1e6_s": studies["sweep_1e6_s"],
+        "sweep_1e6_peak_MB": studies["sweep_1e6_peak_MB"],
+        "monte_carlo_1e5_s": studies["monte_carlo_1e5_s"],
+        "chain": chain_rows, "optimizations": opt_rows, "studies": studies,
+    }
+    if args.json:
+        sys.path.insert(0, str(ROOT))
+        from mdao.report import write_json
+        write_json(args.json, figures)
+        print(f"wrote {args.json}")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
