@@ -261,7 +261,6 @@ def _add_optimization(prob, case, blow, follow):
         model.add_objective("net_power_saving", index=i, ref=-_power_scale(case))
     prob.driver = om.ScipyOptimizeDriver(optimizer="SLSQP", maxiter=case.optimize["max_iterations"],
                                          tol=case.optimize["tolerance"], disp=False)
-    prob.driver.declare_coloring = None
 
 
 def _power_scale(case):

@@ -6,6 +6,7 @@ functions as the OpenMDAO components, so the two cannot drift apart (a test comp
 
 Parameter names are the promoted input names of :class:`mdao.system.BlownWingGroup`.
 """
+import functools
 from dataclasses import dataclass
 
 import numpy as np
@@ -78,10 +79,9 @@ def evaluate(params, options=ChainOptions(), blowing=True):
     else:
         geo = {k: _scalar(k, p[k]) for k in ("fan_diameter", "blown_span", "slot_ratio", "chord",
                                              "transition_length", "slot_exponent")}
-        st = transition.stations(geo["fan_diameter"], geo["blown_span"] / options.fans,
-                                 geo["slot_ratio"] * geo["chord"], geo["transition_length"],
-                                 geo["slot_exponent"], schedule=options.schedule,
-                                 count=options.stations)
+        st = _stations(geo["fan_diameter"], geo["blown_span"] / options.fans,
+                       geo["slot_ratio"] * geo["chord"], geo["transition_length"],
+                       geo["slot_exponent"], options.schedule, options.stations)
         shape = np.broadcast(js.volume_flow, atm.density, *(np.asarray(p[k]) for k in (
             "suction_ratio", "suction_inlet_loss", "bend_loss", "extra_loss"))).shape
         q_f = np.broadcast_to(js.volume_flow / options.fans, shape).ravel()
@@ -142,6 +142,13 @@ def evaluate(params, options=ChainOptions(), blowing=True):
     out["net_power_saving"] = net
     out["energy_saving"] = power.segment_energy(net, p["duration"])
     return out
+
+
+@functools.lru_cache(maxsize=64)
+def _stations(fan_diameter, slot_width, slot_height, length, slot_exponent, schedule, count):
+    """Transition stations of one wing geometry, kept: searches re-evaluate the same duct."""
+    return transition.stations(fan_diameter, slot_width, slot_height, length, slot_exponent,
+                               schedule=schedule, count=count)
 
 
 def _scalar(name, value):
