@@ -57,12 +57,12 @@ def direct(pts):
     return chain.evaluate(dict(CONST, **pts))["energy_saving"]
 
 
-def group_problem(n):
+def group_problem(n, fused=False):
     import openmdao.api as om
     from mdao.system import BlownWingGroup
     prob = om.Problem(reports=False)
-    prob.model.add_subsystem("wing", BlownWingGroup(num_nodes=n, follow_requirement=True),
-                             promotes=["*"])
+    prob.model.add_subsystem("wing", BlownWingGroup(num_nodes=n, follow_requirement=True,
+                                                    fused=fused), promotes=["*"])
     prob.setup()
     for k, v in CONST.items():
         prob.set_val(k, v)
@@ -93,12 +93,17 @@ def bench_chain(sizes, repeat):
         t_direct, e_direct = best_of(lambda: direct(pts), repeat)
         prob = group_problem(n)
         t_group, e_group = best_of(lambda: group(prob, pts), repeat)
+        fused = group_problem(n, fused=True)
+        t_fused, e_fused = best_of(lambda: group(fused, pts), repeat)
         # the three must agree, or the timing is meaningless
         scale = np.abs(e_floor).max()
         assert np.abs(e_direct - e_floor).max() < 1e-6 * scale, "direct path disagrees with floor"
         assert np.abs(e_group - e_floor).max() < 1e-6 * scale, "group disagrees with floor"
+        assert np.abs(e_fused - e_floor).max() < 1e-6 * scale, "fused group disagrees with floor"
         rows.append(dict(points=n, floor_s=t_floor, direct_s=t_direct, group_s=t_group,
-                         direct_over_floor=t_direct / t_floor, group_over_floor=t_group / t_floor))
+                         fused_s=t_fused, direct_over_floor=t_direct / t_floor,
+                         group_over_floor=t_group / t_floor,
+                         fused_over_floor=t_fused / t_floor))
     return rows
 
 
@@ -170,10 +175,12 @@ def main(argv=None):
 
     chain_rows = bench_chain(sizes, repeat)
     print("Whole chain, lumped duct and constant fan (best of %d)" % repeat)
-    print(f"{'points':>9} {'floor s':>10} {'direct s':>10} {'group s':>10} {'direct/floor':>13} {'group/floor':>12}")
+    print(f"{'points':>9} {'floor s':>9} {'direct s':>9} {'group s':>9} {'fused s':>9} "
+          f"{'direct/floor':>13} {'group/floor':>12} {'fused/floor':>12}")
     for r in chain_rows:
-        print(f"{r['points']:>9} {r['floor_s']:>10.4f} {r['direct_s']:>10.4f} {r['group_s']:>10.4f} "
-              f"{r['direct_over_floor']:>13.2f} {r['group_over_floor']:>12.2f}")
+        print(f"{r['points']:>9} {r['floor_s']:>9.4f} {r['direct_s']:>9.4f} {r['group_s']:>9.4f} "
+              f"{r['fused_s']:>9.4f} {r['direct_over_floor']:>13.2f} "
+              f"{r['group_over_floor']:>12.2f} {r['fused_over_floor']:>12.2f}")
     opt_rows = bench_optimizations(repeat)
     print("\nBundled optimizations: analytic totals against finite-difference totals")
     print(f"{'case':>16} {'wall s':>8} {'iter':>5} {'model ev':>9} {'deriv ev':>9} {'FD wall s':>10} {'FD/analytic':>12}")
@@ -189,6 +196,7 @@ def main(argv=None):
     figures = {
         "direct_over_floor_1e6": by_n.get(10**6, chain_rows[-1])["direct_over_floor"],
         "group_over_floor_1e5": by_n.get(10**5, chain_rows[-1])["group_over_floor"],
+        "fused_group_over_floor_1e5": by_n.get(10**5, chain_rows[-1])["fused_over_floor"],
         "optimize_wall_s": {r["case"]: r["wall_s"] for r in opt_rows},
         "fd_over_analytic": {r["case"]: r["fd_over_analytic"] for r in opt_rows},
         "sweep_1e6_s": studies["sweep_1e6_s"],

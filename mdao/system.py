@@ -10,6 +10,7 @@ import openmdao.api as om
 
 from mdao.components.airfoil import AirfoilComp
 from mdao.components.atmosphere import AtmosphereComp
+from mdao.components.chain import ChainComp
 from mdao.components.duct import DuctLossComp
 from mdao.components.fan import FanComp
 from mdao.components.jet import JetComp
@@ -80,10 +81,24 @@ class BlownWingGroup(om.Group):
         self.options.declare("follow_requirement", types=bool, default=False,
                              desc="feed the required pressure rise to the fan (fixed-design "
                                   "studies) instead of taking fan_pressure_rise as an input")
+        self.options.declare("fused", types=bool, default=False,
+                             desc="lumped duct and constant fan only: one ChainComp instead of "
+                                  "one component per discipline (the fast path for large "
+                                  "vectors; same names, values and derivatives)")
 
     def setup(self):
         o = self.options
         n = o["num_nodes"]
+        if o["fused"]:
+            if o["duct_model"] != "lumped" or o["fan_model"] != "constant":
+                raise ValueError("BlownWingGroup: fused=True needs duct_model='lumped' and "
+                                 f"fan_model='constant', got {o['duct_model']!r} and "
+                                 f"{o['fan_model']!r}")
+            self.add_subsystem("chain", ChainComp(num_nodes=n, compressible=o["compressible"],
+                                                  blowing=o["blowing"],
+                                                  follow_requirement=o["follow_requirement"]),
+                               promotes=["*"])
+            return
         self.add_subsystem("atmosphere", AtmosphereComp(num_nodes=n), promotes=["*"])
         self.add_subsystem("jet", JetComp(num_nodes=n), promotes=["*"])
         if o["duct_model"] == "geometric":
@@ -113,12 +128,15 @@ class BlownWingGroup(om.Group):
             self.set_input_defaults("fan_diameter", 0.08, units="m")
 
 
-def group_options(case):
-    """BlownWingGroup options for a case."""
+def group_options(case, fused=None):
+    """BlownWingGroup options for a case; ``fused`` defaults to True where it applies
+    (lumped duct and constant fan)."""
+    lumped = case.duct["model"] == "lumped" and case.fan["model"] == "constant"
     return dict(num_nodes=len(case.segments), duct_model=case.duct["model"],
                 fan_model=case.fan["model"], fans=case.duct["fans"],
                 stations=case.duct["stations"], schedule=case.duct["schedule"],
-                compressible=case.fan["compressible"], blowing=list(case.blowing))
+                compressible=case.fan["compressible"], blowing=list(case.blowing),
+                fused=lumped if fused is None else fused)
 
 
 def applicable_parameters(case):
@@ -188,7 +206,7 @@ def chain_parameters(case, **overrides):
     return params
 
 
-def build_problem(case, follow_requirement=False, driver=True):
+def build_problem(case, follow_requirement=False, driver=True, fused=None):
     """A set-up problem for a case: design variables, constraints, objective and SLSQP.
 
     Design variables: the slot ratio (when ``slot.ratio_bounds`` are given and differ), and per
@@ -206,8 +224,11 @@ def build_problem(case, follow_requirement=False, driver=True):
         pressure design variable nor equality constraint).
     driver : bool
         Attach the SLSQP driver and the design variables, constraints and objective.
+    fused : bool, optional
+        Use the one-component chain (lumped duct and constant fan only); default: where it
+        applies.
     """
-    opts = group_options(case)
+    opts = group_options(case, fused)
     opts["follow_requirement"] = follow_requirement
     prob = om.Problem(reports=False)
     prob.model.add_subsystem("wing", BlownWingGroup(**opts), promotes=["*"])
