@@ -133,6 +133,41 @@ def bench_optimizations(repeat):
     return rows
 
 
+def bench_segments(counts, repeat):
+    """How an optimization's cost grows with the number of segments (survey case, segments
+    repeated at spread speeds and altitudes), analytic against finite-difference totals."""
+    import copy
+    from mdao.case import parse_case
+    from mdao.optimum import optimize
+    from mdao.system import build_problem, set_case_values
+    try:
+        import tomllib
+    except ModuleNotFoundError:  # Python 3.10
+        import tomli as tomllib
+    raw = tomllib.loads((ROOT / "cases" / "survey-drone.toml").read_text())
+    rows = []
+    for count in counts:
+        r = copy.deepcopy(raw)
+        r["segment"] = [{"name": f"s{i}", "altitude": f"{50 + 40 * (i % 7)} m",
+                         "speed": f"{15 + (i % 5) * 2.5} m/s", "duration": "10 min"}
+                        for i in range(count)]
+        r.pop("uncertainty", None)
+        case = parse_case(r)
+        t_an, out = best_of(lambda: optimize(case), repeat)
+
+        def fd_run():
+            prob = build_problem(case)
+            prob.model.approx_totals(method="fd", step=1e-7, form="forward", step_calc="rel")
+            prob.setup()
+            set_case_values(prob, case)
+            return optimize(case, problem=prob)
+        t_fd, out_fd = best_of(fd_run, repeat)
+        rows.append(dict(segments=count, wall_s=t_an, iterations=out.iterations,
+                         converged=out.converged, fd_wall_s=t_fd, fd_converged=out_fd.converged,
+                         fd_over_analytic=t_fd / t_an))
+    return rows
+
+
 def bench_studies(repeat):
     """Net-power sweep over 1e6 (momentum coefficient x fan efficiency) points and a 1e5-sample
     Monte Carlo, each one vectorized call of the direct chain; peak memory by tracemalloc."""
@@ -187,6 +222,12 @@ def main(argv=None):
     for r in opt_rows:
         print(f"{r['case']:>16} {r['wall_s']:>8.3f} {r['iterations']:>5} {r['model_evaluations']:>9} "
               f"{r['derivative_evaluations']:>9} {r['fd_wall_s']:>10.3f} {r['fd_over_analytic']:>12.2f}")
+    seg_rows = bench_segments((3, 12, 48) if not args.quick else (3, 12), 1)
+    print("\nCost against the number of segments (survey case, one optimization)")
+    print(f"{'segments':>9} {'wall s':>8} {'iter':>5} {'FD wall s':>10} {'FD/analytic':>12}")
+    for r in seg_rows:
+        print(f"{r['segments']:>9} {r['wall_s']:>8.3f} {r['iterations']:>5} {r['fd_wall_s']:>10.3f} "
+              f"{r['fd_over_analytic']:>12.2f}")
     studies = bench_studies(repeat)
     print(f"\nSweep of {studies['sweep_points']} points: {studies['sweep_1e6_s']:.3f} s, peak "
           f"{studies['sweep_1e6_peak_MB']:.0f} MB; Monte Carlo of {studies['monte_carlo_samples']} "
@@ -202,7 +243,8 @@ def main(argv=None):
         "sweep_1e6_s": studies["sweep_1e6_s"],
         "sweep_1e6_peak_MB": studies["sweep_1e6_peak_MB"],
         "monte_carlo_1e5_s": studies["monte_carlo_1e5_s"],
-        "chain": chain_rows, "optimizations": opt_rows, "studies": studies,
+        "chain": chain_rows, "optimizations": opt_rows, "segments": seg_rows,
+        "studies": studies,
     }
     if args.json:
         sys.path.insert(0, str(ROOT))
