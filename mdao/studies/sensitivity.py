@@ -80,12 +80,13 @@ def allowed_range(key):
 
 
 def unit_of(key):
-    """SI unit of a key path, for tables ('-' for pure numbers)."""
-    name = key.split(".")[-1]
-    return {"chord": "m", "blown_span": "m", "fan_diameter": "m", "transition_length": "m",
-            "roughness": "m", "speed": "m/s", "altitude": "m", "duration": "s",
-            "min_height": "m", "min_pressure_rise": "Pa", "max_pressure_rise": "Pa",
-            "max_speed": "rev/s", "max_diffusion_half_angle": "rad"}.get(name, "-")
+    """SI unit of a key path, for tables (``"-"`` for pure numbers)."""
+    from mdao.units import SI_UNITS
+
+    parts = key.split(".")
+    spec = SEGMENT[parts[2]] if parts[0] == "segment" else SCHEMA[parts[0]][parts[1]]
+    unit = SI_UNITS.get(spec.get("kind", "dimensionless"), "")
+    return (unit or "-").replace("revolution/s", "rev/s")
 
 
 def design_parameters(case, outcome):
@@ -126,11 +127,19 @@ def set_columns(case, params, columns):
     return out
 
 
+def chunk_rows(case, budget=2 ** 18):
+    """Samples (or grid points) per vectorized call: about ``budget`` operating points times
+    duct stations (the geometric duct evaluates its loss along every station)."""
+    per = len(case.segments) * (case.duct["stations"] if case.duct["model"] == "geometric" else 1)
+    return max(1, budget // per)
+
+
 def evaluate_design(case, outcome, columns):
     """Chain outputs at the optimal design with inputs replaced by sample columns.
 
-    One vectorized call over samples; only when the geometric duct's wing geometry varies (it
-    takes one geometry per evaluation) does it loop over the samples.
+    Vectorized over samples, in chunks of :func:`chunk_rows` samples per call (bounded memory);
+    only when the geometric duct's wing geometry varies (it takes one geometry per evaluation)
+    does it loop over the samples one by one.
 
     Returns
     -------
@@ -143,14 +152,18 @@ def evaluate_design(case, outcome, columns):
     n = len(next(iter(columns.values()))) if columns else 1
     geo = [k for k in columns if case.duct["model"] == "geometric"
            and promoted(case, k)[0] in WING_GEOMETRY]
-    if not geo:
-        rows = [chain.evaluate(set_columns(case, params, columns), opts, blowing=case.blowing)]
+    if not geo:  # vectorized, in chunks of samples to bound the memory of the temporaries
+        size = chunk_rows(case)
+        rows = [chain.evaluate(set_columns(case, params, {k: np.asarray(v)[a:a + size]
+                                                          for k, v in columns.items()}),
+                               opts, blowing=case.blowing) for a in range(0, n, size)]
+        sizes = [min(size, n - a) for a in range(0, n, size)]
     else:  # one geometry per evaluation: loop over samples (slow path, said in the docs)
         rows = [chain.evaluate(set_columns(case, params, {k: np.asarray(v)[i:i + 1]
                                                           for k, v in columns.items()}),
                                opts, blowing=case.blowing) for i in range(n)]
-    m = n if len(rows) == 1 else 1
-    out = {k: np.concatenate([np.broadcast_to(r[k], (m, nseg)) for r in rows])
+        sizes = [1] * n
+    out = {k: np.concatenate([np.broadcast_to(r[k], (m, nseg)) for r, m in zip(rows, sizes)])
            for k in rows[0] if k != "diffusion_half_angle"}
     out["diffusion_half_angle"] = rows[0].get("diffusion_half_angle")
     out["mission_energy_saving"] = out["energy_saving"].sum(axis=-1)
@@ -189,7 +202,7 @@ def fixed_design_derivatives(case, outcome, keys=None):
     for key in keys:
         name, seg = promoted(case, key)
         row = np.asarray(totals["mission_energy_saving", name], float).ravel()
-        out[key] = float(row[0 if seg is None else seg])
+        out[key] = float(row[0 if seg is None else seg]) + 0.0  # no negative zero
     return out
 
 
@@ -353,7 +366,6 @@ def multiplier_derivatives(case, outcome, keys=None):
     pnames = sorted({promoted(case, k)[0] for k in keys})
     of = ["mission_energy_saving", "required_pressure_rise"] + outs
     tot = prob.compute_totals(of=of, wrt=dvs + pnames)
-    nseg = len(case.segments)
 
     def block(of_name, wrt_name):
         return np.atleast_2d(np.asarray(tot[of_name, wrt_name], float))
@@ -397,7 +409,6 @@ def multiplier_derivatives(case, outcome, keys=None):
         d = block("mission_energy_saving", name)[0, j]
         d -= sum(l * pr[name][j] for l, pr in zip(lam, p_rows))
         out[key] = float(d)
-    del nseg
     return {"derivatives": out, "residual": resid,
             "active": [f"{n}[{i}]" for n, i, _ in rows]}
 

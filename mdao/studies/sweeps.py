@@ -1,0 +1,219 @@
+r"""Sweeps for the design review: net power against momentum coefficient, break-even maps.
+
+Every grid is evaluated by vectorized calls of :func:`mdao.physics.chain.evaluate` (grid axes
+lead, segments last; large grids in chunks of points to bound the memory), the fan following the
+duct requirement. The one exception: the geometric
+duct builds its transition from one wing geometry per evaluation, so a map over the slot ratio
+with the geometric duct loops over the slot-ratio rows (each row one vectorized call).
+
+* :func:`net_power_sweep`: net power saved per blowing segment over the momentum coefficient, for
+  several fan efficiencies (the map's peak efficiency for a fan map), with the feasible region of
+  the constraints (calibrated range, fan pressure-rise limits, jet Mach limit, fan speed and map
+  flow range) and the optimum.
+* :func:`break_even_map`: break-even fan efficiency
+  (:func:`mdao.studies.breakeven.break_even_efficiency`) over two inputs; :func:`review_maps`
+  gives the two of the review: slot ratio against the jet loss factor (lumped duct; the geometric
+  duct builds that factor from geometry, so its map is over ``duct.extra_loss``, the adder on the
+  same factor), and slot penalty against thrust leverage.
+"""
+import numpy as np
+
+from mdao.physics import chain
+from mdao.studies.breakeven import break_even_efficiency
+from mdao.studies.sensitivity import WING_GEOMETRY, chunk_rows, design_parameters, promoted
+from mdao.system import chain_options, chain_parameters
+
+#: Fan efficiencies of the sweep when ``[review] fan_efficiencies`` is not given.
+DEFAULT_EFFICIENCIES = (0.5, 0.6, 0.7, 0.8, 0.9)
+#: Chain outputs the sweep keeps.
+KEEP = ("net_power_saving", "required_pressure_rise", "jet_mach", "ram_driven", "fan_speed",
+        "flow_coefficient")
+
+
+def sweep_efficiencies(case):
+    """Fan efficiencies of the sweep (sorted, the case's own included) and the key they set."""
+    key = "fan.efficiency" if case.fan["model"] == "constant" else "fan.peak_efficiency"
+    given = case.review["fan_efficiencies"]
+    effs = set(DEFAULT_EFFICIENCIES if given is None else given)
+    effs.add(float(case.value(key)))
+    return sorted(effs), key
+
+
+def net_power_sweep(case, outcome, efficiencies=None, points=201, cmu_max=None):
+    """Net power saved against momentum coefficient at the optimal slot ratio.
+
+    Parameters
+    ----------
+    case, outcome
+        The case and its optimum.
+    efficiencies : sequence of float, optional
+        Fan efficiencies in (0, 1] (the map's peak efficiency for a fan map); default
+        :func:`sweep_efficiencies`.
+    points : int
+        Grid points in momentum coefficient, >= 2.
+    cmu_max : float, optional
+        Upper end of the grid (default 1.2 times the calibrated maximum); the grid starts at
+        1/20 of the calibrated minimum.
+
+    Returns
+    -------
+    dict
+        ``momentum_coefficient`` (points,), ``efficiencies`` (k,), ``efficiency_key``,
+        ``net_power_W`` (k, points, segments), ``feasible`` (points, segments) bool,
+        ``limits`` {name: (points, segments) bool of where each constraint holds},
+        ``ram_driven`` (points, segments), ``optimum`` per segment {momentum_coefficient,
+        net_power_W}, ``blowing`` (segments,) bool.
+    """
+    if points < 2:
+        raise ValueError(f"points = {points!r}: allowed >= 2")
+    default, key = sweep_efficiencies(case)
+    effs = np.asarray(default if efficiencies is None else efficiencies, float)
+    if np.any((effs <= 0) | (effs > 1)):
+        raise ValueError(f"efficiencies = {effs.tolist()!r}: each must be in (0, 1]")
+    lo, hi = case.airfoil["momentum_coefficient_range"]
+    top = 1.2 * hi if cmu_max is None else float(cmu_max)
+    grid = np.linspace(lo / 20.0, top, points)
+    name = promoted(case, key)[0]
+    p = design_parameters(case, outcome)
+    p[name] = effs[:, None, None]
+    nseg = len(case.segments)
+    size = max(1, chunk_rows(case) // len(effs))
+    parts = []
+    for a in range(0, points, size):  # chunks of the grid: bounded memory, each vectorized
+        p["momentum_coefficient"] = grid[None, a:a + size, None]
+        part = chain.evaluate(p, chain_options(case), blowing=True)
+        m = len(grid[a:a + size])
+        parts.append({k: np.broadcast_to(v, (len(effs), m, nseg)) for k, v in part.items()
+                      if k in KEEP})
+    out = {k: np.concatenate([q[k] for q in parts], axis=1) for k in parts[0]}
+    shape = (points, nseg)
+    first = {k: v[0] for k, v in out.items()}
+    dp = np.broadcast_to(first["required_pressure_rise"], shape)
+    limits = {
+        "momentum_coefficient in the calibrated range": np.broadcast_to(
+            (grid >= lo) & (grid <= hi), (nseg, points)).T,
+        "fan_pressure_rise >= minimum": dp >= case.fan["min_pressure_rise"],
+        "fan_pressure_rise <= maximum": dp <= case.fan["max_pressure_rise"],
+        "jet_mach <= limit": np.broadcast_to(first["jet_mach"], shape) <= case.slot["max_jet_mach"],
+    }
+    if case.fan["model"] == "map":
+        flo, fhi = case.fan["flow_coefficient_range"]
+        phi = np.broadcast_to(first["flow_coefficient"], shape)
+        with np.errstate(invalid="ignore"):
+            limits["fan_speed <= max_speed"] = np.broadcast_to(first["fan_speed"], shape) \
+                <= case.fan["max_speed"]
+            limits["flow_coefficient in the map range"] = (phi >= flo) & (phi <= fhi)
+    feasible = np.logical_and.reduce(list(limits.values()))
+    opt = [{"momentum_coefficient": float(outcome.values["momentum_coefficient"][i]),
+            "net_power_W": float(outcome.values["net_power_saving"][i])}
+           for i in range(nseg)]
+    return {"momentum_coefficient": grid, "efficiencies": effs, "efficiency_key": key,
+            "efficiency_case": float(case.value(key)),
+            "net_power_W": np.broadcast_to(out["net_power_saving"], (len(effs),) + shape),
+            "feasible": feasible, "limits": limits,
+            "ram_driven": np.broadcast_to(first["ram_driven"], shape), "optimum": opt,
+            "blowing": case.blowing}
+
+
+def break_even_map(case, outcome, x_key, x_values, y_key, y_values):
+    """Break-even fan efficiency over a grid of two wing-level inputs, at the optimal slot ratio.
+
+    Parameters
+    ----------
+    case, outcome
+        The case and its optimum (its slot ratio is used unless ``x_key`` or ``y_key`` is
+        ``"slot.ratio"``).
+    x_key, y_key : str
+        Wing-level case key paths (e.g. ``"slot.ratio"``, ``"duct.jet_loss_factor"``).
+    x_values, y_values : array_like
+        Grid values, 1-D.
+
+    Returns
+    -------
+    dict
+        ``x_key``, ``x`` (nx,), ``y_key``, ``y`` (ny,), ``efficiency`` (ny, nx, segments): the
+        break-even fan efficiency, NaN where no efficiency up to 1 breaks even and for segments
+        without blowing; ``case_point`` (x, y) of the design.
+    """
+    x = np.asarray(x_values, float).ravel()
+    y = np.asarray(y_values, float).ravel()
+    names = {}
+    for k in (x_key, y_key):
+        name, seg = promoted(case, k)
+        if seg is not None:
+            raise ValueError(f"key = {k!r}: break-even maps take wing-level inputs, not "
+                             "segment inputs")
+        names[k] = name
+    base = chain_parameters(case, slot_ratio=np.asarray(outcome.slot_ratio, float))
+    base.pop("momentum_coefficient", None)
+    nseg = len(case.segments)
+    geo_x = case.duct["model"] == "geometric" and names[x_key] in WING_GEOMETRY
+    geo_y = case.duct["model"] == "geometric" and names[y_key] in WING_GEOMETRY
+    if geo_x and geo_y:
+        raise ValueError("the geometric duct takes one wing geometry per evaluation: at most one "
+                         f"map axis may be a geometry input (got {x_key!r} and {y_key!r})")
+    if geo_y:  # put the looped geometry axis on x
+        res = break_even_map(case, outcome, y_key, y, x_key, x)
+        return {"x_key": x_key, "x": x, "y_key": y_key, "y": y,
+                "efficiency": np.swapaxes(res["efficiency"], 0, 1),
+                "case_point": res["case_point"][::-1]}
+    if geo_x:  # one vectorized call per x column
+        cols = []
+        for xv in x:
+            p = dict(base)
+            p[names[x_key]] = np.asarray(xv, float)
+            p[names[y_key]] = y[:, None]
+            cols.append(np.broadcast_to(break_even_efficiency(case, params=p), (len(y), nseg)))
+        eff = np.stack(cols, axis=1)
+    else:
+        p = dict(base)
+        p[names[x_key]] = x[None, :, None]
+        p[names[y_key]] = y[:, None, None]
+        eff = np.broadcast_to(break_even_efficiency(case, params=p), (len(y), len(x), nseg)).copy()
+    eff = np.array(eff, float)
+    eff[..., ~case.blowing] = np.nan
+    point = tuple(float(outcome.slot_ratio) if k == "slot.ratio" else float(case.value(k))
+                  for k in (x_key, y_key))
+    return {"x_key": x_key, "x": x, "y_key": y_key, "y": y, "efficiency": eff,
+            "case_point": point}
+
+
+def review_maps(case, outcome, points=31):
+    """The two break-even maps of the review.
+
+    1. Slot ratio (the slot-ratio bounds, else 0.5-2 times the ratio) against the jet loss
+       factor (lumped: 1 to max(2.5, 1.6 K_j)) or, for the geometric duct, ``duct.extra_loss``
+       (0 to max(0.5, 3 times the case's)).
+    2. ``airfoil.slot_drag`` (0 to max(0.03, 3 times the case's)) against
+       ``airfoil.thrust_leverage`` (min(-3, 1.6 beta) to -0.5).
+
+    Returns
+    -------
+    list of dict
+        :func:`break_even_map` results, each with a ``title``.
+    """
+    if points < 2:
+        raise ValueError(f"points = {points!r}: allowed >= 2")
+    r = case.slot["ratio"]
+    bounds = case.slot["ratio_bounds"]
+    rs = np.linspace(*(bounds if bounds is not None and bounds[1] > bounds[0]
+                       else (0.5 * r, min(2 * r, 0.2))), points)
+    if case.duct["model"] == "lumped":
+        kj = case.duct["jet_loss_factor"]
+        first = break_even_map(case, outcome, "slot.ratio", rs, "duct.jet_loss_factor",
+                               np.linspace(1.0, max(2.5, 1.6 * kj), points))
+        first["title"] = "Break-even fan efficiency: slot ratio against jet loss factor"
+    else:
+        ex = case.duct["extra_loss"]
+        first = break_even_map(case, outcome, "slot.ratio", rs, "duct.extra_loss",
+                               np.linspace(0.0, max(0.5, 3 * ex), points))
+        first["title"] = ("Break-even fan efficiency: slot ratio against the duct loss adder "
+                          "(geometric duct: the jet loss factor is built from the geometry)")
+    sd = case.airfoil["slot_drag"]
+    beta = case.airfoil["thrust_leverage"]
+    second = break_even_map(case, outcome, "airfoil.slot_drag",
+                            np.linspace(0.0, max(0.03, 3 * sd), points),
+                            "airfoil.thrust_leverage",
+                            np.linspace(min(-3.0, 1.6 * beta), -0.5, points))
+    second["title"] = "Break-even fan efficiency: slot penalty against thrust leverage"
+    return [first, second]
