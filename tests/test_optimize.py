@@ -156,3 +156,16 @@ def test_blowing_off_segment_carries_slot_penalty_only():
     assert seg["fan_shaft_power_W"] == 0.0
     assert seg["net_power_saving_W"] == pytest.approx(-q * 1.0 * 0.02 * 60.0 / 0.8, rel=1e-12)
     assert seg["break_even_fan_efficiency"] is None
+
+
+def test_break_even_search_agrees_with_closed_form():
+    """The grid + golden-section search (used for the geometric duct and fan maps) finds the
+    closed-form break-even efficiency of the lumped model."""
+    from mdao.studies import breakeven
+    from mdao.system import chain_parameters
+    case = _case(airfoil__slot_drag=0.03)
+    params = chain_parameters(case)
+    lo, hi = breakeven.admissible_range(case, params)
+    searched = breakeven._search(case, params, lo, hi)
+    closed = breakeven.break_even_efficiency(case)
+    np.testing.assert_allclose(searched, closed, rtol=1e-7)

@@ -17,7 +17,7 @@ import numpy as np
 
 from mdao.physics import atmosphere, chain, duct, power
 
-GRID = 241
+GRID = 81
 GOLDEN_STEPS = 45  # the bracket shrinks to 1e-9 of one grid step
 
 
