@@ -1,4 +1,4 @@
-"""The command line: ``blownwing optimize|evaluate|calibrate|review``.
+"""The command line: ``blownwing optimize|evaluate|calibrate|review|many``.
 
 Exit codes: 0 success (a converged optimum), 2 bad input (a message, no traceback), 3 the
 optimizer did not converge (said so; nothing is printed as an optimum).
@@ -43,6 +43,16 @@ def _parser():
     r.add_argument("--scheduler", default=None, help="Dask scheduler address, tcp://host:port")
     r.add_argument("--workers", type=int, default=None,
                    help="start a local Dask cluster with this many workers")
+    m = sub.add_parser("many", help="many independent optimizations: one optimum per Monte Carlo "
+                                    "sample or per random start, serially or on Dask")
+    m.add_argument("case")
+    m.add_argument("--kind", required=True, choices=("monte-carlo", "multistart"))
+    m.add_argument("--samples", type=int, default=None)
+    m.add_argument("--seed", type=int, default=None)
+    m.add_argument("--out", default="many", help="output folder (default: many)")
+    m.add_argument("--scheduler", default=None, help="Dask scheduler address, tcp://host:port")
+    m.add_argument("--workers", type=int, default=None,
+                   help="start a local Dask cluster (loopback) with this many workers")
     return p
 
 
@@ -104,8 +114,14 @@ def _review(args):
     return run_review_cli(args)
 
 
+def _many(args):
+    from mdao.studies.scaleout import run_many_cli
+    return run_many_cli(args.case, args.kind, args.samples, args.seed, args.out, args.scheduler,
+                        args.workers)
+
+
 _COMMANDS = {"optimize": _optimize, "evaluate": lambda a: _optimize(a, optimized=False),
-             "calibrate": _calibrate, "review": _review}
+             "calibrate": _calibrate, "review": _review, "many": _many}
 
 
 if __name__ == "__main__":

@@ -8,7 +8,8 @@ import pytest
 
 COMPONENTS = [("atmosphere", "AtmosphereComp"), ("jet", "JetComp"),
               ("transition", "TransitionComp"), ("duct", "DuctLossComp"), ("fan", "FanComp"),
-              ("airfoil", "AirfoilComp"), ("power", "SegmentPowerComp")]
+              ("airfoil", "AirfoilComp"), ("power", "SegmentPowerComp"),
+              ("mass", "BlowingSystemMassComp"), ("chain", "ChainComp")]
 
 
 @pytest.mark.parametrize("module, name", COMPONENTS)

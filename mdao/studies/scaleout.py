@@ -1,0 +1,329 @@
+"""Many independent optimizations, serially or on a Dask cluster (``dask.distributed``).
+
+Optimization under uncertainty (one optimum per Monte Carlo sample), multi-start and grids of
+optimizations are lists of *overrides*: ``{case key path: SI value}`` dicts, each applied to the
+case with :meth:`mdao.case.Case.replace` and optimized on its own by
+:func:`mdao.optimum.optimize`. :func:`optimize_many` runs them serially (no scheduler, no
+workers) or as tasks on a Dask cluster: a local one on loopback (``workers=N``) or an existing
+one (``scheduler="tcp://host:port"``).
+
+Guarantees:
+
+- *Same results as the serial run.* Each task is a pure function of (case, override): it builds
+  its own problem and starts from the case's start point, so the optimum does not depend on which
+  worker ran it, in what order, or whether it was retried. Results come back in input order.
+  Every task runs its linear algebra on one BLAS thread (``threadpoolctl``, as Dask's workers
+  do): multi-threaded BLAS changes the last bits of SLSQP's steps from run to run. The serial
+  run and the local cluster then agree bit for bit; workers on other machines or with other
+  library builds agree to rounding (about 1e-12 relative).
+- Scripts that start a local cluster need the ``if __name__ == "__main__":`` guard (worker
+  processes are spawned and import the main module).
+- *No sample lost.* A task whose worker dies (killed, out of memory, crashed) is re-run on another
+  worker, up to ``retries`` times; tasks that raise are retried too. On a local cluster the
+  scheduler is told to tolerate ``retries`` worker deaths per task
+  (``distributed.scheduler.allowed-failures``); on an external scheduler its own setting applies.
+- *Progress* on stderr: ``optimize_many: k/N done``.
+
+Sampling rule of :func:`monte_carlo_overrides`: the review's own draws
+(:func:`mdao.studies.uncertainty.draw_samples`), so both see the same samples for the same seed.
+"""
+import contextlib
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+import numpy as np
+
+__all__ = ["optimize_many", "solve_one", "monte_carlo_overrides", "multistart_overrides",
+           "run_many_cli", "KINDS"]
+
+#: Study kinds of :func:`run_many_cli`.
+KINDS = ("monte-carlo", "multistart")
+
+
+def _single_thread_blas():
+    """One BLAS/OpenMP thread for the task (threadpoolctl), as Dask's workers have.
+
+    Multi-threaded BLAS changes the last bits of SLSQP's linear algebra from run to run; with one
+    thread everywhere the serial run and every worker give the same bits. Without threadpoolctl
+    installed, results agree to rounding only.
+    """
+    try:
+        from threadpoolctl import threadpool_limits
+    except ImportError:  # optional: exact agreement needs it
+        return contextlib.nullcontext()
+    return threadpool_limits(limits=1)
+
+
+def solve_one(case, override, index=0):
+    """Optimize ``case.replace(override)``; the result dict of :func:`optimize_many`.
+
+    Pure: the same (case, override) always gives the same dict. An input the model rejects
+    (a ``ValueError`` from a physics function, e.g. a sampled efficiency above 1) gives
+    ``converged = False`` with the message, not an exception, so one bad sample does not stop a
+    study.
+    """
+    from mdao.optimum import optimize
+
+    base = {"index": int(index), "converged": False, "message": "",
+            "mission_energy_saving_J": None, "slot_ratio": None, "momentum_coefficient": None,
+            "fan_pressure_rise_Pa": None, "iterations": 0}
+    try:
+        with _single_thread_blas():
+            outcome = optimize(case.replace(dict(override)))
+    except (ValueError, ArithmeticError) as exc:
+        base["message"] = f"model error: {exc}"
+        return base
+    blow = case.blowing
+    base.update(
+        converged=bool(outcome.converged), message=outcome.message,
+        mission_energy_saving_J=float(outcome.mission_energy_saving_J),
+        slot_ratio=float(outcome.slot_ratio),
+        momentum_coefficient=[float(x) for x in outcome.values["momentum_coefficient"]],
+        fan_pressure_rise_Pa=[float(x) if on else 0.0
+                              for x, on in zip(outcome.values["fan_pressure_rise"], blow)],
+        iterations=int(outcome.iterations))
+    return base
+
+
+def _progress(done, total, t0, stream=None):
+    stream = stream or sys.stderr
+    print(f"optimize_many: {done}/{total} done ({time.perf_counter() - t0:.1f} s)", file=stream,
+          flush=True)
+
+
+def optimize_many(case, overrides, scheduler=None, workers=None, progress=False, retries=3,
+                  task=None):
+    """One independent optimization per override, serially or on a Dask cluster.
+
+    Parameters
+    ----------
+    case : mdao.case.Case
+        The base case.
+    overrides : sequence of dict
+        ``{case key path: SI value}`` per optimization (an empty dict: the case itself).
+    scheduler : str, optional
+        Address of a running Dask scheduler, ``tcp://host:port``.
+    workers : int, optional
+        Start a local cluster of this many single-threaded worker processes on 127.0.0.1 (no
+        dashboard) for the duration of the call. Ignored when ``scheduler`` is given.
+    progress : bool
+        Report progress on stderr.
+    retries : int
+        Re-runs allowed per task when it raises or its worker dies, >= 0.
+    task : callable, optional
+        ``task(case, override, index) -> dict`` instead of :func:`solve_one` (it must be pure
+        and importable or picklable by value on the workers).
+
+    Returns
+    -------
+    list of dict
+        In input order, each ``{"index", "converged", "message", "mission_energy_saving_J",
+        "slot_ratio", "momentum_coefficient", "fan_pressure_rise_Pa", "iterations"}``.
+
+    Raises
+    ------
+    ValueError
+        For ``workers < 1`` or ``retries < 0``.
+    RuntimeError
+        When a task still fails after its retries (the message names the sample index).
+    """
+    overrides = [dict(o) for o in overrides]
+    task = task or solve_one
+    if isinstance(retries, bool) or not isinstance(retries, int) or retries < 0:
+        raise ValueError(f"retries = {retries!r}: an integer >= 0 is allowed")
+    if workers is not None and (isinstance(workers, bool) or not isinstance(workers, int)
+                                or workers < 1):
+        raise ValueError(f"workers = {workers!r}: an integer >= 1 is allowed")
+    t0 = time.perf_counter()
+    if scheduler is None and workers is None:
+        results = []
+        for i, override in enumerate(overrides):
+            results.append(task(case, override, i))
+            if progress:
+                _progress(i + 1, len(overrides), t0)
+        return results
+    return _distributed(case, overrides, scheduler, workers, progress, retries, task, t0)
+
+
+def _distributed(case, overrides, scheduler, workers, progress, retries, task, t0):
+    import dask
+    from distributed import Client, LocalCluster, as_completed
+
+    # the workers' statistical profiler samples the task's (deep) stack every 10 ms: with
+    # sub-second optimizations it costs more than it tells, so it is off
+    settings = {"distributed.scheduler.allowed-failures": retries,
+                "distributed.worker.profile.enabled": False}
+    scratch = None
+    if scheduler is None:  # the local cluster's scratch files go to a folder removed afterwards
+        scratch = tempfile.TemporaryDirectory(prefix="blownwing-dask-")
+        settings["temporary-directory"] = scratch.name
+    with dask.config.set(settings):
+        cluster = None
+        if scheduler is None:
+            cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True,
+                                   host="127.0.0.1", dashboard_address=None,
+                                   local_directory=scratch.name)
+        try:
+            with Client(scheduler or cluster, set_as_default=False) as client:
+                futures = [client.submit(task, case, override, i, retries=retries,
+                                         pure=False, key=f"optimize-many-{i}")
+                           for i, override in enumerate(overrides)]
+                results = [None] * len(futures)
+                where = {f.key: i for i, f in enumerate(futures)}
+                done = 0
+                for future in as_completed(futures, loop=client.loop):
+                    i = where[future.key]
+                    try:
+                        results[i] = future.result()
+                    except Exception as exc:
+                        for f in futures:
+                            f.cancel()
+                        raise RuntimeError(f"optimize_many: sample {i} failed after {retries} "
+                                           f"retries: {type(exc).__name__}: {exc}") from exc
+                    done += 1
+                    if progress:
+                        _progress(done, len(futures), t0)
+        finally:
+            if cluster is not None:
+                cluster.close()
+            if scratch is not None:
+                scratch.cleanup()
+    return results
+
+
+def monte_carlo_overrides(case, samples, seed):
+    """Overrides drawn from the case's uncertain inputs: one dict per sample.
+
+    The draws are those of the review's Monte Carlo,
+    :func:`mdao.studies.uncertainty.draw_samples`, so an optimum per sample here belongs to the
+    same sample there: ``rng = numpy.random.default_rng(seed)``; for each ``[uncertainty]`` key
+    in sorted order all ``samples`` draws at once (``rng.normal(nominal, sd, samples)`` or
+    ``rng.uniform(low, high, samples)``), then the calibration's joint normal over its other
+    constants when the case reads a calibration; whole samples with an input outside the range
+    the case file allows are drawn again. Sample ``i`` takes row ``i``.
+
+    Parameters
+    ----------
+    case : mdao.case.Case
+    samples : int
+        Number of samples (the review needs at least 10).
+    seed : int
+        Seed of the generator.
+
+    Returns
+    -------
+    list of dict
+        ``[{key path: SI value}, ...]``, ``samples`` long.
+    """
+    from mdao.studies.uncertainty import draw_samples
+
+    keys, x, _ = draw_samples(case, samples, seed)
+    return [{key: float(x[i, j]) for j, key in enumerate(keys)} for i in range(len(x))]
+
+
+def multistart_overrides(case, starts, seed):
+    """Random start points within the bounds: one override dict per start.
+
+    With ``rng = numpy.random.default_rng(seed)``, per start: the slot ratio uniform within
+    ``slot.ratio_bounds`` (when the case lets it vary), then per blowing segment (in case order)
+    the momentum coefficient log-uniform within the calibrated range. The overrides are the start
+    values ``slot.ratio`` and ``segment.NAME.momentum_coefficient``; the start pressure rise is
+    then the requirement there (:func:`mdao.system.start_point`).
+
+    Parameters
+    ----------
+    case : mdao.case.Case
+    starts : int
+        Number of starts, >= 1.
+    seed : int
+
+    Returns
+    -------
+    list of dict
+    """
+    if isinstance(starts, bool) or not isinstance(starts, (int, np.integer)) or starts < 1:
+        raise ValueError(f"starts = {starts!r}: an integer >= 1 is allowed")
+    rng = np.random.default_rng(seed)
+    lo, hi = case.airfoil["momentum_coefficient_range"]
+    bounds = case.slot["ratio_bounds"]
+    vary = bounds is not None and bounds[1] > bounds[0]
+    names = [s["name"] for s in case.segments if s["blowing"]]
+    out = []
+    for _ in range(starts):
+        override = {}
+        if vary:
+            override["slot.ratio"] = float(rng.uniform(bounds[0], bounds[1]))
+        for name in names:
+            override[f"segment.{name}.momentum_coefficient"] = float(
+                np.exp(rng.uniform(np.log(lo), np.log(hi))))
+        out.append(override)
+    return out
+
+
+def summarize(results):
+    """Counts and statistics of the converged results' mission energy saving [J]."""
+    ok = [r for r in results if r["converged"]]
+    e = np.array([r["mission_energy_saving_J"] for r in ok], float)
+    summary = {"optimizations": len(results), "converged": len(ok)}
+    if e.size:
+        summary.update(mission_energy_saving_J={
+            "mean": float(e.mean()), "sd": float(e.std(ddof=1)) if e.size > 1 else 0.0,
+            "min": float(e.min()), "p05": float(np.percentile(e, 5)),
+            "median": float(np.median(e)), "p95": float(np.percentile(e, 95)),
+            "max": float(e.max()), "best_index": int(ok[int(np.argmax(e))]["index"])})
+    return summary
+
+
+def run_many_cli(case_path, kind, samples=None, seed=None, out="many", scheduler=None,
+                 workers=None):
+    """``blownwing many CASE --kind monte-carlo|multistart``: run and write ``OUT/many.json``.
+
+    Parameters
+    ----------
+    case_path : str or Path
+        Case file.
+    kind : {"monte-carlo", "multistart"}
+        One optimum per Monte Carlo sample of ``[uncertainty]``, or one per random start.
+    samples, seed : int, optional
+        Number of samples or starts, and the seed (default: the case's ``[review]`` values).
+    out : str or Path
+        Output folder; ``many.json`` is written atomically.
+    scheduler, workers
+        As in :func:`optimize_many` (neither: serial).
+
+    Returns
+    -------
+    int
+        0 when at least one optimization converged, 3 when none did.
+    """
+    from mdao import CAUTION, __version__
+    from mdao.case import load_case
+    from mdao.report import write_json
+
+    if kind not in KINDS:
+        raise ValueError(f"kind = {kind!r}: allowed are " + ", ".join(KINDS))
+    case = load_case(case_path)
+    samples = case.review["samples"] if samples is None else samples
+    seed = case.review["seed"] if seed is None else seed
+    overrides = (monte_carlo_overrides(case, samples, seed) if kind == "monte-carlo"
+                 else multistart_overrides(case, samples, seed))
+    t0 = time.perf_counter()
+    results = optimize_many(case, overrides, scheduler=scheduler, workers=workers, progress=True)
+    wall = time.perf_counter() - t0
+    summary = summarize(results)
+    data = {"case": str(case_path), "title": case.title, "kind": kind, "samples": samples,
+            "seed": seed, "scheduler": scheduler, "workers": workers, "wall_time_s": wall,
+            "version": __version__, "caution": CAUTION, "summary": summary,
+            "overrides": overrides, "results": results}
+    path = Path(out) / "many.json"
+    write_json(path, data)
+    print(f"blownwing many: {case.title}: {summary['converged']}/{summary['optimizations']} "
+          f"converged in {wall:.1f} s")
+    if "mission_energy_saving_J" in summary:
+        s = summary["mission_energy_saving_J"]
+        print(f"  mission energy saving [MJ]: mean {s['mean'] / 1e6:.4g}, 5 % {s['p05'] / 1e6:.4g}, "
+              f"95 % {s['p95'] / 1e6:.4g} (best: sample {s['best_index']})")
+    print(f"wrote {path}")
+    return 0 if summary["converged"] else 3

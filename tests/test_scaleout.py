@@ -1,0 +1,172 @@
+"""Many optimizations, serially and on a local Dask cluster (mdao.studies.scaleout).
+
+Every cluster here is a LocalCluster of two single-threaded worker processes on 127.0.0.1 with no
+dashboard, started and closed by optimize_many itself.
+"""
+import functools
+import json
+import os
+import sys
+import time
+from pathlib import Path
+
+import cloudpickle
+import numpy as np
+import pytest
+
+from mdao.case import load_case
+from mdao.studies import scaleout
+from mdao.studies.scaleout import (monte_carlo_overrides, multistart_overrides, optimize_many,
+                                   run_many_cli, solve_one)
+
+ROOT = Path(__file__).resolve().parents[1]
+CASE = ROOT / "cases" / "survey-drone.toml"
+KEYS = {"index", "converged", "message", "mission_energy_saving_J", "slot_ratio",
+        "momentum_coefficient", "fan_pressure_rise_Pa", "iterations"}
+
+# the crashing task below is defined in this module: ship it to the workers by value
+cloudpickle.register_pickle_by_value(sys.modules[__name__])
+
+
+@pytest.fixture(scope="module")
+def case():
+    return load_case(CASE)
+
+
+@pytest.fixture(scope="module")
+def samples(case):
+    return monte_carlo_overrides(case, 10, 99)[:8]
+
+
+@pytest.fixture(scope="module")
+def serial(case, samples):
+    return optimize_many(case, samples)
+
+
+def test_serial_results(case, samples, serial):
+    assert [r["index"] for r in serial] == list(range(8))
+    for r, override in zip(serial, samples):
+        assert set(r) == KEYS
+        assert r["converged"], r["message"]
+        assert len(r["momentum_coefficient"]) == len(case.segments)
+        # the result is the optimum of the case with that sample's values
+        alone = solve_one(case, override, r["index"])
+        assert alone == r
+    # the samples differ, and so do their optima
+    assert len({round(r["mission_energy_saving_J"], 3) for r in serial}) == 8
+
+
+def test_two_workers_identical_to_serial(case, samples, serial):
+    parallel = optimize_many(case, samples, workers=2)
+    assert parallel == serial          # bit for bit, in input order
+
+
+def _crash_once(case, override, index, marker, victim):
+    """Kill the worker process the first time sample ``victim`` runs (marker file: run once)."""
+    if index == victim:
+        try:
+            fd = os.open(marker, os.O_CREAT | os.O_EXCL | os.O_WRONLY)
+        except FileExistsError:
+            pass
+        else:
+            os.close(fd)
+            os._exit(13)
+    return solve_one(case, override, index)
+
+
+def test_worker_death_loses_no_sample(case, samples, serial, tmp_path):
+    marker = tmp_path / "crashed-once"
+    task = functools.partial(_crash_once, marker=str(marker), victim=3)
+    results = optimize_many(case, samples, workers=2, retries=3, task=task)
+    assert marker.exists()             # a worker did die on sample 3
+    assert results == serial           # ... and every sample is there, unchanged
+
+
+def test_failure_after_retries_is_reported(case, samples):
+    def always_fails(case, override, index):
+        raise RuntimeError("boom")
+
+    with pytest.raises(RuntimeError, match="sample 0 failed after 1 retries"):
+        optimize_many(case, samples[:1], workers=2, retries=1, task=always_fails)
+
+
+def test_progress_on_stderr(case, samples, capsys):
+    optimize_many(case, samples[:2], progress=True)
+    err = capsys.readouterr().err
+    assert "optimize_many: 1/2 done" in err and "optimize_many: 2/2 done" in err
+
+
+def test_monte_carlo_overrides_follow_the_review_draws(case):
+    from mdao.studies.uncertainty import draw_samples
+
+    over = monte_carlo_overrides(case, 20, 5)
+    keys, x, _ = draw_samples(case, 20, 5)
+    assert [[o[k] for k in keys] for o in over] == x.tolist()
+    # the documented rule, by hand (no draw of this case leaves its allowed range)
+    rng = np.random.default_rng(5)
+    expect = {}
+    for key in sorted(case.uncertainty):
+        spec = case.uncertainty[key]
+        expect[key] = (rng.normal(case.value(key), spec["sd"], 20) if spec["distribution"] == "normal"
+                       else rng.uniform(spec["low"], spec["high"], 20))
+    for key, values in expect.items():
+        np.testing.assert_array_equal([o[key] for o in over], values)
+    assert monte_carlo_overrides(case, 20, 5) == over
+
+
+def test_multistart_overrides(case):
+    starts = multistart_overrides(case, 6, 3)
+    assert starts == multistart_overrides(case, 6, 3)
+    assert starts != multistart_overrides(case, 6, 4)
+    lo, hi = case.airfoil["momentum_coefficient_range"]
+    rlo, rhi = case.slot["ratio_bounds"]
+    for s in starts:
+        assert rlo <= s["slot.ratio"] <= rhi
+        for name in case.segment_names:
+            assert lo <= s[f"segment.{name}.momentum_coefficient"] <= hi
+    res = optimize_many(case, starts[:3])
+    energies = [r["mission_energy_saving_J"] for r in res]
+    assert all(r["converged"] for r in res)
+    # different starts, same optimum (the lumped problem has one)
+    assert max(energies) - min(energies) < 1e-6 * abs(max(energies))
+
+
+def test_bad_arguments(case):
+    with pytest.raises(ValueError, match="workers"):
+        optimize_many(case, [{}], workers=0)
+    with pytest.raises(ValueError, match="retries"):
+        optimize_many(case, [{}], retries=-1)
+    with pytest.raises(ValueError, match="starts"):
+        multistart_overrides(case, 0, 1)
+    with pytest.raises(ValueError, match="kind"):
+        run_many_cli(CASE, "grid", 10, 1, "out", None, None)
+
+
+def test_model_error_is_a_result_not_a_crash(case):
+    r = solve_one(case, {"segment.climb.altitude": 30000.0}, 7)   # ISA covers 0-20 km
+    assert r["index"] == 7 and not r["converged"] and r["message"]
+
+
+def test_run_many_cli_writes_json(tmp_path, capsys):
+    code = run_many_cli(CASE, "monte-carlo", 10, 2, tmp_path / "many", None, None)
+    assert code == 0
+    data = json.loads((tmp_path / "many" / "many.json").read_text())
+    assert data["kind"] == "monte-carlo" and data["samples"] == 10 and data["seed"] == 2
+    assert len(data["results"]) == 10 == len(data["overrides"])
+    assert data["summary"]["converged"] == sum(r["converged"] for r in data["results"])
+    assert "wrote" in capsys.readouterr().out
+    assert not list((tmp_path / "many").glob(".*tmp"))
+
+
+def test_wall_time_serial_and_two_workers(case):
+    """64 optimizations of the survey-drone case, serially and on two workers (printed, not
+    asserted: the figure depends on the machine); the results agree."""
+    overrides = multistart_overrides(case, 64, 2026)
+    t0 = time.perf_counter()
+    one = optimize_many(case, overrides)
+    t1 = time.perf_counter()
+    two = optimize_many(case, overrides, workers=2)
+    t2 = time.perf_counter()
+    print(f"\n64 optimizations: serial {t1 - t0:.2f} s, two workers {t2 - t1:.2f} s "
+          "(including the cluster's start and stop)")
+    assert two == one
