@@ -81,7 +81,7 @@ BAD = {
                            "duct.jet_loss_factor"),
     "K_j below one": (_swap("jet_loss_factor = 1.22 ", "jet_loss_factor = 0.8 "),
                       "duct.jet_loss_factor"),
-    "positive thrust leverage": (_swap("thrust_leverage = -1.7 ", "thrust_leverage = 1.7 "),
+    "positive thrust leverage": (_swap("thrust_leverage = -1.9 ", "thrust_leverage = 1.9 "),
                                  "airfoil.thrust_leverage"),
     "altitude too high": (_swap('altitude = "120 m"', 'altitude = "25 km"'), "altitude"),
     "duration not a time": (_swap('duration = "2.2 h"', 'duration = "2.2 m"'), "duration"),

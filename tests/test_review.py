@@ -187,13 +187,14 @@ def test_tornado_ends_and_basis(survey):
     case, out = survey
     rows = {r["parameter"]: r for r in S.tornado(case, out)}
     t = rows["airfoil.thrust_leverage"]
-    assert (t["low"], t["high"]) == pytest.approx((-1.85, -1.55))
+    beta = case.value("airfoil.thrust_leverage")
+    assert (t["low"], t["high"]) == pytest.approx((beta - 0.15, beta + 0.15))
     assert rows["fan.efficiency"]["low"] == 0.62 and rows["fan.efficiency"]["high"] == 0.76
     assert rows["wing.chord"]["low"] == pytest.approx(0.42 * 0.9)
     assert rows["fan.motor_efficiency"]["high"] == 1.0  # 0.92 * 1.1 clipped
     assert "clipped" in rows["fan.motor_efficiency"]["basis"]
     params = S.design_parameters(case, out)
-    params["thrust_leverage"] = np.asarray(-1.55)
+    params["thrust_leverage"] = np.asarray(beta + 0.15)
     direct = chain.evaluate(params, chain_options(case), blowing=case.blowing)
     assert t["energy_high_J"] == pytest.approx(float(direct["energy_saving"].sum()), rel=1e-12)
 
@@ -241,7 +242,8 @@ def test_break_even_map_against_closed_form_and_brute_force(survey):
                            2 * r * (case.slot["max_jet_mach"] * atm.speed_of_sound / seg["speed"]) ** 2)
                 k1, k2 = duct.lumped_coefficients(kj, case.duct["freestream_assist"], r)
                 k3 = a["slot_drag"] + a["slot_drag_per_ratio"] * r
-                ref = float(power.break_even_lumped(k1, k2, k3, a["thrust_leverage"], cmin, cmax)) \
+                beta = a["thrust_leverage"] + a["thrust_leverage_per_ratio"] * r
+                ref = float(power.break_even_lumped(k1, k2, k3, beta, cmin, cmax)) \
                     * p["chain_efficiency"] / f["motor_efficiency"]
                 got = m["efficiency"][iy, ix, i]
                 if not np.isfinite(ref) or ref > 1:
@@ -281,8 +283,9 @@ def test_monte_carlo_against_direct_calculation_and_seed(survey, coastal):
     k1, k2 = duct.lumped_coefficients(col["duct.jet_loss_factor"], case.duct["freestream_assist"], r)
     k3 = a["slot_drag"] + a["slot_drag_per_ratio"] * r
     eta = col["fan.efficiency"] * f["motor_efficiency"] / p["chain_efficiency"]
+    beta = col["airfoil.thrust_leverage"] + a["thrust_leverage_per_ratio"] * r
     e = sum(_scale(case, i) * power.lumped_net_saving(out.values["momentum_coefficient"][i], k1, k2,
-                                                      k3, col["airfoil.thrust_leverage"], eta)
+                                                      k3, beta, eta)
             for i in range(3))
     np.testing.assert_allclose(mc["energy_J"], e, rtol=1e-10)
     assert mc["probability_of_saving"] == np.count_nonzero(e > 0) / 3000
