@@ -82,17 +82,18 @@ def evaluate(params, options=ChainOptions(), blowing=True):
         st = _stations(geo["fan_diameter"], geo["blown_span"] / options.fans,
                        geo["slot_ratio"] * geo["chord"], geo["transition_length"],
                        geo["slot_exponent"], options.schedule, options.stations)
-        shape = np.broadcast(js.volume_flow, atm.density, *(np.asarray(p[k]) for k in (
-            "suction_ratio", "suction_inlet_loss", "bend_loss", "extra_loss"))).shape
-        q_f = np.broadcast_to(js.volume_flow / options.fans, shape).ravel()
-        flat = {k: np.broadcast_to(np.asarray(p[k], float), shape).ravel()
-                for k in ("suction_ratio", "suction_inlet_loss", "bend_loss", "extra_loss")}
-        kj = duct.jet_loss_factor(
-            geo["slot_ratio"], flat["suction_ratio"], flat["suction_inlet_loss"],
-            flat["bend_loss"], flat["extra_loss"], _scalar("roughness", p["roughness"]), q_f,
-            np.broadcast_to(atm.density, shape).ravel(),
-            np.broadcast_to(atm.viscosity, shape).ravel(),
-            st.position, st.area, st.perimeter).reshape(shape)
+        # Friction and the transition's form loss depend on the flow only: evaluate them on
+        # the flow's own shape (often far smaller than that of the samples), then add the
+        # loss coefficients, which may vary per sample.
+        shape = np.broadcast(js.volume_flow, atm.density, atm.viscosity).shape
+        flow = [np.broadcast_to(v, shape).ravel()
+                for v in (js.volume_flow / options.fans, atm.density, atm.viscosity)]
+        base = duct.jet_loss_factor(geo["slot_ratio"], 1.0, 0.0, 0.0, 0.0,
+                                    _scalar("roughness", p["roughness"]), *flow,
+                                    st.position, st.area, st.perimeter).reshape(shape)
+        k_in, k_bend = duct.coefficient_losses(geo["slot_ratio"], p["suction_ratio"],
+                                               p["suction_inlet_loss"], p["bend_loss"], st.area)
+        kj = base + k_in + k_bend + np.asarray(p["extra_loss"], float)
         out["diffusion_half_angle"] = st.half_angle
     out["jet_loss_factor"] = kj
     req = duct.required_pressure_rise(kj, p["freestream_assist"], atm.density, js.jet_velocity,

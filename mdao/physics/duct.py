@@ -157,6 +157,25 @@ def _transition_form_loss(area, position, derivatives):
     return k, dk_da0, dk_da1, dk_dl
 
 
+def coefficient_losses(slot_ratio, suction_ratio, suction_inlet_loss, bend_loss, area):
+    """Suction-inlet and bend losses carried to the jet velocity, [-].
+
+    The suction-slot inlet loss is referred to the suction-slot velocity (area ratio
+    ``slot_ratio / suction_ratio`` to the injection slot, equal spans); the bend loss to the
+    fan-face velocity (``area[0]`` against the slot's ``area[-1]``, per fan).
+
+    Examples
+    --------
+    >>> k_in, k_bend = coefficient_losses(0.01, 0.02, 0.5, 0.3, [0.005, 0.0025])
+    >>> float(k_in), float(k_bend)
+    (0.125, 0.075)
+    """
+    area = np.asarray(area, float)
+    k_in = np.asarray(suction_inlet_loss, float) * (slot_ratio / np.asarray(suction_ratio)) ** 2
+    k_bend = np.asarray(bend_loss, float) * (area[-1] / area[0]) ** 2
+    return k_in, k_bend
+
+
 def jet_loss_factor(slot_ratio, suction_ratio, suction_inlet_loss, bend_loss, extra_loss,
                     roughness, volume_flow, density, viscosity, position, area, perimeter,
                     derivatives=False):
@@ -224,8 +243,7 @@ def jet_loss_factor(slot_ratio, suction_ratio, suction_inlet_loss, bend_loss, ex
     bend_loss = np.asarray(bend_loss, float)
     a_jet, a_fan = area[-1], area[0]
 
-    k_in = suction_inlet_loss * (r_s / r_suc) ** 2
-    k_bend = bend_loss * (a_jet / a_fan) ** 2
+    k_in, k_bend = coefficient_losses(r_s, r_suc, suction_inlet_loss, bend_loss, area)
     k_tr = _transition_form_loss(area, x, derivatives=True)
     k_tr, dtr_da0, dtr_da1, dtr_dl = k_tr
 
