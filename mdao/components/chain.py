@@ -227,7 +227,8 @@ class ChainComp(om.ExplicitComponent):
         n = self.options["num_nodes"]
         _, tan = self._evaluate(inputs, derivatives=True)
         for of, wrt in self._pairs:
-            partials[of, wrt] = np.broadcast_to(tan[of][wrt], (n,))
+            t = tan[of][wrt]
+            partials[of, wrt] = t if np.shape(t) == (n,) else np.full(n, t)
         for wrt, t in tan["energy_saving"].items():
             t = np.broadcast_to(t, (n,))
             partials["mission_energy_saving", wrt] = t.sum() if wrt in WING_INPUTS else t
