@@ -124,7 +124,17 @@ def bench_optimizations(repeat):
             set_case_values(prob, case)
             return optimize(case, problem=prob)
         t_fd, out_fd = best_of(fd_run, repeat)
+        # one gradient (all totals the driver needs) at the optimum, analytic against FD
+        prob = out.problem
+        t_grad, _ = best_of(lambda: [prob.driver._compute_totals() for _ in range(20)], repeat)
+        prob_fd = out_fd.problem
+        t_grad_fd, _ = best_of(lambda: [prob_fd.driver._compute_totals() for _ in range(20)],
+                               repeat)
+        t_model, _ = best_of(lambda: [prob.run_model() for _ in range(20)], repeat)
         rows.append(dict(case=path.stem, wall_s=t_an, converged=out.converged,
+                         gradient_ms=t_grad / 20 * 1e3, fd_gradient_ms=t_grad_fd / 20 * 1e3,
+                         model_ms=t_model / 20 * 1e3,
+                         gradient_fd_over_analytic=t_grad_fd / t_grad,
                          iterations=out.iterations, model_evaluations=out.model_evaluations,
                          derivative_evaluations=out.derivative_evaluations,
                          fd_wall_s=t_fd, fd_converged=out_fd.converged,
@@ -218,10 +228,13 @@ def main(argv=None):
               f"{r['group_over_floor']:>12.2f} {r['fused_over_floor']:>12.2f}")
     opt_rows = bench_optimizations(repeat)
     print("\nBundled optimizations: analytic totals against finite-difference totals")
-    print(f"{'case':>16} {'wall s':>8} {'iter':>5} {'model ev':>9} {'deriv ev':>9} {'FD wall s':>10} {'FD/analytic':>12}")
+    print(f"{'case':>16} {'wall s':>8} {'iter':>5} {'model ev':>9} {'deriv ev':>9} {'FD wall s':>10} "
+          f"{'FD/analytic':>12} {'model ms':>9} {'grad ms':>8} {'FD grad ms':>11} {'grad FD/an':>11}")
     for r in opt_rows:
         print(f"{r['case']:>16} {r['wall_s']:>8.3f} {r['iterations']:>5} {r['model_evaluations']:>9} "
-              f"{r['derivative_evaluations']:>9} {r['fd_wall_s']:>10.3f} {r['fd_over_analytic']:>12.2f}")
+              f"{r['derivative_evaluations']:>9} {r['fd_wall_s']:>10.3f} {r['fd_over_analytic']:>12.2f} "
+              f"{r['model_ms']:>9.2f} {r['gradient_ms']:>8.2f} {r['fd_gradient_ms']:>11.2f} "
+              f"{r['gradient_fd_over_analytic']:>11.2f}")
     seg_rows = bench_segments((3, 12, 48) if not args.quick else (3, 12), 1)
     print("\nCost against the number of segments (survey case, one optimization)")
     print(f"{'segments':>9} {'wall s':>8} {'iter':>5} {'FD wall s':>10} {'FD/analytic':>12}")
@@ -240,6 +253,7 @@ def main(argv=None):
         "fused_group_over_floor_1e5": by_n.get(10**5, chain_rows[-1])["fused_over_floor"],
         "optimize_wall_s": {r["case"]: r["wall_s"] for r in opt_rows},
         "fd_over_analytic": {r["case"]: r["fd_over_analytic"] for r in opt_rows},
+        "gradient_fd_over_analytic": {r["case"]: r["gradient_fd_over_analytic"] for r in opt_rows},
         "sweep_1e6_s": studies["sweep_1e6_s"],
         "sweep_1e6_peak_MB": studies["sweep_1e6_peak_MB"],
         "monte_carlo_1e5_s": studies["monte_carlo_1e5_s"],
