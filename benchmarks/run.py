@@ -107,23 +107,26 @@ def bench_chain(sizes, repeat):
     return rows
 
 
+def optimize_with_fd_totals(case):
+    """The same optimization with OpenMDAO's finite-difference totals instead of analytic."""
+    from mdao.optimum import optimize
+    from mdao.system import build_problem, set_case_values
+    prob = build_problem(case)
+    prob.model.approx_totals(method="fd", step=1e-7, form="forward", step_calc="rel")
+    prob.setup()
+    set_case_values(prob, case)
+    return optimize(case, problem=prob)
+
+
 def bench_optimizations(repeat):
     from mdao.case import load_case
     from mdao.optimum import optimize
-    from mdao.system import build_problem
     rows = []
     for path in CASES:
         case = load_case(path)
         t_an, out = best_of(lambda: optimize(case), repeat)
 
-        def fd_run():
-            prob = build_problem(case)
-            prob.model.approx_totals(method="fd", step=1e-7, form="forward", step_calc="rel")
-            prob.setup()
-            from mdao.system import set_case_values
-            set_case_values(prob, case)
-            return optimize(case, problem=prob)
-        t_fd, out_fd = best_of(fd_run, repeat)
+        t_fd, out_fd = best_of(lambda: optimize_with_fd_totals(case), repeat)
         # one gradient (all totals the driver needs) at the optimum, analytic against FD
         prob = out.problem
         t_grad, _ = best_of(lambda: [prob.driver._compute_totals() for _ in range(20)], repeat)
@@ -149,7 +152,6 @@ def bench_segments(counts, repeat):
     import copy
     from mdao.case import parse_case
     from mdao.optimum import optimize
-    from mdao.system import build_problem, set_case_values
     try:
         import tomllib
     except ModuleNotFoundError:  # Python 3.10
@@ -165,13 +167,7 @@ def bench_segments(counts, repeat):
         case = parse_case(r)
         t_an, out = best_of(lambda: optimize(case), repeat)
 
-        def fd_run():
-            prob = build_problem(case)
-            prob.model.approx_totals(method="fd", step=1e-7, form="forward", step_calc="rel")
-            prob.setup()
-            set_case_values(prob, case)
-            return optimize(case, problem=prob)
-        t_fd, out_fd = best_of(fd_run, repeat)
+        t_fd, out_fd = best_of(lambda: optimize_with_fd_totals(case), repeat)
         rows.append(dict(segments=count, wall_s=t_an, iterations=out.iterations,
                          converged=out.converged, fd_wall_s=t_fd, fd_converged=out_fd.converged,
                          fd_over_analytic=t_fd / t_an))

@@ -91,7 +91,7 @@ def _stations(schedule="monotone-area", count=9):
 
 def test_geometric_loss_factor_components():
     """K_j = 1 + sum of losses: each term checked by hand (Crane TP-410, Churchill 1977)."""
-    from mdao.physics import friction, losses, transition
+    from mdao.physics import friction, losses
     st = _stations()
     q_f, rho, mu = np.array([0.05]), np.array([1.1]), np.array([1.75e-5])
     kj = duct.jet_loss_factor(0.012, 0.03, 0.5, 0.3, 0.04, 2e-6, q_f, rho, mu,

@@ -15,7 +15,6 @@ import numpy as np
 import pytest
 
 from mdao.case import load_case
-from mdao.studies import scaleout
 from mdao.studies.scaleout import (monte_carlo_overrides, multistart_overrides, optimize_many,
                                    run_many_cli, solve_one)
 

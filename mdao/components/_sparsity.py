@@ -1,4 +1,4 @@
-"""Index helpers for declaring sparse partials of node-wise components."""
+"""Helpers shared by node-wise components: sparsity patterns and per-node flags."""
 import numpy as np
 
 
@@ -21,3 +21,11 @@ def full(n, m):
 def broadcast(value, n):
     """A partial returned by the physics (array or scalar) as n values for rows/cols."""
     return np.broadcast_to(np.asarray(value, float), (n,))
+
+
+def blowing_flags(flags, n):
+    """The ``blowing`` option as n booleans (None: the fan runs at every node)."""
+    flags = np.ones(n, bool) if flags is None else np.asarray(flags, bool)
+    if flags.shape != (n,):
+        raise ValueError(f"blowing must have num_nodes={n} entries, got {flags.shape}")
+    return flags

@@ -10,7 +10,7 @@ against the per-discipline group to round-off.
 import numpy as np
 import openmdao.api as om
 
-from mdao.components._sparsity import column, diagonal
+from mdao.components._sparsity import blowing_flags, column, diagonal
 from mdao.physics import airfoil, atmosphere, duct, fan, jet, power
 
 NODE_INPUTS = ("altitude", "speed", "duration", "momentum_coefficient", "fan_pressure_rise")
@@ -77,9 +77,7 @@ class ChainComp(om.ExplicitComponent):
         return [k for k in NODE_INPUTS if k not in skip]
 
     def _blowing(self):
-        flags = self.options["blowing"]
-        return (np.ones(self.options["num_nodes"], bool) if flags is None
-                else np.asarray(flags, bool))
+        return blowing_flags(self.options["blowing"], self.options["num_nodes"])
 
     def setup_partials(self):
         n = self.options["num_nodes"]

@@ -9,7 +9,7 @@ aircraft's mass build-up charges.
 import numpy as np
 import openmdao.api as om
 
-from mdao.components._sparsity import broadcast, column
+from mdao.components._sparsity import blowing_flags, broadcast, column
 from mdao.physics import mass as phys
 
 MASS_CITE = """@book{raymer2018,
@@ -62,12 +62,7 @@ class BlowingSystemMassComp(om.ExplicitComponent):
                              desc="sequence of bool per node: does the fan run? (default all)")
 
     def _blowing(self):
-        n = self.options["num_nodes"]
-        flags = self.options["blowing"]
-        flags = np.ones(n, bool) if flags is None else np.asarray(flags, bool)
-        if flags.shape != (n,):
-            raise ValueError(f"blowing must have num_nodes={n} entries, got {flags.shape}")
-        return flags
+        return blowing_flags(self.options["blowing"], self.options["num_nodes"])
 
     def setup(self):
         n = self.options["num_nodes"]

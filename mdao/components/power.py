@@ -3,7 +3,7 @@
 import numpy as np
 import openmdao.api as om
 
-from mdao.components._sparsity import broadcast, column, diagonal
+from mdao.components._sparsity import blowing_flags, broadcast, column, diagonal
 from mdao.physics import power
 
 OUTPUTS = {"propulsion_saving": "propulsion_power_saving", "fan_electric": "fan_electric_power",
@@ -23,12 +23,7 @@ class SegmentPowerComp(om.ExplicitComponent):
                              desc="sequence of bool per node: does the fan run? (default all)")
 
     def _blowing(self):
-        n = self.options["num_nodes"]
-        flags = self.options["blowing"]
-        flags = np.ones(n, bool) if flags is None else np.asarray(flags, bool)
-        if flags.shape != (n,):
-            raise ValueError(f"blowing must have num_nodes={n} entries, got {flags.shape}")
-        return flags
+        return blowing_flags(self.options["blowing"], self.options["num_nodes"])
 
     def setup(self):
         n = self.options["num_nodes"]
