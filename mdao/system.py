@@ -6,7 +6,7 @@ trade's words. :func:`build_problem` turns a validated :class:`mdao.case.Case` i
 ``om.Problem`` with design variables, constraints, objective and SLSQP.
 """
 import numpy as np
-import openmdao.api as om
+from mdao import om
 
 from mdao.components.airfoil import AirfoilComp
 from mdao.components.atmosphere import AtmosphereComp

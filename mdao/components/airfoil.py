@@ -1,7 +1,7 @@
 """Blown-section drag, its saving against the clean wing, and lift increment (wraps
 :mod:`mdao.physics.airfoil`)."""
 import numpy as np
-import openmdao.api as om
+from mdao import om
 
 from mdao.physics import airfoil as phys
 

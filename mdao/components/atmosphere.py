@@ -1,6 +1,6 @@
 """Standard atmosphere at each operating point (wraps :func:`mdao.physics.atmosphere.isa`)."""
 import numpy as np
-import openmdao.api as om
+from mdao import om
 
 from mdao.physics.atmosphere import isa
 

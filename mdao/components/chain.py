@@ -8,7 +8,7 @@ each physics function returns. It is what ``BlownWingGroup(fused=True)`` uses; a
 against the per-discipline group to round-off.
 """
 import numpy as np
-import openmdao.api as om
+from mdao import om
 
 from mdao.components._sparsity import blowing_flags, column, diagonal
 from mdao.physics import airfoil, atmosphere, duct, fan, jet, power

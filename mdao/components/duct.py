@@ -4,7 +4,7 @@
 each node from the transition stations, friction and form losses.
 """
 import numpy as np
-import openmdao.api as om
+from mdao import om
 
 from mdao.components._sparsity import broadcast, column, diagonal, full
 from mdao.physics import duct

@@ -1,6 +1,6 @@
 """Fan operating point and shaft power at each node (wraps :mod:`mdao.physics.fan`)."""
 import numpy as np
-import openmdao.api as om
+from mdao import om
 
 from mdao.physics import fan as phys
 

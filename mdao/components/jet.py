@@ -1,6 +1,6 @@
 """Jet kinematics component (wraps :func:`mdao.physics.jet.kinematics`)."""
 import numpy as np
-import openmdao.api as om
+from mdao import om
 
 from mdao.components._sparsity import broadcast, column, diagonal
 from mdao.physics import jet

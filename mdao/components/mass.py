@@ -7,7 +7,7 @@ design variable and holds ``power_headroom >= 0`` in every blowing segment (see
 aircraft's mass build-up charges.
 """
 import numpy as np
-import openmdao.api as om
+from mdao import om
 
 from mdao.components._sparsity import blowing_flags, broadcast, column
 from mdao.physics import mass as phys

@@ -1,7 +1,7 @@
 """Segment power component: net saving at the source, energy per segment and for the mission
 (wraps :func:`mdao.physics.power.segment_power`)."""
 import numpy as np
-import openmdao.api as om
+from mdao import om
 
 from mdao.components._sparsity import blowing_flags, broadcast, column, diagonal
 from mdao.physics import power

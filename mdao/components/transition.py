@@ -1,7 +1,7 @@
 """Transition-duct stations from the fan to the injection slot (wraps
 :func:`mdao.physics.transition.stations`). Wing-level: one duct per fan, all fans alike."""
 import numpy as np
-import openmdao.api as om
+from mdao import om
 
 from mdao.physics.transition import SCHEDULES, stations
 
