@@ -258,7 +258,7 @@ def main(argv=None):
     }
     if args.json:
         sys.path.insert(0, str(ROOT))
-        from mdao.report import write_json
+        from mdao.files import write_json
         write_json(args.json, figures)
         print(f"wrote {args.json}")
     return 0

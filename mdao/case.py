@@ -6,7 +6,6 @@ out of range or inconsistent bound raises :class:`CaseError` naming the key, the
 is allowed. docs/case-files.md describes every key.
 """
 import copy
-import csv
 import math
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -18,7 +17,7 @@ except ModuleNotFoundError:  # Python 3.10
 
 import numpy as np
 
-from mdao.units import UnitError, to_si
+from mdao.units import UnitError, read_table, to_si
 
 
 class CaseError(ValueError):
@@ -475,16 +474,30 @@ def _check_consistency(case, base):
                             "must be in (0, 1]")
 
 
+#: Columns of a fan points file: SI unit, dimensionality, meaning.
+FAN_POINT_COLUMNS = {
+    "volume_flow": ("m^3/s", "[length] ** 3 / [time]", "volume flow of one fan"),
+    "pressure_rise": ("Pa", "[mass] / [length] / [time] ** 2", "fan total-pressure rise"),
+    "speed": ("revolution/s", "1 / [time]", "shaft speed (rpm or rev/s)"),
+    "efficiency": ("", "dimensionless", "fan efficiency"),
+    "electrical_power": ("W", "[length] ** 2 * [mass] / [time] ** 3", "electrical input power"),
+    "density": ("kg/m^3", "[mass] / [length] ** 3", "air density"),
+}
+
+
 def _fit_fan_points(case, base):
     """Fit the fan map from a CSV of measured points (columns with units in brackets)."""
     from mdao.physics import fan
 
     f = case.fan
     fpath = base / f["points_file"]
-    kinds = {"volume_flow": "volume_flow", "pressure_rise": "pressure",
-             "speed": "rotational_speed", "efficiency": "dimensionless",
-             "electrical_power": "power", "density": "density"}
-    cols = read_unit_csv(fpath, kinds, key="fan.points_file")
+    try:
+        cols = read_table(fpath, FAN_POINT_COLUMNS, CaseError)
+    except CaseError as exc:
+        raise CaseError(f"fan.points_file {f['points_file']!r}: {exc}") from None
+    except OSError as exc:
+        raise CaseError(f"fan.points_file {f['points_file']!r}: cannot read it "
+                        f"({exc.strerror})") from None
     for need in ("volume_flow", "pressure_rise", "speed"):
         if need not in cols:
             raise CaseError(f"fan.points_file {f['points_file']!r}: column {need!r} is missing")
@@ -506,50 +519,6 @@ def _fit_fan_points(case, base):
         value = getattr(fmap, key)
         f[key] = list(map(float, value)) if key == "pressure_coefficients" else (
             tuple(map(float, value)) if key == "flow_coefficient_range" else float(value))
-
-
-def read_unit_csv(path, kinds, key):
-    """Read a CSV whose header names each column with its unit in brackets.
-
-    Returns ``{column: ndarray in SI}``; raises CaseError naming the column or the row.
-    """
-    from mdao.units import registry, unit_of
-
-    try:
-        with open(path, newline="", encoding="utf-8") as fh:
-            rows = list(csv.reader(fh))
-    except OSError as exc:
-        raise CaseError(f"{key}: cannot read {str(path)!r}: {exc.strerror}") from None
-    if len(rows) < 2:
-        raise CaseError(f"{key}: {str(path)!r} has no data rows")
-    out = {}
-    for j, head in enumerate(rows[0]):
-        name, _, unit = head.strip().partition("[")
-        name = name.strip()
-        unit = unit.rstrip("]").strip() or "dimensionless"
-        if name not in kinds:
-            raise CaseError(f"{key}: unknown column {name!r}; allowed: " + ", ".join(kinds))
-        if name in out:
-            raise CaseError(f"{key}: column {name!r} appears twice")
-        try:
-            u = unit_of("" if unit in ("-", "dimensionless") else unit)
-        except UnitError as exc:
-            raise CaseError(f"{key}: column {name!r}: {exc}") from None
-        values = []
-        for i, row in enumerate(rows[1:], start=1):
-            try:
-                values.append(float(row[j]))
-            except (ValueError, IndexError):
-                raise CaseError(f"{key}: row {i}, column {name!r}: not a number") from None
-        arr = np.array(values)
-        if not np.all(np.isfinite(arr)):
-            raise CaseError(f"{key}: column {name!r} holds NaN or infinity")
-        try:
-            out[name] = np.array([to_si(registry().Quantity(v, u), kinds[name]) for v in arr]) \
-                if u != registry().dimensionless else arr
-        except UnitError as exc:
-            raise CaseError(f"{key}: column {name!r}: {exc}") from None
-    return out
 
 
 def _read_uncertainty(raw, case):
@@ -576,7 +545,7 @@ def _read_uncertainty(raw, case):
         for k in need:
             v = spec[k]
             if isinstance(v, str):
-                v = _quantity_like(key, k, v, base)
+                v = _quantity_like(key, k, v)
             if isinstance(v, bool) or not isinstance(v, (int, float)):
                 raise CaseError(f"uncertainty.\"{key}\".{k} = {v!r}: a number is allowed")
             vals[k] = float(v)
@@ -588,13 +557,19 @@ def _read_uncertainty(raw, case):
     return out
 
 
-KEY_KINDS = {"chord": "length", "blown_span": "length", "altitude": "length", "speed": "speed",
-             "duration": "time", "fan_diameter": "length", "transition_length": "length",
-             "roughness": "length", "min_pressure_rise": "pressure"}
+def spec_of(key):
+    """Schema entry of a case key path (``"wing.chord"``, ``"segment.NAME.speed"``)."""
+    parts = key.split(".")
+    return SEGMENT[parts[2]] if parts[0] == "segment" else SCHEMA[parts[0]][parts[1]]
 
 
-def _quantity_like(key, sub, text, base):
-    kind = KEY_KINDS.get(key.split(".")[-1], "dimensionless")
+def kind_of(key):
+    """Dimension kind of a numeric case key path (``"wing.chord"`` -> ``"length"``)."""
+    return spec_of(key).get("kind", "dimensionless")
+
+
+def _quantity_like(key, sub, text):
+    kind = kind_of(key)
     try:
         return to_si(text, kind)
     except UnitError as exc:

@@ -79,7 +79,8 @@ def _InputErrors():
 def _optimize(args, optimized=True):
     from mdao.case import load_case
     from mdao.optimum import evaluate, optimize
-    from mdao.report import summary, write_json
+    from mdao.files import write_json
+    from mdao.report import summary
 
     case = load_case(args.case)
     outcome = optimize(case) if optimized else evaluate(case)

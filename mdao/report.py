@@ -1,6 +1,5 @@
 """Tables and result files: what the command line prints and writes."""
 from mdao import CAUTION, __version__
-from mdao.files import write_atomic, write_json  # noqa: F401 (re-exported)
 
 
 def _f(value, fmt):

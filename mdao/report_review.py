@@ -7,7 +7,7 @@ from pathlib import Path
 
 import numpy as np
 
-from mdao.report import write_atomic, write_json
+from mdao.files import write_atomic, write_json
 
 KWH = 3.6e6
 

@@ -5,6 +5,8 @@ airfoil and segment power, one node per segment (or operating point), with promo
 trade's words. :func:`build_problem` turns a validated :class:`mdao.case.Case` into a set-up
 ``om.Problem`` with design variables, constraints, objective and SLSQP.
 """
+from dataclasses import asdict
+
 import numpy as np
 from mdao import om
 
@@ -132,11 +134,8 @@ def group_options(case, fused=None):
     """BlownWingGroup options for a case; ``fused`` defaults to True where it applies
     (lumped duct and constant fan)."""
     lumped = case.duct["model"] == "lumped" and case.fan["model"] == "constant"
-    return dict(num_nodes=len(case.segments), duct_model=case.duct["model"],
-                fan_model=case.fan["model"], fans=case.duct["fans"],
-                stations=case.duct["stations"], schedule=case.duct["schedule"],
-                compressible=case.fan["compressible"], blowing=list(case.blowing),
-                fused=lumped if fused is None else fused)
+    return dict(asdict(chain_options(case)), num_nodes=len(case.segments),
+                blowing=list(case.blowing), fused=lumped if fused is None else fused)
 
 
 def applicable_parameters(case):

@@ -1,6 +1,10 @@
 """Quantities with units for case files and data tables, read with pint and converted to SI."""
+import csv
 import functools
+import math
+import re
 
+import numpy as np
 import pint
 
 
@@ -57,3 +61,84 @@ def unit_of(text):
         return registry().Unit(text)
     except Exception:
         raise UnitError(f"unknown unit {text!r}") from None
+
+
+_HEADER = re.compile(r"^\s*([A-Za-z_][A-Za-z0-9_]*)\s*(?:\[(.*)\])?\s*$")
+
+
+def _si_factor(name, unit, spec, error):
+    """Multiplier from ``unit`` to the SI unit of column ``name`` (offset-free units only)."""
+    si_unit, dimensionality, meaning = spec
+    text = (unit or "").strip()
+    ureg = registry()
+    if text in ("", "-", "1"):
+        quantity = ureg.Quantity(1.0, "dimensionless")
+    else:
+        try:
+            quantity = ureg.Quantity(1.0, text)
+        except Exception as exc:  # pint raises several types for an unreadable unit
+            raise error(
+                f"column '{name}': unit '{text}' is not a unit pint understands ({exc})") from None
+    if str(quantity.dimensionality) != dimensionality:
+        wanted = f"[{si_unit}]" if si_unit else "[-]"
+        got = f"[{text}]" if unit is not None else "no unit"
+        raise error(
+            f"column '{name}' ({meaning}) has {got}, of dimension {quantity.dimensionality}; "
+            f"it needs a unit of dimension {dimensionality}, e.g. '{name} {wanted}'")
+    return float(quantity.to(si_unit or "dimensionless").magnitude)
+
+
+def read_table(path, columns, error=UnitError):
+    """Read a CSV table whose header names each column with its unit in brackets, into SI.
+
+    Blank lines and lines starting with ``#`` are skipped. Row numbers in messages are 1-based
+    data rows (the header and skipped lines not counted), with the file line beside them.
+
+    Parameters
+    ----------
+    path : str or path-like
+        CSV file; header cells ``name [unit]`` (pint unit) or ``name`` for a pure number.
+    columns : dict
+        Allowed column name -> (SI unit, dimensionality as pint prints it, meaning).
+    error : type
+        Exception class raised, with a message naming the column or the row.
+
+    Returns
+    -------
+    dict of str to ndarray
+        Column name -> values in SI units (the columns present; no check of which are needed).
+    """
+    with open(path, newline="", encoding="utf-8-sig") as handle:
+        lines = [(number, row) for number, row in enumerate(csv.reader(handle), start=1)
+                 if any(cell.strip() for cell in row) and not row[0].lstrip().startswith("#")]
+    if not lines:
+        raise error(f"{path}: no header row")
+    header_line, header = lines[0]
+    names, factors = [], []
+    for cell in header:
+        match = _HEADER.match(cell)
+        if not match:
+            raise error(f"header cell '{cell}' is not of the form 'name [unit]'")
+        name, unit = match.group(1).lower(), match.group(2)
+        if name not in columns:
+            raise error(f"unknown column '{name}'; allowed columns: " + ", ".join(columns))
+        if name in names:
+            raise error(f"duplicate column '{name}' in the header")
+        names.append(name)
+        factors.append(_si_factor(name, unit, columns[name], error))
+    data = np.empty((len(lines) - 1, len(names)))
+    for index, (line, row) in enumerate(lines[1:]):
+        where = f"row {index + 1} (line {line})"
+        if len(row) != len(names):
+            raise error(f"{where}: {len(row)} cells, the header has {len(names)}")
+        for j, cell in enumerate(row):
+            text = cell.strip()
+            try:
+                value = float(text)
+            except ValueError:
+                value = None
+            if value is None or not math.isfinite(value):
+                shown = f"'{text}'" if text else "blank"
+                raise error(f"{where}, column '{names[j]}': {shown} is not a finite number")
+            data[index, j] = value * factors[j]
+    return {name: data[:, j] for j, name in enumerate(names)}

@@ -50,3 +50,44 @@ def test_constant_in_both_case_and_calibration_is_an_error(tmp_path, cases_dir):
                                                      'model = "lumped"\njet_loss_factor = 1.3'))
     with pytest.raises(CaseError, match="duct.jet_loss_factor"):
         load_case(tmp_path / "case.toml")
+
+
+def _fan_points_case(tmp_path, cases_dir, header, rows):
+    """The coastal case with its fan map replaced by a points file."""
+    text = (cases_dir / "coastal-patrol.toml").read_text()
+    for key in ("pressure_coefficients", "peak_efficiency", "peak_flow_coefficient",
+                "efficiency_falloff", "flow_coefficient_range"):
+        text = "\n".join(line for line in text.splitlines() if not line.startswith(key))
+    text = text.replace('model = "map"', 'model = "map"\npoints_file = "fan.csv"')
+    (tmp_path / "fan.csv").write_text(header + "\n" + "\n".join(rows) + "\n")
+    (tmp_path / "case.toml").write_text(text)
+    return tmp_path / "case.toml"
+
+
+def test_fan_map_fitted_from_points_file(tmp_path, cases_dir):
+    """Noise-free points of a known map (units in the header) give back its coefficients."""
+    import numpy as np
+    c, peak, phi_pk, fall, d = (3.0, 0.5, -6.0), 0.78, 0.36, 1.5, 0.16
+    phi = np.linspace(0.2, 0.5, 7)
+    speed = np.linspace(200.0, 400.0, 7)  # rev/s
+    flow = phi * speed * d ** 3
+    rise = (c[0] + c[1] * phi + c[2] * phi ** 2) * 1.225 * speed ** 2 * d ** 2
+    eta = peak * (1 - fall * (phi / phi_pk - 1) ** 2)
+    rows = [f"{q * 1000:.12g},{p / 1000:.12g},{n * 60:.12g},{e:.12g}"
+            for q, p, n, e in zip(flow, rise, speed, eta)]
+    case = load_case(_fan_points_case(tmp_path, cases_dir,
+                                      "volume_flow [l/s],pressure_rise [kPa],speed [rpm],efficiency",
+                                      rows))
+    np.testing.assert_allclose(case.fan["pressure_coefficients"], c, rtol=1e-8)
+    assert case.fan["peak_efficiency"] == pytest.approx(peak, rel=1e-8)
+    assert case.fan["peak_flow_coefficient"] == pytest.approx(phi_pk, rel=1e-8)
+    assert case.fan["efficiency_falloff"] == pytest.approx(fall, rel=1e-8)
+    assert case.fan["flow_coefficient_range"] == pytest.approx((0.2, 0.5))
+
+
+def test_fan_points_file_wrong_unit_names_the_file_and_column(tmp_path, cases_dir):
+    path = _fan_points_case(tmp_path, cases_dir,
+                            "volume_flow [m^3/s],pressure_rise [m],speed [rpm],efficiency",
+                            ["0.1,1000,20000,0.7"] * 5)
+    with pytest.raises(CaseError, match=r"fan.points_file 'fan.csv': column 'pressure_rise'"):
+        load_case(path)

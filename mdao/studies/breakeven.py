@@ -42,9 +42,10 @@ def admissible_range(case, params):
     return low, high
 
 
-def _ratio(case, params, cmu, blowing):
+def _ratio(case, params, cmu):
     """P_ideal / (eta_motor P_prop) at momentum coefficients ``cmu``; +inf where inadmissible."""
-    out = chain.evaluate(dict(params, momentum_coefficient=cmu), _options(case), blowing=True)
+    from mdao.system import chain_options
+    out = chain.evaluate(dict(params, momentum_coefficient=cmu), chain_options(case), blowing=True)
     prop = out["propulsion_power_saving"]
     dp = out["required_pressure_rise"]
     ok = ((prop > 0) & (dp >= case.fan["min_pressure_rise"] * (1 - 1e-12))
@@ -52,11 +53,6 @@ def _ratio(case, params, cmu, blowing):
     with np.errstate(divide="ignore", invalid="ignore"):
         r = out["ideal_power"] / (params["motor_efficiency"] * prop)
     return np.where(ok, r, np.inf)
-
-
-def _options(case):
-    from mdao.system import chain_options
-    return chain_options(case)
 
 
 def break_even_efficiency(case, slot_ratio=None, params=None):
@@ -113,16 +109,15 @@ def _search(case, p, lo, hi):
     grid = np.exp(llo + (lhi - llo) * t)
     pe = {k: (np.asarray(v)[..., None] if k != "pressure_coefficients" else v)
           for k, v in p.items()}
-    vals = _ratio(case, pe, grid, True)
+    vals = _ratio(case, pe, grid)
     k = np.argmin(vals, axis=-1)
     a = np.take_along_axis(grid, np.maximum(k - 1, 0)[..., None], -1)[..., 0]
     b = np.take_along_axis(grid, np.minimum(k + 1, GRID - 1)[..., None], -1)[..., 0]
     best = np.take_along_axis(vals, k[..., None], -1)[..., 0]
     g = (np.sqrt(5.0) - 1.0) / 2.0
-    pe = {k2: (np.asarray(v) if k2 != "pressure_coefficients" else v) for k2, v in p.items()}
     for _ in range(GOLDEN_STEPS):
         c, d = b - g * (b - a), a + g * (b - a)
-        left = _ratio(case, pe, c, True) < _ratio(case, pe, d, True)
+        left = _ratio(case, p, c) < _ratio(case, p, d)
         a, b = np.where(left, a, c), np.where(left, d, b)
     mid = 0.5 * (a + b)
-    return np.minimum(best, _ratio(case, pe, mid, True))
+    return np.minimum(best, _ratio(case, p, mid))

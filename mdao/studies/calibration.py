@@ -520,14 +520,14 @@ def load_fragment(path):
                                               airfoil.pop("momentum_coefficient_range")]
     constants = {f"duct.{k}": float(v) for k, v in data["duct"].items()}
     constants.update({f"airfoil.{k}": float(v) for k, v in airfoil.items()})
-    from mdao.studies.runs import _ureg
+    from mdao.units import to_si
     for key in ("slot_ratio_range", "reynolds_range", "speed_range"):
         if key not in data["validity"]:
             raise CalibrationError(f"{path}: missing key validity.{key}")
     validity["slot_ratio_range"] = [float(v) for v in data["validity"]["slot_ratio_range"]]
     validity["reynolds_range"] = [float(v) for v in data["validity"]["reynolds_range"]]
     try:
-        validity["speed_range"] = [float(_ureg().Quantity(v).to("m/s").magnitude)
+        validity["speed_range"] = [to_si(v, "speed")
                                    for v in data["validity"]["speed_range"]]
     except Exception as exc:
         raise CalibrationError(f"{path}: validity.speed_range must be speeds like \"12.0 m/s\" "

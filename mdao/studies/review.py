@@ -235,7 +235,7 @@ def run_review_cli(args):
         print(f"blownwing: {case.title}\nNOT CONVERGED: {o['message']} after {o['iterations']} "
               "iterations. No review is written as an optimum; check the bounds, the start point "
               "or [optimize] max_iterations.", file=sys.stderr)
-        from mdao.report import write_json
+        from mdao.files import write_json
         write_json(out / "review.json", {k: v for k, v in data.items() if k != "optimum"}
                    | {"optimum": None, "failure": o["message"]})
         return EXIT_NOT_CONVERGED

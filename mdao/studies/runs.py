@@ -42,11 +42,10 @@ References
    augmentation and modification." AIAA Progress in Astronautics and Aeronautics 192 (2001),
    for the momentum coefficient.
 """
-import csv
-import math
-import re
 
 import numpy as np
+
+from mdao.units import read_table
 
 __all__ = ["CalibrationError", "COLUMNS", "read_runs", "check_runs", "derived", "fit_plan",
            "atmosphere_state"]
@@ -75,34 +74,6 @@ COLUMNS = {
 _ALWAYS = ("speed", "chord", "span", "slot_height", "fan_pressure_rise", "drag_coefficient")
 _POSITIVE = ("speed", "density", "chord", "span", "slot_height")
 _NON_NEGATIVE = ("mass_flow", "volume_flow")
-_HEADER = re.compile(r"^\s*([A-Za-z_][A-Za-z0-9_]*)\s*(?:\[(.*)\])?\s*$")
-
-
-def _ureg():
-    from mdao.units import registry
-    return registry()
-
-
-def _si_factor(name, unit):
-    """Multiplier from ``unit`` to the SI unit of column ``name`` (all columns are offset-free)."""
-    si_unit, dimensionality, meaning = COLUMNS[name]
-    text = (unit or "").strip()
-    ureg = _ureg()
-    if text in ("", "-", "1"):
-        quantity = ureg.Quantity(1.0, "dimensionless")
-    else:
-        try:
-            quantity = ureg.Quantity(1.0, text)
-        except Exception as exc:  # pint raises several types for an unreadable unit
-            raise CalibrationError(
-                f"column '{name}': unit '{text}' is not a unit pint understands ({exc})") from None
-    if str(quantity.dimensionality) != dimensionality:
-        wanted = f"[{si_unit}]" if si_unit else "[-]"
-        got = f"[{text}]" if unit is not None else "no unit"
-        raise CalibrationError(
-            f"column '{name}' ({meaning}) has {got}, of dimension {quantity.dimensionality}; "
-            f"it needs a unit of dimension {dimensionality}, e.g. '{name} {wanted}'")
-    return float(quantity.to(si_unit or "dimensionless").magnitude)
 
 
 def fit_plan(runs):
@@ -232,41 +203,7 @@ def read_runs(path):
         blank, non-number or NaN cell; wrong number of cells in a row; values out of range; fewer
         runs than constants + 2.
     """
-    with open(path, newline="", encoding="utf-8-sig") as handle:
-        lines = [(number, row) for number, row in enumerate(csv.reader(handle), start=1)
-                 if any(cell.strip() for cell in row) and not row[0].lstrip().startswith("#")]
-    if not lines:
-        raise CalibrationError(f"{path}: no header row")
-    header_line, header = lines[0]
-    names, factors = [], []
-    for cell in header:
-        match = _HEADER.match(cell)
-        if not match:
-            raise CalibrationError(f"header cell '{cell}' is not of the form 'name [unit]'")
-        name, unit = match.group(1).lower(), match.group(2)
-        if name not in COLUMNS:
-            raise CalibrationError(f"unknown column '{name}'; allowed columns: " + ", ".join(COLUMNS))
-        if name in names:
-            raise CalibrationError(f"duplicate column '{name}' in the header")
-        names.append(name)
-        factors.append(_si_factor(name, unit))
-    data = np.empty((len(lines) - 1, len(names)))
-    for index, (line, row) in enumerate(lines[1:]):
-        where = f"row {index + 1} (line {line})"
-        if len(row) != len(names):
-            raise CalibrationError(f"{where}: {len(row)} cells, the header has {len(names)}")
-        for j, cell in enumerate(row):
-            text = cell.strip()
-            try:
-                value = float(text)
-            except ValueError:
-                value = None
-            if value is None or not math.isfinite(value):
-                shown = f"'{text}'" if text else "blank"
-                raise CalibrationError(f"{where}, column '{names[j]}': {shown} is not a finite "
-                                       "number")
-            data[index, j] = value * factors[j]
-    return check_runs({name: data[:, j] for j, name in enumerate(names)})
+    return check_runs(read_table(path, COLUMNS, CalibrationError))
 
 
 def atmosphere_state(altitude):

@@ -300,7 +300,7 @@ def run_many_cli(case_path, kind, samples=None, seed=None, out="many", scheduler
     """
     from mdao import CAUTION, __version__
     from mdao.case import load_case
-    from mdao.report import write_json
+    from mdao.files import write_json
 
     if kind not in KINDS:
         raise ValueError(f"kind = {kind!r}: allowed are " + ", ".join(KINDS))

@@ -30,7 +30,7 @@ References
 """
 import numpy as np
 
-from mdao.case import SCHEMA, SEGMENT
+from mdao.case import kind_of, spec_of
 from mdao.physics import chain
 from mdao.system import (PARAMETERS, SEGMENT_INPUTS, applicable_parameters, build_problem,
                          chain_options, chain_parameters)
@@ -73,9 +73,7 @@ def promoted(case, key):
 
 def allowed_range(key):
     """``(low, high)`` the case schema allows for a key path (open ends included as closed)."""
-    parts = key.split(".")
-    spec = SEGMENT[parts[2]] if parts[0] == "segment" else SCHEMA[parts[0]][parts[1]]
-    lo, hi = spec["range"][:2]
+    lo, hi = spec_of(key)["range"][:2]
     return lo, hi
 
 
@@ -83,9 +81,7 @@ def unit_of(key):
     """SI unit of a key path, for tables (``"-"`` for pure numbers)."""
     from mdao.units import SI_UNITS
 
-    parts = key.split(".")
-    spec = SEGMENT[parts[2]] if parts[0] == "segment" else SCHEMA[parts[0]][parts[1]]
-    unit = SI_UNITS.get(spec.get("kind", "dimensionless"), "")
+    unit = SI_UNITS.get(kind_of(key), "")
     return (unit or "-").replace("revolution/s", "rev/s")
 
 
