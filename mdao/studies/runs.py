@@ -181,10 +181,8 @@ def check_runs(runs):
 
 
 def read_runs(path):
-    """Read a CSV table of runs into SI columns.
-
-    Blank lines and lines starting with ``#`` are skipped. Row numbers in messages are 1-based
-    data rows (the header and skipped lines not counted), with the file line beside them.
+    """Read a CSV table of runs into SI columns (:func:`mdao.units.read_table` with
+    :data:`COLUMNS`), then check it (:func:`check_runs`).
 
     Parameters
     ----------
