@@ -23,7 +23,7 @@ CASES = sorted((ROOT / "cases").glob("*.toml"))
 
 CONST = dict(slot_ratio=0.012, chord=0.5, blown_span=2.0, jet_loss_factor=1.25,
              freestream_assist=0.9, fan_rated_efficiency=0.7, motor_efficiency=0.9,
-             drag_clean=0.011, slot_drag=0.02, thrust_leverage=-1.6, chain_efficiency=0.8)
+             drag_clean=0.011, slot_drag=0.02, drag_per_momentum=-1.6, chain_efficiency=0.8)
 
 
 def operating_points(n, seed=0):
@@ -47,7 +47,7 @@ def floor(pts, c=CONST):
     flow = c["slot_ratio"] * area * vj
     dp = c["jet_loss_factor"] * 0.5 * rho * vj * vj - c["freestream_assist"] * q
     shaft = flow * np.maximum(dp, 0.0) / c["fan_rated_efficiency"]
-    saving = -q * area * (c["slot_drag"] + c["thrust_leverage"] * cmu)
+    saving = -q * area * (c["slot_drag"] + c["drag_per_momentum"] * cmu)
     net = saving * v / c["chain_efficiency"] - shaft / c["motor_efficiency"]
     return net * pts["duration"]
 
@@ -196,7 +196,7 @@ def bench_studies(repeat):
     rng = np.random.default_rng(1)
     samples = 10**5
     draws = dict(params, momentum_coefficient=np.full(nseg, 0.05),
-                 thrust_leverage=rng.normal(params["thrust_leverage"], 0.15, (samples, 1)),
+                 drag_per_momentum=rng.normal(params["drag_per_momentum"], 0.15, (samples, 1)),
                  jet_loss_factor=rng.normal(params["jet_loss_factor"], 0.08, (samples, 1)))
 
     def monte_carlo():

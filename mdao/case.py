@@ -93,8 +93,8 @@ SCHEMA = {
         "drag_clean": _n(lo=0, hi=1, lo_open=True),
         "slot_drag": _n(default=0.0, lo=0, hi=1),
         "slot_drag_per_ratio": _n(default=0.0, lo=0, hi=100),
-        "thrust_leverage": _n(lo=-20, hi=0, hi_open=True),
-        "thrust_leverage_per_ratio": _n(default=0.0, lo=-1000, hi=1000),
+        "drag_per_momentum": _n(lo=-20, hi=0, hi_open=True),
+        "drag_per_momentum_per_ratio": _n(default=0.0, lo=-1000, hi=1000),
         "drag_quadratic": _n(default=0.0, lo=0, hi=100),
         "momentum_coefficient_range": _pair(lo=0, hi=2.0, lo_open=True),
         "lift_per_momentum": _n(default=0.0, lo=-100, hi=100),
@@ -136,8 +136,8 @@ TOP_LEVEL = {"title", "segment", "calibration", "uncertainty"} | set(SCHEMA)
 
 #: Model constants a calibration may fill (case key paths).
 CALIBRATED = ("duct.jet_loss_factor", "duct.freestream_assist", "airfoil.drag_clean",
-              "airfoil.slot_drag", "airfoil.slot_drag_per_ratio", "airfoil.thrust_leverage",
-              "airfoil.thrust_leverage_per_ratio", "airfoil.lift_per_momentum",
+              "airfoil.slot_drag", "airfoil.slot_drag_per_ratio", "airfoil.drag_per_momentum",
+              "airfoil.drag_per_momentum_per_ratio", "airfoil.lift_per_momentum",
               "airfoil.momentum_coefficient_range")
 
 DISTRIBUTIONS = {"normal": ("sd",), "uniform": ("low", "high")}
@@ -530,7 +530,7 @@ def _read_uncertainty(raw, case):
             base = case.value(key)
         except (CaseError, KeyError, IndexError):
             raise CaseError(f"uncertainty.\"{key}\": not a case key path (e.g. "
-                            "\"airfoil.thrust_leverage\" or \"segment.NAME.speed\")") from None
+                            "\"airfoil.drag_per_momentum\" or \"segment.NAME.speed\")") from None
         if not isinstance(base, (int, float)) or isinstance(base, bool):
             raise CaseError(f"uncertainty.\"{key}\": only numeric case values can be uncertain")
         if not isinstance(spec, dict) or spec.get("distribution") not in DISTRIBUTIONS:

@@ -51,8 +51,8 @@ class Outcome:
 
 
 OUTPUTS = ("momentum_coefficient", "fan_pressure_rise", "required_pressure_rise", "jet_velocity",
-           "volume_flow", "mass_flow", "jet_mach", "fan_efficiency", "shaft_power", "drag",
-           "clean_drag", "drag_saving", "propulsion_power_saving", "fan_electric_power",
+           "volume_flow", "mass_flow", "jet_mach", "fan_efficiency", "fan_shaft_power", "section_drag",
+           "clean_section_drag", "drag_saving", "propulsion_power_saving", "fan_electric_power",
            "net_power_saving", "energy_saving", "dynamic_pressure", "density")
 
 
@@ -167,10 +167,10 @@ def _segments(case, vals, be):
             "flow_coefficient": (float(vals["flow_coefficient"][i])
                                  if case.fan["model"] == "map" and on else None),
             "fan_efficiency": float(vals["fan_efficiency"][i]) if on else None,
-            "fan_shaft_power_W": float(vals["shaft_power"][i]) if on else 0.0,
+            "fan_shaft_power_W": float(vals["fan_shaft_power"][i]) if on else 0.0,
             "fan_electric_power_W": float(vals["fan_electric_power"][i]),
-            "drag_N": float(vals["drag"][i]),
-            "drag_clean_N": float(vals["clean_drag"][i]),
+            "section_drag_N": float(vals["section_drag"][i]),
+            "clean_section_drag_N": float(vals["clean_section_drag"][i]),
             "propulsion_power_saving_W": float(vals["propulsion_power_saving"][i]),
             "net_power_saving_W": float(vals["net_power_saving"][i]),
             "energy_saving_J": float(vals["energy_saving"][i]),

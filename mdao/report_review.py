@@ -319,7 +319,7 @@ def _axis_label(key):
     return {"slot.ratio": "slot ratio h/c [-]", "duct.jet_loss_factor": "jet loss factor K_j [-]",
             "duct.extra_loss": "duct loss adder (duct.extra_loss) [-]",
             "airfoil.slot_drag": "slot penalty intercept, airfoil.slot_drag [-]",
-            "airfoil.thrust_leverage": "thrust leverage beta [-]"}.get(key, f"{key} [-]")
+            "airfoil.drag_per_momentum": "drag per momentum coefficient beta [-]"}.get(key, f"{key} [-]")
 
 
 def _fig_uncertainty(plt, data):

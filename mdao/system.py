@@ -43,8 +43,8 @@ PARAMETERS = {
     "airfoil.drag_clean": "drag_clean",
     "airfoil.slot_drag": "slot_drag",
     "airfoil.slot_drag_per_ratio": "slot_drag_per_ratio",
-    "airfoil.thrust_leverage": "thrust_leverage",
-    "airfoil.thrust_leverage_per_ratio": "thrust_leverage_per_ratio",
+    "airfoil.drag_per_momentum": "drag_per_momentum",
+    "airfoil.drag_per_momentum_per_ratio": "drag_per_momentum_per_ratio",
     "airfoil.drag_quadratic": "drag_quadratic",
     "airfoil.lift_per_momentum": "lift_per_momentum",
     "propulsion.chain_efficiency": "chain_efficiency",
@@ -107,9 +107,9 @@ class BlownWingGroup(om.Group):
             self.add_subsystem("transition", TransitionComp(
                 num_nodes=n, fans=o["fans"], stations=o["stations"], schedule=o["schedule"]),
                 promotes=["*"])
-        self.add_subsystem("duct", DuctLossComp(num_nodes=n, model=o["duct_model"], fans=o["fans"],
+        self.add_subsystem("duct", DuctLossComp(num_nodes=n, duct_model=o["duct_model"], fans=o["fans"],
                                                 stations=o["stations"]), promotes=["*"])
-        fan = FanComp(num_nodes=n, model=o["fan_model"], fans=o["fans"],
+        fan = FanComp(num_nodes=n, fan_model=o["fan_model"], fans=o["fans"],
                       compressible=o["compressible"])
         if o["follow_requirement"]:
             self.add_subsystem("fan", fan, promotes_inputs=[("fan_pressure_rise", "fan_pressure_rise_in"), "*"],

@@ -14,7 +14,7 @@ from partials_check import assert_partials
 RNG_SEED = 7321
 
 ARGS = ('momentum_coefficient', 'slot_ratio', 'drag_clean', 'slot_drag', 'slot_drag_per_ratio',
-        'thrust_leverage', 'thrust_leverage_per_ratio', 'drag_quadratic')
+        'drag_per_momentum', 'drag_per_momentum_per_ratio', 'drag_quadratic')
 
 
 def test_values_by_hand():
@@ -22,8 +22,8 @@ def test_values_by_hand():
     #     = 0.012 + 0.0275 - 0.0472 + 0.0032 = -0.0045
     cd = airfoil.drag_coefficient(0.04, 0.015, 0.012, 0.02, 0.5, -1.3, 8.0, 2.0)
     assert cd == pytest.approx(-0.0045, abs=1e-15)
-    assert airfoil.slot_penalty(0.015, 0.02, 0.5) == pytest.approx(0.0275, abs=1e-16)
-    assert airfoil.thrust_leverage_at(0.015, -1.3, 8.0) == pytest.approx(-1.18, abs=1e-15)
+    assert airfoil.slot_drag_at(0.015, 0.02, 0.5) == pytest.approx(0.0275, abs=1e-16)
+    assert airfoil.drag_per_momentum_at(0.015, -1.3, 8.0) == pytest.approx(-1.18, abs=1e-15)
     assert airfoil.lift_increment(0.04, 6.0) == pytest.approx(0.24, abs=1e-16)
     # jet off: clean drag plus the slotted-shape penalty, which can exceed the clean drag
     assert airfoil.drag_coefficient(0.0, 0.01, 0.012, 0.02, 0.0, -1.2, 0.0) == pytest.approx(0.032)
@@ -48,8 +48,8 @@ def test_derivatives_vs_central_fd():
     rng = np.random.default_rng(RNG_SEED)
     args = dict(momentum_coefficient=rng.uniform(0, 0.08, 6), slot_ratio=rng.uniform(0.003, 0.03, 6),
                 drag_clean=rng.uniform(0.008, 0.02, 6), slot_drag=rng.uniform(0, 0.05, 6),
-                slot_drag_per_ratio=rng.uniform(-1, 1, 6), thrust_leverage=rng.uniform(-2, -0.5, 6),
-                thrust_leverage_per_ratio=rng.uniform(-10, 10, 6),
+                slot_drag_per_ratio=rng.uniform(-1, 1, 6), drag_per_momentum=rng.uniform(-2, -0.5, 6),
+                drag_per_momentum_per_ratio=rng.uniform(-10, 10, 6),
                 drag_quadratic=rng.uniform(0, 3, 6))
     _, d = airfoil.drag_coefficient(**args, derivatives=True)
     for name in ARGS:
@@ -66,7 +66,7 @@ def _random_inputs(rng, n):
             'slot_ratio': rng.uniform(0.003, 0.03), 'chord': rng.uniform(0.3, 1.5),
             'blown_span': rng.uniform(0.5, 5.0), 'drag_clean': rng.uniform(0.008, 0.02),
             'slot_drag': rng.uniform(0.0, 0.05), 'slot_drag_per_ratio': rng.uniform(-1, 1),
-            'thrust_leverage': rng.uniform(-2, -0.5), 'thrust_leverage_per_ratio': rng.uniform(-10, 10),
+            'drag_per_momentum': rng.uniform(-2, -0.5), 'drag_per_momentum_per_ratio': rng.uniform(-10, 10),
             'drag_quadratic': rng.uniform(0, 3), 'lift_per_momentum': rng.uniform(0, 8)}
 
 
@@ -85,8 +85,8 @@ def test_component_values():
     cd = airfoil.drag_coefficient(*(vals[k] for k in ARGS))
     area_q = vals['dynamic_pressure'] * vals['chord'] * vals['blown_span']
     assert np.allclose(prob.get_val('drag_coefficient'), cd, rtol=1e-15)
-    assert np.allclose(prob.get_val('drag'), area_q * cd, rtol=1e-14)
-    assert np.allclose(prob.get_val('clean_drag'), area_q * vals['drag_clean'], rtol=1e-14)
+    assert np.allclose(prob.get_val('section_drag'), area_q * cd, rtol=1e-14)
+    assert np.allclose(prob.get_val('clean_section_drag'), area_q * vals['drag_clean'], rtol=1e-14)
     assert np.allclose(prob.get_val('drag_saving'), area_q * (vals['drag_clean'] - cd), rtol=1e-12,
                        atol=1e-12)
     assert np.allclose(prob.get_val('lift_increment'),
@@ -100,6 +100,6 @@ def test_component_defaults_set_up_alone():
     prob.model.add_subsystem('c', AirfoilComp(), promotes=['*'])
     prob.setup()
     prob.run_model()
-    assert prob.get_val('drag')[0] == pytest.approx(-2.0, abs=1e-12)
-    assert prob.get_val('clean_drag')[0] == pytest.approx(6.0, abs=1e-12)
+    assert prob.get_val('section_drag')[0] == pytest.approx(-2.0, abs=1e-12)
+    assert prob.get_val('clean_section_drag')[0] == pytest.approx(6.0, abs=1e-12)
     assert prob.get_val('drag_saving')[0] == pytest.approx(8.0, abs=1e-12)

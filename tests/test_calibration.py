@@ -164,7 +164,7 @@ def test_interval_coverage_over_seeded_repetitions():
 
 
 def test_clean_drag_given_single_slot_ratio():
-    """With `drag_coefficient_clean` and one slot height: slot_drag and thrust_leverage fitted,
+    """With `drag_coefficient_clean` and one slot height: slot_drag and drag_per_momentum fitted,
     drag_clean the mean of the column."""
     rng = np.random.default_rng(11)
     truth = dict(DEMO.TRUTH, **{"airfoil.slot_drag": 0.021})
@@ -180,10 +180,10 @@ def test_clean_drag_given_single_slot_ratio():
     assert c["airfoil.drag_clean"]["stderr"] == pytest.approx(clean.std(ddof=1)
                                                               / np.sqrt(clean.size), rel=1e-12)
     r_s = runs["slot_height"][0] / runs["chord"][0]
-    slope = truth["airfoil.thrust_leverage"] + truth["airfoil.thrust_leverage_per_ratio"] * r_s
+    slope = truth["airfoil.drag_per_momentum"] + truth["airfoil.drag_per_momentum_per_ratio"] * r_s
     penalty = truth["airfoil.slot_drag"] + truth["airfoil.slot_drag_per_ratio"] * r_s
-    assert c["airfoil.thrust_leverage"]["value"] == pytest.approx(slope, abs=4 * c[
-        "airfoil.thrust_leverage"]["stderr"])
+    assert c["airfoil.drag_per_momentum"]["value"] == pytest.approx(slope, abs=4 * c[
+        "airfoil.drag_per_momentum"]["stderr"])
     assert c["airfoil.slot_drag"]["value"] == pytest.approx(penalty, abs=4 * c[
         "airfoil.slot_drag"]["stderr"])
 
@@ -193,7 +193,7 @@ def test_plausibility_warnings_fire_far_off():
     """Rules of thumb (common practice, no source): K_j ~1.3, K_inf ~1, slope ~-1.5, jet-off over
     clean ~3. A section far outside all four warns for each, and still returns a result."""
     truth = dict(DEMO.TRUTH, **{"duct.jet_loss_factor": 3.4, "duct.freestream_assist": 0.05,
-                                "airfoil.thrust_leverage": -6.5,
+                                "airfoil.drag_per_momentum": -6.5,
                                 "airfoil.slot_drag_per_ratio": 12.0})
     runs = DEMO.synthetic_runs(np.random.default_rng(5), truth=truth)
     with pytest.warns(CalibrationWarning) as record:
@@ -357,7 +357,7 @@ def test_calibrate_file_outputs_and_toml_round_trip(tmp_path):
     cov = np.array(unc["covariance"])
     np.testing.assert_array_equal(cov, cov.T)
     i, j = unc["parameters"].index("duct.jet_loss_factor"), unc["parameters"].index(
-        "airfoil.thrust_leverage")
+        "airfoil.drag_per_momentum")
     assert cov[i, j] == 0.0  # separate fits
     assert data["airfoil"]["momentum_coefficient_range"] == result["validity"][
         "momentum_coefficient"]

@@ -25,7 +25,7 @@ def test_optimize_bundled_case(name, tmp_path, capsys):
     seg = data["segments"][0]
     for key in ("name", "blowing", "momentum_coefficient", "fan_pressure_rise_Pa",
                 "required_pressure_rise_Pa", "jet_velocity_m_s", "volume_flow_m3_s",
-                "fan_speed_rpm", "fan_efficiency", "fan_shaft_power_W", "drag_N", "drag_clean_N",
+                "fan_speed_rpm", "fan_efficiency", "fan_shaft_power_W", "section_drag_N", "clean_section_drag_N",
                 "net_power_saving_W", "energy_saving_J", "break_even_fan_efficiency",
                 "active_constraints"):
         assert key in seg
@@ -81,8 +81,8 @@ BAD = {
                            "duct.jet_loss_factor"),
     "K_j below one": (_swap("jet_loss_factor = 1.22 ", "jet_loss_factor = 0.8 "),
                       "duct.jet_loss_factor"),
-    "positive thrust leverage": (_swap("thrust_leverage = -1.9 ", "thrust_leverage = 1.9 "),
-                                 "airfoil.thrust_leverage"),
+    "positive drag per momentum coefficient": (_swap("drag_per_momentum = -1.9 ", "drag_per_momentum = 1.9 "),
+                                 "airfoil.drag_per_momentum"),
     "altitude too high": (_swap('altitude = "120 m"', 'altitude = "25 km"'), "altitude"),
     "duration not a time": (_swap('duration = "2.2 h"', 'duration = "2.2 m"'), "duration"),
     "duplicate segment": (_swap('name = "transit"', 'name = "survey"'), "segment.name"),

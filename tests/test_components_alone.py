@@ -37,7 +37,7 @@ def test_group_matches_direct_chain(path, cases_dir):
     dp = prob.get_val("fan_pressure_rise")
     direct = chain.evaluate(chain_parameters(case, momentum_coefficient=cmu, fan_pressure_rise=dp),
                             chain_options(case), blowing=case.blowing)
-    for name in ("required_pressure_rise", "jet_velocity", "shaft_power", "drag",
+    for name in ("required_pressure_rise", "jet_velocity", "fan_shaft_power", "section_drag",
                  "net_power_saving", "energy_saving"):
         np.testing.assert_allclose(prob.get_val(name), direct[name], rtol=1e-12, atol=1e-9)
 
@@ -56,8 +56,8 @@ def test_fused_chain_partials(compressible, follow):
               "duration": RNG.uniform(100, 4000, n),
               "momentum_coefficient": RNG.uniform(0.02, 0.15, n), "slot_ratio": 0.013,
               "chord": 0.45, "blown_span": 2.1, "jet_loss_factor": 1.3, "freestream_assist": 0.8,
-              "fan_rated_efficiency": 0.66, "thrust_leverage": -1.7, "slot_drag": 0.015,
-              "slot_drag_per_ratio": 0.4, "thrust_leverage_per_ratio": 3.0,
+              "fan_rated_efficiency": 0.66, "drag_per_momentum": -1.7, "slot_drag": 0.015,
+              "slot_drag_per_ratio": 0.4, "drag_per_momentum_per_ratio": 3.0,
               "drag_quadratic": 0.5, "lift_per_momentum": 2.0}
     if not follow:
         inputs["fan_pressure_rise"] = RNG.uniform(200, 3000, n)
@@ -74,7 +74,7 @@ def test_fused_group_matches_per_discipline_group(cases_dir):
     probs = [build_problem(case, fused=f) for f in (False, True)]
     for p in probs:
         p.run_model()
-    for name in ("required_pressure_rise", "shaft_power", "drag", "net_power_saving",
+    for name in ("required_pressure_rise", "fan_shaft_power", "section_drag", "net_power_saving",
                  "mission_energy_saving", "jet_mach", "slot_height"):
         np.testing.assert_allclose(probs[1].get_val(name), probs[0].get_val(name), rtol=1e-13)
     totals = [p.compute_totals() for p in probs]

@@ -330,7 +330,7 @@ def _inputs(rng, n, model, compressible):
 @pytest.mark.parametrize("fans", [1, 3])
 def test_component_partials(model, compressible, fans):
     rng = np.random.default_rng(RNG_SEED + fans)
-    comp = FanComp(num_nodes=5, model=model, compressible=compressible, fans=fans)
+    comp = FanComp(num_nodes=5, fan_model=model, compressible=compressible, fans=fans)
     assert_partials(comp, _inputs(rng, 5, model, compressible))
 
 
@@ -351,7 +351,7 @@ def test_component_matches_physics(model, compressible):
     rng = np.random.default_rng(RNG_SEED)
     fans = 4
     vals = _inputs(rng, 5, model, compressible)
-    prob = _run(FanComp(num_nodes=5, model=model, compressible=compressible, fans=fans), vals)
+    prob = _run(FanComp(num_nodes=5, fan_model=model, compressible=compressible, fans=fans), vals)
     q, dp, rho = vals['volume_flow'], vals['fan_pressure_rise'], vals['density']
     if model == 'constant':
         eta = vals['fan_rated_efficiency'] * np.ones(5)
@@ -370,14 +370,14 @@ def test_component_matches_physics(model, compressible):
     else:
         per_fan = fan.shaft_power(q / fans, dp, eta)
     assert np.allclose(prob.get_val('fan_efficiency'), eta, rtol=1e-14)
-    assert np.allclose(prob.get_val('shaft_power'), fans * per_fan, rtol=1e-13)
+    assert np.allclose(prob.get_val('fan_shaft_power'), fans * per_fan, rtol=1e-13)
 
 
 @pytest.mark.parametrize("model", ["constant", "map"])
 @pytest.mark.parametrize("compressible", [False, True])
 def test_component_defaults_set_up_alone(model, compressible):
-    prob = _run(FanComp(model=model, compressible=compressible))
-    assert np.all(np.isfinite(prob.get_val('shaft_power'))) and prob.get_val('shaft_power')[0] > 0
+    prob = _run(FanComp(fan_model=model, compressible=compressible))
+    assert np.all(np.isfinite(prob.get_val('fan_shaft_power'))) and prob.get_val('fan_shaft_power')[0] > 0
     if model == 'map':
         assert 0.15 < prob.get_val('flow_coefficient')[0] < 0.35
 
@@ -386,12 +386,12 @@ def test_component_defaults_set_up_alone(model, compressible):
 def test_component_ram_driven_map(compressible):
     """dp <= 0 (ram-driven jet): zero shaft power with finite (zero) power partials, even where
     the map has no speed (NaN) for a negative pressure rise."""
-    prob = _run(FanComp(num_nodes=3, model='map', compressible=compressible),
+    prob = _run(FanComp(num_nodes=3, fan_model='map', compressible=compressible),
                 {'fan_pressure_rise': [-200.0, 0.0, 800.0]})
-    power = prob.get_val('shaft_power')
+    power = prob.get_val('fan_shaft_power')
     assert power[0] == 0.0 and power[1] == 0.0 and power[2] > 0
     assert np.isnan(prob.get_val('fan_speed')[0])
-    totals = prob.compute_totals(['shaft_power'], ['fan_pressure_rise', 'volume_flow',
+    totals = prob.compute_totals(['fan_shaft_power'], ['fan_pressure_rise', 'volume_flow',
                                                    'pressure_coefficients'])
     for jac in totals.values():
         assert np.all(np.isfinite(jac)) and np.all(jac[:2] == 0)

@@ -71,7 +71,7 @@ def test_segment_power_partials():
     n = 5
     assert_partials(SegmentPowerComp(num_nodes=n, blowing=[True, False, True, True, False]), {
         "drag_saving": RNG.uniform(-5, 20, n), "speed": RNG.uniform(20, 80, n),
-        "shaft_power": RNG.uniform(10, 500, n), "duration": RNG.uniform(100, 5000, n),
+        "fan_shaft_power": RNG.uniform(10, 500, n), "duration": RNG.uniform(100, 5000, n),
         "chain_efficiency": 0.72, "motor_efficiency": 0.91})
 
 
@@ -110,7 +110,7 @@ def test_geometric_loss_factor_components():
 def test_duct_geometric_partials(schedule):
     n, m = 5, 9
     st = _stations(schedule, m)
-    assert_partials(DuctLossComp(num_nodes=n, model="geometric", fans=3, stations=m), {
+    assert_partials(DuctLossComp(num_nodes=n, duct_model="geometric", fans=3, stations=m), {
         "density": RNG.uniform(0.4, 1.2, n), "jet_velocity": RNG.uniform(30, 150, n),
         "dynamic_pressure": RNG.uniform(200, 3000, n), "freestream_assist": 0.9,
         "volume_flow": RNG.uniform(0.02, 0.3, n), "viscosity": RNG.uniform(1.4e-5, 1.8e-5, n),

@@ -117,7 +117,7 @@ def test_component_alone_with_defaults():
 def test_partials_lumped():
     rng = np.random.default_rng(11)
     assert_partials(BlowingSystemMassComp(num_nodes=5, blowing=[True, False, True, True, True]),
-                    {"shaft_power": rng.uniform(100, 800, 5),
+                    {"fan_shaft_power": rng.uniform(100, 800, 5),
                      "rated_shaft_power": rng.uniform(800, 2000),
                      "fan_specific_power": rng.uniform(1500, 4000),
                      "motor_specific_power": rng.uniform(3000, 7000),
@@ -132,7 +132,7 @@ def test_partials_lumped():
 def test_partials_geometric():
     rng = np.random.default_rng(12)
     assert_partials(BlowingSystemMassComp(num_nodes=5, duct_model="geometric", fans=4, stations=7),
-                    {"shaft_power": rng.uniform(100, 800, 5),
+                    {"fan_shaft_power": rng.uniform(100, 800, 5),
                      "rated_shaft_power": rng.uniform(800, 2000),
                      "station_position": np.sort(rng.uniform(0, 0.5, 7)),
                      "station_perimeter": rng.uniform(0.2, 0.6, 7),
@@ -144,7 +144,7 @@ def test_headroom_ignores_nodes_without_blowing():
     prob.model.add_subsystem("c", BlowingSystemMassComp(num_nodes=3, blowing=[True, False, True]),
                              promotes=["*"])
     prob.setup()
-    prob.set_val("shaft_power", [100.0, 5000.0, 300.0])
+    prob.set_val("fan_shaft_power", [100.0, 5000.0, 300.0])
     prob.set_val("rated_shaft_power", 400.0)
     prob.run_model()
     np.testing.assert_allclose(prob.get_val("power_headroom"), [275.0, 400.0, 25.0], rtol=1e-14)

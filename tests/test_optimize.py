@@ -17,7 +17,7 @@ BASE = {
     "duct": {"model": "lumped", "jet_loss_factor": 1.3, "freestream_assist": 0.9},
     "fan": {"model": "constant", "efficiency": 0.7, "motor_efficiency": 0.9,
             "min_pressure_rise": "1 Pa", "max_pressure_rise": "50 kPa"},
-    "airfoil": {"drag_clean": 0.01, "slot_drag": 0.02, "thrust_leverage": -1.5,
+    "airfoil": {"drag_clean": 0.01, "slot_drag": 0.02, "drag_per_momentum": -1.5,
                 "momentum_coefficient_range": [0.001, 0.5]},
     "propulsion": {"chain_efficiency": 0.8},
     "segment": [{"name": "a", "altitude": "0 m", "speed": "30 m/s", "duration": "1 h"},
@@ -37,7 +37,7 @@ def _case(**changes):
 
 @pytest.mark.parametrize("changes", [
     {},
-    {"duct__jet_loss_factor": 1.6, "airfoil__thrust_leverage": -2.0, "slot__ratio": 0.006},
+    {"duct__jet_loss_factor": 1.6, "airfoil__drag_per_momentum": -2.0, "slot__ratio": 0.006},
     {"duct__freestream_assist": 0.4, "fan__efficiency": 0.55, "airfoil__slot_drag": 0.01},
     {"slot__ratio": 0.02, "propulsion__chain_efficiency": 0.6, "fan__motor_efficiency": 0.95},
 ])
@@ -50,9 +50,9 @@ def test_lumped_optimum_matches_closed_form(changes):
     r, kj = case.slot["ratio"], case.duct["jet_loss_factor"]
     k1, k2 = duct.lumped_coefficients(kj, case.duct["freestream_assist"], r)
     eta = case.fan["efficiency"] * case.fan["motor_efficiency"] / case.propulsion["chain_efficiency"]
-    c_star = power.lumped_optimum(k1, k2, case.airfoil["thrust_leverage"], eta)
+    c_star = power.lumped_optimum(k1, k2, case.airfoil["drag_per_momentum"], eta)
     s_star = power.lumped_net_saving(c_star, k1, k2, case.airfoil["slot_drag"],
-                                     case.airfoil["thrust_leverage"], eta)
+                                     case.airfoil["drag_per_momentum"], eta)
     for i, seg in enumerate(case.segments):
         rho = atmosphere.isa(seg["altitude"]).density
         scale = 0.5 * rho * seg["speed"] ** 3 * case.wing["chord"] * case.wing["blown_span"]
@@ -81,7 +81,7 @@ def test_independent_hand_calculation_of_one_segment():
     assert seg["required_pressure_rise_Pa"] == pytest.approx(dp, rel=1e-12)
     assert seg["fan_pressure_rise_Pa"] == pytest.approx(dp, rel=1e-6)
     assert seg["fan_shaft_power_W"] == pytest.approx(shaft, rel=1e-6)
-    assert seg["drag_N"] == pytest.approx(drag, rel=1e-12)
+    assert seg["section_drag_N"] == pytest.approx(drag, rel=1e-12)
     assert seg["net_power_saving_W"] == pytest.approx(net, rel=1e-6)
     assert seg["energy_saving_J"] == pytest.approx(net * 7200.0, rel=1e-6)
 

@@ -105,7 +105,7 @@ def test_lumped_closed_form_and_envelope(fixed_slot):
     a, d, f, p = case.airfoil, case.duct, case.fan, case.propulsion
     k1, k2 = duct.lumped_coefficients(d["jet_loss_factor"], d["freestream_assist"], r)
     k3 = a["slot_drag"] + a["slot_drag_per_ratio"] * r
-    beta = a["thrust_leverage"] + a["thrust_leverage_per_ratio"] * r
+    beta = a["drag_per_momentum"] + a["drag_per_momentum_per_ratio"] * r
     eta = f["efficiency"] * f["motor_efficiency"] / p["chain_efficiency"]
     c = float(power.lumped_optimum(k1, k2, beta, eta))
     lo, hi = a["momentum_coefficient_range"]
@@ -119,7 +119,7 @@ def test_lumped_closed_form_and_envelope(fixed_slot):
     def expected_at(c):
         ideal = k1 * c ** 1.5 - k2 * c ** 0.5
         return {
-            "airfoil.thrust_leverage": float(np.sum(scales * -c)),
+            "airfoil.drag_per_momentum": float(np.sum(scales * -c)),
             "duct.jet_loss_factor": float(np.sum(scales * -(c ** 1.5) / (2 * np.sqrt(2 * r)) / eta)),
             "duct.freestream_assist": float(np.sum(scales * np.sqrt(r / 2) * c ** 0.5 / eta)),
             "fan.efficiency": float(np.sum(scales * ideal / eta ** 2 * f["motor_efficiency"]
@@ -146,8 +146,8 @@ def test_lumped_closed_form_and_envelope(fixed_slot):
 
 
 @pytest.mark.parametrize("which,keys", [
-    ("survey", ["airfoil.thrust_leverage", "segment.survey.speed", "fan.efficiency"]),
-    ("coastal", ["airfoil.thrust_leverage", "duct.extra_loss", "segment.cruise.altitude"]),
+    ("survey", ["airfoil.drag_per_momentum", "segment.survey.speed", "fan.efficiency"]),
+    ("coastal", ["airfoil.drag_per_momentum", "duct.extra_loss", "segment.cruise.altitude"]),
 ])
 def test_post_optimal_derivatives_match_cold_reoptimization(which, keys, request):
     """dE*/dp from warm-started differences (step 1e-3) and from the multipliers against cold
@@ -186,15 +186,15 @@ def test_tornado_ends_and_basis(survey):
     """Tornado ends follow the stated spreads; the energies equal a direct chain evaluation."""
     case, out = survey
     rows = {r["parameter"]: r for r in S.tornado(case, out)}
-    t = rows["airfoil.thrust_leverage"]
-    beta = case.value("airfoil.thrust_leverage")
+    t = rows["airfoil.drag_per_momentum"]
+    beta = case.value("airfoil.drag_per_momentum")
     assert (t["low"], t["high"]) == pytest.approx((beta - 0.15, beta + 0.15))
     assert rows["fan.efficiency"]["low"] == 0.62 and rows["fan.efficiency"]["high"] == 0.76
     assert rows["wing.chord"]["low"] == pytest.approx(0.42 * 0.9)
     assert rows["fan.motor_efficiency"]["high"] == 1.0  # 0.92 * 1.1 clipped
     assert "clipped" in rows["fan.motor_efficiency"]["basis"]
     params = S.design_parameters(case, out)
-    params["thrust_leverage"] = np.asarray(beta + 0.15)
+    params["drag_per_momentum"] = np.asarray(beta + 0.15)
     direct = chain.evaluate(params, chain_options(case), blowing=case.blowing)
     assert t["energy_high_J"] == pytest.approx(float(direct["energy_saving"].sum()), rel=1e-12)
 
@@ -242,7 +242,7 @@ def test_break_even_map_against_closed_form_and_brute_force(survey):
                            2 * r * (case.slot["max_jet_mach"] * atm.speed_of_sound / seg["speed"]) ** 2)
                 k1, k2 = duct.lumped_coefficients(kj, case.duct["freestream_assist"], r)
                 k3 = a["slot_drag"] + a["slot_drag_per_ratio"] * r
-                beta = a["thrust_leverage"] + a["thrust_leverage_per_ratio"] * r
+                beta = a["drag_per_momentum"] + a["drag_per_momentum_per_ratio"] * r
                 ref = float(power.break_even_lumped(k1, k2, k3, beta, cmin, cmax)) \
                     * p["chain_efficiency"] / f["motor_efficiency"]
                 got = m["efficiency"][iy, ix, i]
@@ -266,7 +266,7 @@ def test_break_even_map_against_closed_form_and_brute_force(survey):
                     assert abs(best[1]) < 1e-6 * abs(ref_power)
     assert checked > 30
     maps = W.review_maps(case, out, points=5)
-    assert [mm["y_key"] for mm in maps] == ["duct.jet_loss_factor", "airfoil.thrust_leverage"]
+    assert [mm["y_key"] for mm in maps] == ["duct.jet_loss_factor", "airfoil.drag_per_momentum"]
 
 
 def test_monte_carlo_against_direct_calculation_and_seed(survey, coastal):
@@ -283,7 +283,7 @@ def test_monte_carlo_against_direct_calculation_and_seed(survey, coastal):
     k1, k2 = duct.lumped_coefficients(col["duct.jet_loss_factor"], case.duct["freestream_assist"], r)
     k3 = a["slot_drag"] + a["slot_drag_per_ratio"] * r
     eta = col["fan.efficiency"] * f["motor_efficiency"] / p["chain_efficiency"]
-    beta = col["airfoil.thrust_leverage"] + a["thrust_leverage_per_ratio"] * r
+    beta = col["airfoil.drag_per_momentum"] + a["drag_per_momentum_per_ratio"] * r
     e = sum(_scale(case, i) * power.lumped_net_saving(out.values["momentum_coefficient"][i], k1, k2,
                                                       k3, beta, eta)
             for i in range(3))
@@ -291,7 +291,7 @@ def test_monte_carlo_against_direct_calculation_and_seed(survey, coastal):
     assert mc["probability_of_saving"] == np.count_nonzero(e > 0) / 3000
     for q in ("5", "50", "95"):
         assert mc["percentiles_J"][q] == pytest.approx(np.percentile(e, float(q)), rel=1e-10)
-    assert mc["dominant_input"] == "airfoil.thrust_leverage"
+    assert mc["dominant_input"] == "airfoil.drag_per_momentum"
     again = U.monte_carlo(case, out, samples=3000, seed=11)
     assert np.array_equal(again["energy_J"], mc["energy_J"])
     assert again["probability_of_saving"] == mc["probability_of_saving"]
@@ -324,11 +324,11 @@ def test_calibration_covariance_draws(survey):
     cov = [[0.0025, -0.0015, 0.0], [-0.0015, 0.0036, 0.0], [0.0, 0.0, 1e-6]]
     cal = {"constants": {}, "stderr": {},
            "covariance": {"parameters": ["duct.freestream_assist", "airfoil.slot_drag_per_ratio",
-                                         "airfoil.thrust_leverage"], "matrix": cov}}
+                                         "airfoil.drag_per_momentum"], "matrix": cov}}
     c2 = case.replace({})
     c2.calibration = cal
     specs = U.uncertain_inputs(c2)
-    assert specs["airfoil.thrust_leverage"]["distribution"] == "normal"  # the table wins
+    assert specs["airfoil.drag_per_momentum"]["distribution"] == "normal"  # the table wins
     assert specs["duct.freestream_assist"]["distribution"] == "calibration"
     keys, x, _ = U.draw_samples(c2, 40000, 5)
     i, j = keys.index("duct.freestream_assist"), keys.index("airfoil.slot_drag_per_ratio")
@@ -349,7 +349,7 @@ def test_cli_end_to_end(tmp_path):
                 "elasticity"} <= set(row)
     keys = {r["parameter"] for r in data["sensitivities"]}
     assert {"duct.jet_loss_factor", "duct.freestream_assist", "airfoil.drag_clean",
-            "airfoil.slot_drag", "airfoil.thrust_leverage", "fan.efficiency",
+            "airfoil.slot_drag", "airfoil.drag_per_momentum", "fan.efficiency",
             "fan.motor_efficiency", "propulsion.chain_efficiency", "wing.chord",
             "segment.survey.speed", "segment.survey.altitude"} <= keys
     u = data["uncertainty"]

@@ -182,5 +182,6 @@ def test_component_defaults():
     prob.setup()
     prob.run_model()
     assert prob.get_val("station_area").shape == (33,)
-    assert prob.get_val("station_area")[-1] == pytest.approx(0.5 * 0.005, rel=1e-14)
+    # one fan (the default) on the default 1 m span: the slot is 1 m x 5 mm
+    assert prob.get_val("station_area")[-1] == pytest.approx(1.0 * 0.005, rel=1e-14)
     assert prob.get_val("diffusion_half_angle").shape == (32,)

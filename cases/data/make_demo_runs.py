@@ -26,8 +26,8 @@ TRUTH = {
     "airfoil.drag_clean": 0.0118,
     "airfoil.slot_drag": 0.0,
     "airfoil.slot_drag_per_ratio": 2.6,
-    "airfoil.thrust_leverage": -2.05,
-    "airfoil.thrust_leverage_per_ratio": 14.0,
+    "airfoil.drag_per_momentum": -2.05,
+    "airfoil.drag_per_momentum_per_ratio": 14.0,
     "airfoil.lift_per_momentum": 2.7,
 }
 #: Lift coefficient with the jet off (fit-only intercept, not a case constant).
@@ -97,7 +97,7 @@ def synthetic_runs(rng, truth=TRUTH, noise=NOISE, lift_jet_off=LIFT_JET_OFF, rep
             - truth["duct.freestream_assist"] * q)
     drag = (truth["airfoil.drag_clean"] + truth["airfoil.slot_drag"]
             + truth["airfoil.slot_drag_per_ratio"] * ratio
-            + (truth["airfoil.thrust_leverage"] + truth["airfoil.thrust_leverage_per_ratio"]
+            + (truth["airfoil.drag_per_momentum"] + truth["airfoil.drag_per_momentum_per_ratio"]
                * ratio) * cmu)
     lift = lift_jet_off + truth["airfoil.lift_per_momentum"] * cmu
     shape = (repeats, speed.size) if repeats > 1 else (speed.size,)

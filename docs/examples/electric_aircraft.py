@@ -76,7 +76,7 @@ WING = {
     "drag_clean": (0.011, None),
     "slot_drag": (0.012, None),
     "slot_drag_per_ratio": (1.0, None),
-    "thrust_leverage": (-1.7, None),
+    "drag_per_momentum": (-1.7, None),
 }
 SLOT_RATIO_BOUNDS = (0.004, 0.02)
 MIN_SLOT_HEIGHT = 0.002                  # [m]
@@ -219,9 +219,10 @@ def section_clean_drag(density, speed, chord, blown_span, drag_clean):
     """Drag of the unblown section over the same span [N]: ``q c b C_D,clean``."""
     q = 0.5 * density * speed ** 2
     drag = q * chord * blown_span * drag_clean
-    return {"drag": drag}, {("drag", "density"): drag / density, ("drag", "speed"): 2 * drag / speed,
-                            ("drag", "chord"): drag / chord, ("drag", "blown_span"): drag / blown_span,
-                            ("drag", "drag_clean"): q * chord * blown_span}
+    out = "section_drag"
+    return {out: drag}, {(out, "density"): drag / density, (out, "speed"): 2 * drag / speed,
+                         (out, "chord"): drag / chord, (out, "blown_span"): drag / blown_span,
+                         (out, "drag_clean"): q * chord * blown_span}
 
 
 class CleanSectionComp(_NodeComp):
@@ -230,7 +231,7 @@ class CleanSectionComp(_NodeComp):
     inputs = (("density", "kg/m**3", 1.2, True), ("speed", "m/s", 30.0, True),
               ("chord", "m", 0.6, False), ("blown_span", "m", 4.0, False),
               ("drag_clean", None, 0.011, False))
-    outputs = (("drag", "N"),)
+    outputs = (("section_drag", "N"),)
     function = staticmethod(section_clean_drag)
 
 
@@ -294,7 +295,7 @@ def build_aircraft(blown=True, net_thrust=True):
     model.add_subsystem("mission", MissionComp(num_nodes=n), promotes=["*"])
     if blown:
         # the blown wing: its promoted names (altitude, speed, duration, momentum_coefficient,
-        # fan_pressure_rise, chord, ...) join the aircraft's; 'density' and 'drag' come out of it
+        # fan_pressure_rise, chord, ...) join the aircraft's; 'density' and 'section_drag' come out of it
         model.add_subsystem("wing", BlownWingGroup(num_nodes=n), promotes=["*"])
         add_blowing_system_mass(model, num_nodes=n, duct_model="lumped")
         model.add_subsystem("pressure_balance", om.EQConstraintComp(
@@ -304,7 +305,7 @@ def build_aircraft(blown=True, net_thrust=True):
         model.add_subsystem("atmosphere", AtmosphereComp(num_nodes=n), promotes=["*"])
         model.add_subsystem("section", CleanSectionComp(num_nodes=n), promotes=["*"])
     model.add_subsystem("flight", FlightComp(num_nodes=n),
-                        promotes_inputs=[("section_drag", "drag"), "*"], promotes_outputs=["*"])
+                        promotes=["*"])
     model.add_subsystem("battery", BatteryComp(num_nodes=n), promotes=["*"])
     parts = ["empty_mass", "payload_mass", "battery_mass"] + (["blowing_system_mass"] if blown else [])
     expr = "mass_closure = takeoff_mass - (" + " + ".join(parts) + ")"
@@ -341,7 +342,7 @@ def build_aircraft(blown=True, net_thrust=True):
         model.add_constraint("jet_mach", upper=MAX_JET_MACH, ref=MAX_JET_MACH)
         model.add_constraint("slot_height", lower=MIN_SLOT_HEIGHT, ref=MIN_SLOT_HEIGHT)
         if not net_thrust:
-            model.add_constraint("drag", lower=0.0, ref=10.0)
+            model.add_constraint("section_drag", lower=0.0, ref=10.0)
     prob.driver = om.ScipyOptimizeDriver(optimizer="SLSQP", tol=1e-10, maxiter=300, disp=False)
     prob.setup()
     _set_values(prob, blown)
@@ -366,7 +367,7 @@ def _set_values(prob, blown):
         prob.set_val("fan_pressure_rise", np.clip(prob.get_val("required_pressure_rise", units="Pa"),
                                                   *PRESSURE_RISE_BOUNDS), units="Pa")
         prob.run_model()
-        prob.set_val("rated_shaft_power", 1.5 * np.max(prob.get_val("shaft_power", units="W")),
+        prob.set_val("rated_shaft_power", 1.5 * np.max(prob.get_val("fan_shaft_power", units="W")),
                      units="W")
 
 
@@ -387,7 +388,7 @@ def solve(blown=True, net_thrust=True):
         "duration_s": get("duration", "s").tolist(),
         "lift_coefficient": get("lift_coefficient").tolist(),
         "source_power_W": get("source_power", "W").tolist(),
-        "section_drag_N": get("drag", "N").tolist(),
+        "section_drag_N": get("section_drag", "N").tolist(),
     }
     if blown:
         out.update({
@@ -405,7 +406,7 @@ def solve(blown=True, net_thrust=True):
             # thrust-equivalent power of the drag saved per fan shaft power: above 1 the
             # calibration makes the blown span a better propulsor than an ideal propeller
             "saving_per_shaft_power": (get("drag_saving", "N") * get("speed", "m/s")
-                                       / get("shaft_power", "W")).tolist(),
+                                       / get("fan_shaft_power", "W")).tolist(),
         })
     return prob, out
 

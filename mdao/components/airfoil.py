@@ -14,8 +14,8 @@ AIRFOIL_CITE = """@incollection{englar2001,
 
 # Scalar calibration inputs of the drag model, in the order of physics.airfoil.drag_coefficient.
 _CONSTANTS = {'slot_ratio': 0.01, 'drag_clean': 0.012, 'slot_drag': 0.02,
-              'slot_drag_per_ratio': 0.0, 'thrust_leverage': -1.2,
-              'thrust_leverage_per_ratio': 0.0, 'drag_quadratic': 0.0}
+              'slot_drag_per_ratio': 0.0, 'drag_per_momentum': -1.2,
+              'drag_per_momentum_per_ratio': 0.0, 'drag_quadratic': 0.0}
 
 
 class AirfoilComp(om.ExplicitComponent):
@@ -40,24 +40,24 @@ class AirfoilComp(om.ExplicitComponent):
         self.add_input('blown_span', 1.0, units='m', desc='span with blowing')
         self.add_input('lift_per_momentum', 0.0, units=None, desc='dC_L/dC_mu')
         self.add_output('drag_coefficient', 0.0 * np.ones(n), units=None, desc='blown C_D')
-        self.add_output('drag', 0.0 * np.ones(n), units='N', desc='drag of the blown span')
-        self.add_output('clean_drag', 0.0 * np.ones(n), units='N', desc='drag if clean')
+        self.add_output('section_drag', 0.0 * np.ones(n), units='N', desc='drag of the blown span')
+        self.add_output('clean_section_drag', 0.0 * np.ones(n), units='N', desc='drag if clean')
         self.add_output('drag_saving', 0.0 * np.ones(n), units='N', desc='clean_drag - drag')
         self.add_output('lift_increment', 0.0 * np.ones(n), units=None, desc='lift coefficient gain')
 
     def setup_partials(self):
         n = self.options['num_nodes']
         nodes, zeros = np.arange(n), np.zeros(n, int)
-        for of in ('drag_coefficient', 'drag', 'drag_saving'):
+        for of in ('drag_coefficient', 'section_drag', 'drag_saving'):
             self.declare_partials(of, 'momentum_coefficient', rows=nodes, cols=nodes)
             for wrt in _CONSTANTS:
                 if not (of == 'drag_saving' and wrt == 'drag_clean'):   # it cancels exactly
                     self.declare_partials(of, wrt, rows=nodes, cols=zeros)
-        for of in ('drag', 'drag_saving'):
+        for of in ('section_drag', 'drag_saving'):
             self.declare_partials(of, 'dynamic_pressure', rows=nodes, cols=nodes)
             self.declare_partials(of, ['chord', 'blown_span'], rows=nodes, cols=zeros)
-        self.declare_partials('clean_drag', 'dynamic_pressure', rows=nodes, cols=nodes)
-        self.declare_partials('clean_drag', ['drag_clean', 'chord', 'blown_span'], rows=nodes,
+        self.declare_partials('clean_section_drag', 'dynamic_pressure', rows=nodes, cols=nodes)
+        self.declare_partials('clean_section_drag', ['drag_clean', 'chord', 'blown_span'], rows=nodes,
                               cols=zeros)
         self.declare_partials('lift_increment', 'momentum_coefficient', rows=nodes, cols=nodes)
         self.declare_partials('lift_increment', 'lift_per_momentum', rows=nodes, cols=zeros)
@@ -74,8 +74,8 @@ class AirfoilComp(om.ExplicitComponent):
         dcd = self._increment(inputs)
         area_q = inputs['dynamic_pressure'] * inputs['chord'][0] * inputs['blown_span'][0]
         outputs['drag_coefficient'] = inputs['drag_clean'][0] + dcd
-        outputs['drag'] = area_q * outputs['drag_coefficient']
-        outputs['clean_drag'] = area_q * inputs['drag_clean'][0]
+        outputs['section_drag'] = area_q * outputs['drag_coefficient']
+        outputs['clean_section_drag'] = area_q * inputs['drag_clean'][0]
         outputs['drag_saving'] = -area_q * dcd
         outputs['lift_increment'] = phys.lift_increment(inputs['momentum_coefficient'],
                                                         inputs['lift_per_momentum'][0])
@@ -87,14 +87,14 @@ class AirfoilComp(om.ExplicitComponent):
         area_q = q * c * b
         for wrt, value in dinc.items():     # d(C_D)/d(drag_clean) = 1 comes from phys as well
             partials['drag_coefficient', wrt] = value
-            partials['drag', wrt] = area_q * value
+            partials['section_drag', wrt] = area_q * value
             if wrt != 'drag_clean':
                 partials['drag_saving', wrt] = -area_q * value
-        for of, coef in (('drag', cd0 + inc), ('drag_saving', -inc), ('clean_drag', cd0)):
+        for of, coef in (('section_drag', cd0 + inc), ('drag_saving', -inc), ('clean_section_drag', cd0)):
             partials[of, 'dynamic_pressure'] = c * b * coef
             partials[of, 'chord'] = q * b * coef
             partials[of, 'blown_span'] = q * c * coef
-        partials['clean_drag', 'drag_clean'] = area_q
+        partials['clean_section_drag', 'drag_clean'] = area_q
         partials['lift_increment', 'momentum_coefficient'] = (
             inputs['lift_per_momentum'][0] * np.ones_like(q))
         partials['lift_increment', 'lift_per_momentum'] = inputs['momentum_coefficient']

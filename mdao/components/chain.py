@@ -17,16 +17,16 @@ NODE_INPUTS = ("altitude", "speed", "duration", "momentum_coefficient", "fan_pre
 WING_INPUTS = {"slot_ratio": 0.01, "chord": 0.5, "blown_span": 1.0, "jet_loss_factor": 1.3,
                "freestream_assist": 1.0, "fan_rated_efficiency": 0.7, "motor_efficiency": 0.9,
                "chain_efficiency": 0.8, "drag_clean": 0.012, "slot_drag": 0.02,
-               "slot_drag_per_ratio": 0.0, "thrust_leverage": -1.2,
-               "thrust_leverage_per_ratio": 0.0, "drag_quadratic": 0.0, "lift_per_momentum": 0.0}
+               "slot_drag_per_ratio": 0.0, "drag_per_momentum": -1.2,
+               "drag_per_momentum_per_ratio": 0.0, "drag_quadratic": 0.0, "lift_per_momentum": 0.0}
 UNITS = {"altitude": "m", "speed": "m/s", "duration": "s", "fan_pressure_rise": "Pa",
          "chord": "m", "blown_span": "m"}
 #: Outputs with units: the same names as the per-discipline components'.
 OUTPUTS = {"temperature": "K", "pressure": "Pa", "density": "kg/m**3", "speed_of_sound": "m/s",
            "viscosity": "Pa*s", "dynamic_pressure": "Pa", "jet_velocity": "m/s",
            "mass_flow": "kg/s", "volume_flow": "m**3/s", "jet_mach": None,
-           "required_pressure_rise": "Pa", "fan_efficiency": None, "shaft_power": "W",
-           "drag_coefficient": None, "drag": "N", "clean_drag": "N", "drag_saving": "N",
+           "required_pressure_rise": "Pa", "fan_efficiency": None, "fan_shaft_power": "W",
+           "drag_coefficient": None, "section_drag": "N", "clean_section_drag": "N", "drag_saving": "N",
            "lift_increment": None, "propulsion_power_saving": "W", "fan_electric_power": "W",
            "net_power_saving": "W", "energy_saving": "J"}
 
@@ -164,13 +164,13 @@ class ChainComp(om.ExplicitComponent):
             keys = ("volume_flow", "pressure_rise", "efficiency")
         if derivatives:
             res = (res[0], {n_: res[1][k] for n_, k in zip(names, keys)})
-        step(["shaft_power"], [res[0] if derivatives else res],
+        step(["fan_shaft_power"], [res[0] if derivatives else res],
              [res[1] if derivatives else None], names)
 
         # The blown increment (slot penalty plus blowing) alone, so that the drag saving does
         # not depend on the clean drag even by round-off.
         cd_in = ("momentum_coefficient", "slot_ratio", "slot_drag", "slot_drag_per_ratio",
-                 "thrust_leverage", "thrust_leverage_per_ratio", "drag_quadratic")
+                 "drag_per_momentum", "drag_per_momentum_per_ratio", "drag_quadratic")
         args = [x.get(k, w.get(k)) for k in cd_in]
         res = airfoil.drag_coefficient(args[0], args[1], 0.0, *args[2:], derivatives=derivatives)
         step(["blown_increment"], [res[0] if derivatives else res],
@@ -179,8 +179,8 @@ class ChainComp(om.ExplicitComponent):
         q = val["dynamic_pressure"]
         inc = val["blown_increment"]
         val["drag_coefficient"] = w["drag_clean"] + inc
-        val["drag"] = q * area * val["drag_coefficient"]
-        val["clean_drag"] = q * area * w["drag_clean"]
+        val["section_drag"] = q * area * val["drag_coefficient"]
+        val["clean_section_drag"] = q * area * w["drag_clean"]
         val["drag_saving"] = -q * area * inc
         lift = airfoil.lift_increment(x["momentum_coefficient"], w["lift_per_momentum"])
         val["lift_increment"] = lift + 0.0 * q
@@ -188,9 +188,9 @@ class ChainComp(om.ExplicitComponent):
             cd = val["drag_coefficient"]
             tan["area"] = {"chord": w["blown_span"], "blown_span": w["chord"]}
             tan["drag_coefficient"] = _combine({"blown_increment": 1.0, "drag_clean": 1.0}, tan)
-            tan["drag"] = _combine({"dynamic_pressure": area * cd, "area": q * cd,
+            tan["section_drag"] = _combine({"dynamic_pressure": area * cd, "area": q * cd,
                                     "drag_coefficient": q * area}, tan)
-            tan["clean_drag"] = _combine({"dynamic_pressure": area * w["drag_clean"],
+            tan["clean_section_drag"] = _combine({"dynamic_pressure": area * w["drag_clean"],
                                           "area": q * w["drag_clean"], "drag_clean": q * area},
                                          tan)
             tan["drag_saving"] = _combine({"dynamic_pressure": -area * inc, "area": -q * inc,
@@ -198,12 +198,11 @@ class ChainComp(om.ExplicitComponent):
             tan["lift_increment"] = {"momentum_coefficient": w["lift_per_momentum"] + 0.0 * q,
                                      "lift_per_momentum": x["momentum_coefficient"] + 0.0 * q}
 
-        p_in = ("drag_saving", "speed", "shaft_power", "chain_efficiency", "motor_efficiency")
+        p_in = ("drag_saving", "speed", "fan_shaft_power", "chain_efficiency", "motor_efficiency")
         args = [val.get(k, x.get(k, w.get(k))) for k in p_in]
         res = power.segment_power(*args, blowing=self._blowing(), derivatives=derivatives)
-        outs = ("propulsion_saving", "fan_electric", "net")
         names = ("propulsion_power_saving", "fan_electric_power", "net_power_saving")
-        for i, (key, name) in enumerate(zip(outs, names)):
+        for i, (key, name) in enumerate(zip(names, names)):
             val[name] = res[i]
             if derivatives:
                 d = res[3]

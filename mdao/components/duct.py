@@ -1,6 +1,6 @@
 """Duct loss component: the fan pressure rise the jet requires (wraps :mod:`mdao.physics.duct`).
 
-``model='lumped'`` takes the jet loss factor as an input; ``model='geometric'`` builds it at
+``duct_model="lumped"`` takes the jet loss factor as an input; ``duct_model="geometric"`` builds it at
 each node from the transition stations, friction and form losses.
 """
 import numpy as np
@@ -23,9 +23,9 @@ class DuctLossComp(om.ExplicitComponent):
 
     def initialize(self):
         self.options.declare("num_nodes", types=int, default=1, lower=1, desc="operating points")
-        self.options.declare("model", default="lumped", values=("lumped", "geometric"),
+        self.options.declare("duct_model", default="lumped", values=("lumped", "geometric"),
                              desc="lumped: K_j given; geometric: K_j from the duct's geometry")
-        self.options.declare("fans", types=int, default=2, lower=1, desc="number of fans")
+        self.options.declare("fans", types=int, default=1, lower=1, desc="number of fans")
         self.options.declare("stations", types=int, default=33, lower=3,
                              desc="transition stations (geometric)")
 
@@ -36,7 +36,7 @@ class DuctLossComp(om.ExplicitComponent):
         self.add_input("density", val=1.225 * np.ones(n), units="kg/m**3")
         self.add_input("jet_velocity", val=50.0 * np.ones(n), units="m/s")
         self.add_input("dynamic_pressure", val=1000.0 * np.ones(n), units="Pa")
-        if self.options["model"] == "lumped":
+        if self.options["duct_model"] == "lumped":
             self.add_input("jet_loss_factor", val=1.3, desc="K_j")
         else:
             self.add_input("volume_flow", val=0.12 * np.ones(n), units="m**3/s",
@@ -62,7 +62,7 @@ class DuctLossComp(om.ExplicitComponent):
         for wrt in ("density", "jet_velocity", "dynamic_pressure"):
             self.declare_partials(of, wrt, rows=diagonal(n)[0], cols=diagonal(n)[1])
         self.declare_partials(of, "freestream_assist", rows=column(n)[0], cols=column(n)[1])
-        if self.options["model"] == "lumped":
+        if self.options["duct_model"] == "lumped":
             self.declare_partials(of, "jet_loss_factor", rows=column(n)[0], cols=column(n)[1])
             return
         rows_d, cols_d = diagonal(n)
@@ -88,7 +88,7 @@ class DuctLossComp(om.ExplicitComponent):
             derivatives=derivatives)
 
     def compute(self, inputs, outputs):
-        if self.options["model"] == "lumped":
+        if self.options["duct_model"] == "lumped":
             kj = inputs["jet_loss_factor"]
         else:
             kj = self._loss_factor(inputs)
@@ -100,7 +100,7 @@ class DuctLossComp(om.ExplicitComponent):
     def compute_partials(self, inputs, partials):
         n = self.options["num_nodes"]
         of = "required_pressure_rise"
-        lumped = self.options["model"] == "lumped"
+        lumped = self.options["duct_model"] == "lumped"
         kj, dk = (inputs["jet_loss_factor"], None) if lumped else self._loss_factor(inputs, True)
         _, d = duct.required_pressure_rise(kj, inputs["freestream_assist"], inputs["density"],
                                            inputs["jet_velocity"], inputs["dynamic_pressure"],

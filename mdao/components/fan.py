@@ -35,7 +35,7 @@ class FanComp(om.ExplicitComponent):
 
     def initialize(self):
         self.options.declare('num_nodes', types=int, default=1, lower=1, desc='operating points')
-        self.options.declare('model', default='constant', values=('constant', 'map'),
+        self.options.declare('fan_model', default='constant', values=('constant', 'map'),
                              desc="'constant' efficiency, or a quadratic 'map' with efficiency "
                                   "parabola")
         self.options.declare('fans', types=int, default=1, lower=1,
@@ -53,8 +53,8 @@ class FanComp(om.ExplicitComponent):
         self.add_input('temperature', 288.15 * ones, units='K', desc='inlet total temperature')
         self.add_input('speed_of_sound', 340.294 * ones, units='m/s', desc='inlet speed of sound')
         self.add_output('fan_efficiency', 0.7 * ones, units=None, desc='fan efficiency')
-        self.add_output('shaft_power', 100.0 * ones, units='W', desc='shaft power of all fans')
-        if self.options['model'] == 'constant':
+        self.add_output('fan_shaft_power', 100.0 * ones, units='W', desc='shaft power of all fans')
+        if self.options['fan_model'] == 'constant':
             self.add_input('fan_rated_efficiency', 0.7, units=None, desc='constant fan efficiency')
             return
         self.add_input('fan_diameter', 0.08, units='m', desc='fan diameter')
@@ -63,7 +63,7 @@ class FanComp(om.ExplicitComponent):
         self.add_input('peak_efficiency', 0.75, units=None, desc='best fan efficiency')
         self.add_input('peak_flow_coefficient', 0.3, units=None, desc='phi at best efficiency')
         self.add_input('efficiency_falloff', 0.8, units=None, desc='efficiency parabola falloff')
-        self.add_output('fan_speed', 450.0 * ones, units='1/s', desc='shaft speed, rev/s')
+        self.add_output('fan_speed', 450.0 * ones, units='rev/s', desc='shaft speed')
         self.add_output('flow_coefficient', 0.2 * ones, units=None, desc='Q_fan / (N D^3)')
         self.add_output('pressure_coefficient', 0.6 * ones, units=None, desc='dp / (rho N^2 D^2)')
         self.add_output('tip_mach', 0.3 * ones, units=None, desc='pi N D / a')
@@ -86,10 +86,10 @@ class FanComp(om.ExplicitComponent):
             self.declare_partials(of, wrt, rows=nodes, cols=nodes)
 
     def setup_partials(self):
-        if self.options['model'] == 'constant':
+        if self.options['fan_model'] == 'constant':
             self._declare('fan_efficiency', 'fan_rated_efficiency')
             for wrt in self._power_inputs() + ['fan_rated_efficiency']:
-                self._declare('shaft_power', wrt)
+                self._declare('fan_shaft_power', wrt)
             return
         for of in ('fan_speed', 'flow_coefficient', 'pressure_coefficient', 'tip_mach'):
             for wrt in _SPEED_INPUTS:
@@ -98,14 +98,14 @@ class FanComp(om.ExplicitComponent):
         for wrt in _SPEED_INPUTS + _EFFICIENCY_INPUTS:
             self._declare('fan_efficiency', wrt)
         for wrt in dict.fromkeys(_SPEED_INPUTS + _EFFICIENCY_INPUTS + tuple(self._power_inputs())):
-            self._declare('shaft_power', wrt)
+            self._declare('fan_shaft_power', wrt)
 
     def _evaluate(self, inputs):
         """Outputs and their partials as dicts {output: {input: array (n,) or (n, 3)}}."""
         n = self.options['num_nodes']
         q, dp, rho = inputs['volume_flow'], inputs['fan_pressure_rise'], inputs['density']
         out, jac = {}, {}
-        if self.options['model'] == 'constant':
+        if self.options['fan_model'] == 'constant':
             eta = np.full(n, inputs['fan_rated_efficiency'][0])
             out['fan_efficiency'] = eta
             jac['fan_efficiency'] = {'fan_rated_efficiency': np.ones(n)}
@@ -145,8 +145,8 @@ class FanComp(om.ExplicitComponent):
         else:
             power, dp_ = phys.shaft_power(q, dp, eta, derivatives=True)
             direct = {'volume_flow': dp_['volume_flow'], 'fan_pressure_rise': dp_['pressure_rise']}
-        out['shaft_power'] = power
-        jac['shaft_power'] = _chain(deta, dp_['efficiency'], direct)
+        out['fan_shaft_power'] = power
+        jac['fan_shaft_power'] = _chain(deta, dp_['efficiency'], direct)
         return out, jac
 
     def compute(self, inputs, outputs):

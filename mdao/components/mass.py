@@ -39,7 +39,7 @@ _SCALARS = (("rated_shaft_power", "W", 500.0, "rated shaft power of all fans"),
 class BlowingSystemMassComp(om.ExplicitComponent):
     """Installed mass of the fans, motors and ducts, and the rated-power headroom per node.
 
-    Inputs: ``rated_shaft_power`` [W], ``shaft_power`` [W] per node, the specific powers
+    Inputs: ``rated_shaft_power`` [W], ``fan_shaft_power`` [W] per node, the specific powers
     [W/kg], ``duct_areal_density`` [kg/m**2], ``installation_factor``, ``power_margin``,
     ``extra_wetted_area`` [m**2]; lumped duct: ``chord`` [m], ``blown_span`` [m],
     ``duct_wetted_ratio``; geometric duct: ``station_position`` [m] and ``station_perimeter`` [m]
@@ -68,7 +68,7 @@ class BlowingSystemMassComp(om.ExplicitComponent):
         n = self.options["num_nodes"]
         for name, units, value, desc in _SCALARS:
             self.add_input(name, val=value, units=units, desc=desc)
-        self.add_input("shaft_power", val=np.zeros(n), units="W", desc="fan shaft power per node")
+        self.add_input("fan_shaft_power", val=np.zeros(n), units="W", desc="fan shaft power per node")
         if self.options["duct_model"] == "lumped":
             self.add_input("chord", val=0.5, units="m", desc="chord of the blown section")
             self.add_input("blown_span", val=1.0, units="m", desc="span with blowing")
@@ -105,7 +105,7 @@ class BlowingSystemMassComp(om.ExplicitComponent):
                               rows=rows, cols=cols)
         on = np.flatnonzero(self._blowing())
         if on.size:
-            self.declare_partials("power_headroom", "shaft_power", rows=on, cols=on)
+            self.declare_partials("power_headroom", "fan_shaft_power", rows=on, cols=on)
 
     def _area(self, inputs, derivatives=False):
         """Wetted area and its partials {input: value or array}."""
@@ -140,7 +140,7 @@ class BlowingSystemMassComp(om.ExplicitComponent):
             rot, area, inputs["duct_areal_density"][0], inputs["installation_factor"][0])
         on = self._blowing()
         outputs["power_headroom"] = phys.power_headroom(
-            inputs["rated_shaft_power"][0], np.where(on, inputs["shaft_power"], 0.0),
+            inputs["rated_shaft_power"][0], np.where(on, inputs["fan_shaft_power"], 0.0),
             inputs["power_margin"][0])
 
     def compute_partials(self, inputs, partials):
@@ -162,12 +162,12 @@ class BlowingSystemMassComp(om.ExplicitComponent):
         partials["blowing_system_mass", "installation_factor"] = d_m["installation_factor"]
         on = self._blowing()
         _, d_h = phys.power_headroom(inputs["rated_shaft_power"][0],
-                                     np.where(on, inputs["shaft_power"], 0.0),
+                                     np.where(on, inputs["fan_shaft_power"], 0.0),
                                      inputs["power_margin"][0], derivatives=True)
         partials["power_headroom", "rated_shaft_power"] = broadcast(d_h["rated_shaft_power"], n)
         partials["power_headroom", "power_margin"] = broadcast(d_h["power_margin"], n)
         if on.any():
-            partials["power_headroom", "shaft_power"] = broadcast(d_h["shaft_power"], n)[on]
+            partials["power_headroom", "fan_shaft_power"] = broadcast(d_h["fan_shaft_power"], n)[on]
 
 
 def add_blowing_system_mass(model, case=None, name="blowing_mass", **options):

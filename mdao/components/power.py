@@ -6,16 +6,15 @@ from mdao import om
 from mdao.components._sparsity import blowing_flags, broadcast, column, diagonal
 from mdao.physics import power
 
-OUTPUTS = {"propulsion_saving": "propulsion_power_saving", "fan_electric": "fan_electric_power",
-           "net": "net_power_saving"}
-NODE_INPUTS = ("drag_saving", "speed", "shaft_power")
+POWER_OUTPUTS = ("propulsion_power_saving", "fan_electric_power", "net_power_saving")
+NODE_INPUTS = ("drag_saving", "speed", "fan_shaft_power")
 WING_INPUTS = ("chain_efficiency", "motor_efficiency")
 
 
 class SegmentPowerComp(om.ExplicitComponent):
     """Power saved by the drag saving, fan electrical power, net power and energy per segment."""
 
-    cite = "Net power at the source; DESIGN.md section 2 (this project)."
+    cite = "Net power at the source: docs/theory.md, segment power (this project)."
 
     def initialize(self):
         self.options.declare("num_nodes", types=int, default=1, lower=1, desc="segments")
@@ -29,11 +28,11 @@ class SegmentPowerComp(om.ExplicitComponent):
         n = self.options["num_nodes"]
         self.add_input("drag_saving", val=np.ones(n), units="N", desc="clean minus blown drag")
         self.add_input("speed", val=40.0 * np.ones(n), units="m/s")
-        self.add_input("shaft_power", val=np.zeros(n), units="W", desc="fan shaft power")
+        self.add_input("fan_shaft_power", val=np.zeros(n), units="W", desc="fan shaft power")
         self.add_input("duration", val=3600.0 * np.ones(n), units="s", desc="segment duration")
         self.add_input("chain_efficiency", val=0.8, desc="source-to-thrust-power efficiency")
         self.add_input("motor_efficiency", val=0.9, desc="fan motor and drive efficiency")
-        for name in OUTPUTS.values():
+        for name in POWER_OUTPUTS:
             self.add_output(name, val=np.zeros(n), units="W")
         self.add_output("energy_saving", val=np.zeros(n), units="J")
         self.add_output("mission_energy_saving", val=0.0, units="J")
@@ -44,8 +43,8 @@ class SegmentPowerComp(om.ExplicitComponent):
         self._pairs = sorted(d)
         for key, wrt in self._pairs:
             rows, cols = column(n) if wrt in WING_INPUTS else diagonal(n)
-            self.declare_partials(OUTPUTS[key], wrt, rows=rows, cols=cols)
-            if key == "net":
+            self.declare_partials(key, wrt, rows=rows, cols=cols)
+            if key == "net_power_saving":
                 self.declare_partials("energy_saving", wrt, rows=rows, cols=cols)
                 if wrt in WING_INPUTS:
                     self.declare_partials("mission_energy_saving", wrt)
@@ -58,7 +57,7 @@ class SegmentPowerComp(om.ExplicitComponent):
                               cols=np.arange(n))
 
     def _physics(self, inputs, derivatives=False):
-        return power.segment_power(inputs["drag_saving"], inputs["speed"], inputs["shaft_power"],
+        return power.segment_power(inputs["drag_saving"], inputs["speed"], inputs["fan_shaft_power"],
                                    inputs["chain_efficiency"], inputs["motor_efficiency"],
                                    blowing=self._blowing(), derivatives=derivatives)
 
@@ -77,8 +76,8 @@ class SegmentPowerComp(om.ExplicitComponent):
         t = inputs["duration"]
         for key, wrt in self._pairs:
             value = broadcast(d[key, wrt], n)
-            partials[OUTPUTS[key], wrt] = value
-            if key == "net":
+            partials[key, wrt] = value
+            if key == "net_power_saving":
                 partials["energy_saving", wrt] = value * t
                 total = value * t
                 partials["mission_energy_saving", wrt] = (total.sum() if wrt in WING_INPUTS

@@ -36,7 +36,7 @@ class TransitionComp(om.ExplicitComponent):
     def initialize(self):
         self.options.declare("num_nodes", types=int, default=1, lower=1,
                              desc="operating points (accepted; the duct is wing-level)")
-        self.options.declare("fans", types=int, default=2, lower=1, desc="fans along the blown span")
+        self.options.declare("fans", types=int, default=1, lower=1, desc="fans along the blown span")
         self.options.declare("stations", types=int, default=33, lower=3, desc="stations along the duct")
         self.options.declare("schedule", default="monotone-area", values=SCHEDULES,
                              desc="section schedule along the duct")

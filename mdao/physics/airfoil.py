@@ -6,7 +6,7 @@ At the segment's lift, the section drag coefficient is
     C_D = C_{D,clean} + \Delta C_{D,slot}(r_s) + \beta(r_s)\,C_\mu + k_2 C_\mu^2
 
 with the slotted-shape penalty :math:`\Delta C_{D,slot} = s_0 + s_1 r_s` and the thrust
-leverage :math:`\beta = \beta_0 + \beta_1 r_s` (negative: blowing reduces drag, below -1 when the
+drag per momentum coefficient :math:`\beta = \beta_0 + \beta_1 r_s` (negative: blowing reduces drag, below -1 when the
 section gains more than a free jet of the same momentum would give). The constants come from a
 calibration against the user's CFD or wind-tunnel data, valid over the calibrated range of
 :math:`C_\mu` and :math:`r_s` only.
@@ -23,7 +23,7 @@ References
 import numpy as np
 
 
-def slot_penalty(slot_ratio, slot_drag, slot_drag_per_ratio):
+def slot_drag_at(slot_ratio, slot_drag, slot_drag_per_ratio):
     r"""Drag penalty of the slotted shape, :math:`\Delta C_{D,slot} = s_0 + s_1 r_s`.
 
     Parameters
@@ -46,28 +46,28 @@ def slot_penalty(slot_ratio, slot_drag, slot_drag_per_ratio):
 
     Examples
     --------
-    >>> round(float(slot_penalty(0.01, 0.02, 0.5)), 12)
+    >>> round(float(slot_drag_at(0.01, 0.02, 0.5)), 12)
     0.025
     """
     return np.asarray(slot_drag, float) + np.asarray(slot_drag_per_ratio, float) * slot_ratio
 
 
-def thrust_leverage_at(slot_ratio, thrust_leverage, thrust_leverage_per_ratio):
-    r"""Thrust leverage :math:`\beta = \beta_0 + \beta_1 r_s`, i.e. dC_D/dC_mu of the linear term.
+def drag_per_momentum_at(slot_ratio, drag_per_momentum, drag_per_momentum_per_ratio):
+    r"""Drag per momentum coefficient :math:`\beta = \beta_0 + \beta_1 r_s`, i.e. dC_D/dC_mu of the linear term.
 
     Parameters
     ----------
     slot_ratio : array_like
         Injection slot height over chord, [-].
-    thrust_leverage : array_like
-        Leverage at zero slot ratio, [-] (negative).
-    thrust_leverage_per_ratio : array_like
-        Change of the leverage per unit slot ratio, [-].
+    drag_per_momentum : array_like
+        Drag per momentum coefficient at zero slot ratio, [-] (negative).
+    drag_per_momentum_per_ratio : array_like
+        Change of the drag per momentum coefficient per unit slot ratio, [-].
 
     Returns
     -------
     ndarray
-        Thrust leverage, [-].
+        Drag per momentum coefficient, [-].
 
     References
     ----------
@@ -75,15 +75,15 @@ def thrust_leverage_at(slot_ratio, thrust_leverage, thrust_leverage_per_ratio):
 
     Examples
     --------
-    >>> round(float(thrust_leverage_at(0.01, -1.2, 10.0)), 12)
+    >>> round(float(drag_per_momentum_at(0.01, -1.2, 10.0)), 12)
     -1.1
     """
-    return (np.asarray(thrust_leverage, float)
-            + np.asarray(thrust_leverage_per_ratio, float) * slot_ratio)
+    return (np.asarray(drag_per_momentum, float)
+            + np.asarray(drag_per_momentum_per_ratio, float) * slot_ratio)
 
 
 def drag_coefficient(momentum_coefficient, slot_ratio, drag_clean, slot_drag, slot_drag_per_ratio,
-                     thrust_leverage, thrust_leverage_per_ratio, drag_quadratic=0.0,
+                     drag_per_momentum, drag_per_momentum_per_ratio, drag_quadratic=0.0,
                      derivatives=False):
     r"""Section drag coefficient of the blown airfoil (negative = net thrust).
 
@@ -100,8 +100,8 @@ def drag_coefficient(momentum_coefficient, slot_ratio, drag_clean, slot_drag, sl
         Drag coefficient of the clean (unslotted) section at the same lift, [-].
     slot_drag, slot_drag_per_ratio : array_like
         Slotted-shape penalty intercept and slope in slot ratio, [-].
-    thrust_leverage, thrust_leverage_per_ratio : array_like
-        Thrust leverage intercept and slope in slot ratio, [-].
+    drag_per_momentum, drag_per_momentum_per_ratio : array_like
+        Drag per momentum coefficient, intercept and slope in slot ratio, [-].
     drag_quadratic : array_like
         Coefficient of C_mu^2, [-] (0 for the linear model).
     derivatives : bool
@@ -124,10 +124,10 @@ def drag_coefficient(momentum_coefficient, slot_ratio, drag_clean, slot_drag, sl
     cmu = np.asarray(momentum_coefficient, float)
     rs = np.asarray(slot_ratio, float)
     s1 = np.asarray(slot_drag_per_ratio, float)
-    b1 = np.asarray(thrust_leverage_per_ratio, float)
+    b1 = np.asarray(drag_per_momentum_per_ratio, float)
     k2 = np.asarray(drag_quadratic, float)
-    beta = thrust_leverage_at(rs, thrust_leverage, b1)
-    cd = (np.asarray(drag_clean, float) + slot_penalty(rs, slot_drag, s1) + beta * cmu
+    beta = drag_per_momentum_at(rs, drag_per_momentum, b1)
+    cd = (np.asarray(drag_clean, float) + slot_drag_at(rs, slot_drag, s1) + beta * cmu
           + k2 * cmu**2)
     if not derivatives:
         return cd
@@ -136,8 +136,8 @@ def drag_coefficient(momentum_coefficient, slot_ratio, drag_clean, slot_drag, sl
              'drag_clean': 1.0,
              'slot_drag': 1.0,
              'slot_drag_per_ratio': rs,
-             'thrust_leverage': cmu,
-             'thrust_leverage_per_ratio': rs * cmu,
+             'drag_per_momentum': cmu,
+             'drag_per_momentum_per_ratio': rs * cmu,
              'drag_quadratic': cmu**2}
     return cd, {key: np.broadcast_to(val, cd.shape).astype(float) for key, val in d_out.items()}
 

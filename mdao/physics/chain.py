@@ -15,7 +15,7 @@ from mdao.physics import airfoil, atmosphere, duct, fan, jet, power, transition
 
 #: Defaults for optional parameters (the same as the components' defaults).
 DEFAULTS = {
-    "slot_drag": 0.0, "slot_drag_per_ratio": 0.0, "thrust_leverage_per_ratio": 0.0,
+    "slot_drag": 0.0, "slot_drag_per_ratio": 0.0, "drag_per_momentum_per_ratio": 0.0,
     "drag_quadratic": 0.0, "lift_per_momentum": 0.0, "duration": 0.0, "extra_loss": 0.0,
     "suction_inlet_loss": 0.0, "bend_loss": 0.0, "roughness": 0.0,
 }
@@ -48,8 +48,8 @@ def evaluate(params, options=ChainOptions(), blowing=True):
         ``fan_rated_efficiency`` (constant fan) or the map's ``pressure_coefficients`` (3,),
         ``peak_efficiency``, ``peak_flow_coefficient``, ``efficiency_falloff``,
         ``fan_diameter``; ``motor_efficiency``, ``chain_efficiency``, ``drag_clean``,
-        ``slot_drag``, ``slot_drag_per_ratio``, ``thrust_leverage``,
-        ``thrust_leverage_per_ratio``, ``drag_quadratic``, ``lift_per_momentum``,
+        ``slot_drag``, ``slot_drag_per_ratio``, ``drag_per_momentum``,
+        ``drag_per_momentum_per_ratio``, ``drag_quadratic``, ``lift_per_momentum``,
         ``duration`` [s]. The geometric duct needs scalar geometry (one wing).
     options : ChainOptions
         Model choices.
@@ -121,21 +121,21 @@ def evaluate(params, options=ChainOptions(), blowing=True):
         ideal = fan.shaft_power_isentropic(js.mass_flow, dp, atm.pressure, atm.temperature, 1.0)
     else:
         ideal = fan.shaft_power(js.volume_flow, dp, 1.0)
-    out["ideal_power"] = ideal
+    out["air_power"] = ideal
     with np.errstate(divide="ignore", invalid="ignore"):
-        out["shaft_power"] = np.where(ideal > 0, ideal / eta, 0.0)
+        out["fan_shaft_power"] = np.where(ideal > 0, ideal / eta, 0.0)
 
     cd = airfoil.drag_coefficient(p["momentum_coefficient"], p["slot_ratio"], p["drag_clean"],
-                                  p["slot_drag"], p["slot_drag_per_ratio"], p["thrust_leverage"],
-                                  p["thrust_leverage_per_ratio"], p["drag_quadratic"])
+                                  p["slot_drag"], p["slot_drag_per_ratio"], p["drag_per_momentum"],
+                                  p["drag_per_momentum_per_ratio"], p["drag_quadratic"])
     area = np.asarray(p["chord"], float) * np.asarray(p["blown_span"], float)
     out["drag_coefficient"] = cd
-    out["drag"] = js.dynamic_pressure * area * cd
-    out["clean_drag"] = js.dynamic_pressure * area * np.asarray(p["drag_clean"], float)
-    out["drag_saving"] = out["clean_drag"] - out["drag"]
+    out["section_drag"] = js.dynamic_pressure * area * cd
+    out["clean_section_drag"] = js.dynamic_pressure * area * np.asarray(p["drag_clean"], float)
+    out["drag_saving"] = out["clean_section_drag"] - out["section_drag"]
     out["lift_increment"] = airfoil.lift_increment(p["momentum_coefficient"],
                                                    p["lift_per_momentum"])
-    prop, fan_el, net = power.segment_power(out["drag_saving"], p["speed"], out["shaft_power"],
+    prop, fan_el, net = power.segment_power(out["drag_saving"], p["speed"], out["fan_shaft_power"],
                                             p["chain_efficiency"], p["motor_efficiency"],
                                             blowing=blowing)
     out["propulsion_power_saving"] = prop

@@ -95,17 +95,32 @@ def ram_driven(required_rise):
 
 
 def lumped_coefficients(jet_loss_factor, freestream_assist, slot_ratio):
-    r"""Coefficients of the non-dimensional ideal fan power of the lumped model.
+    r"""Jet-head and ram-recovery coefficients of the lumped model's ideal fan power.
 
-    With power over :math:`\rho V^3 S/2`, the ideal fan power is
-    :math:`K_1 C_\mu^{3/2} - K_2 C_\mu^{1/2}` with
-    :math:`K_1 = K_j / (2\sqrt{2 r_s})` and :math:`K_2 = K_\infty \sqrt{r_s/2}`
-    (derived from :math:`Q = A_j V_j` and :func:`required_pressure_rise`).
+    With power over :math:`\rho V^3 S/2`, the ideal (air) fan power is
+    :math:`a_j C_\mu^{3/2} - a_r C_\mu^{1/2}` with the jet-head coefficient
+    :math:`a_j = K_j / (2\sqrt{2 r_s})` and the ram-recovery coefficient
+    :math:`a_r = K_\infty \sqrt{r_s/2}` (derived in docs/theory.md from :math:`Q = A_j V_j`
+    and :func:`required_pressure_rise`).
+
+    Parameters
+    ----------
+    jet_loss_factor : array_like
+        :math:`K_j`, [-] (>= 1).
+    freestream_assist : array_like
+        :math:`K_\infty`, [-] (>= 0).
+    slot_ratio : array_like
+        Injection slot height over chord :math:`r_s`, [-] (> 0).
+
+    Returns
+    -------
+    jet_head, ram_recovery : ndarray
+        :math:`a_j`, :math:`a_r`, [-].
 
     Examples
     --------
-    >>> k1, k2 = lumped_coefficients(1.0, 1.0, 0.02)
-    >>> float(k1), float(k2)
+    >>> jet_head, ram_recovery = lumped_coefficients(1.0, 1.0, 0.02)
+    >>> float(jet_head), float(ram_recovery)
     (2.5, 0.1)
     """
     kj = np.asarray(jet_loss_factor, float)

@@ -278,7 +278,7 @@ def blowing_system_mass(rotating, wetted_area, duct_areal_density, installation_
                   "installation_factor": bare + z}
 
 
-def power_headroom(rated_shaft_power, shaft_power, power_margin, derivatives=False):
+def power_headroom(rated_shaft_power, fan_shaft_power, power_margin, derivatives=False):
     r"""Rated shaft power left over at an operating point, [W]: ``rated - margin * shaft``.
 
     An optimizer that holds this at or above zero in every segment sizes the fans and motors for
@@ -290,7 +290,7 @@ def power_headroom(rated_shaft_power, shaft_power, power_margin, derivatives=Fal
     ----------
     rated_shaft_power : array_like
         Rated shaft power of all fans, [W].
-    shaft_power : array_like
+    fan_shaft_power : array_like
         Shaft power needed at the operating point, [W].
     power_margin : array_like
         Required rating over the need, [-], >= 1; typically 1.1-1.5 (common practice, no source).
@@ -302,7 +302,7 @@ def power_headroom(rated_shaft_power, shaft_power, power_margin, derivatives=Fal
     headroom : ndarray
         [W]; negative when the rating is too small.
     partials : dict
-        Only with ``derivatives``: ``{"rated_shaft_power", "shaft_power", "power_margin"}``.
+        Only with ``derivatives``: ``{"rated_shaft_power", "fan_shaft_power", "power_margin"}``.
 
     Examples
     --------
@@ -310,7 +310,7 @@ def power_headroom(rated_shaft_power, shaft_power, power_margin, derivatives=Fal
     250.0
     """
     r = np.asarray(rated_shaft_power, dtype=float)
-    p = np.asarray(shaft_power, dtype=float)
+    p = np.asarray(fan_shaft_power, dtype=float)
     k = np.asarray(power_margin, dtype=float)
     if np.any(~(k >= 1.0)):
         raise ValueError(f"power_margin must be >= 1; got {float(k[~(k >= 1.0)].ravel()[0])!r}")
@@ -318,4 +318,4 @@ def power_headroom(rated_shaft_power, shaft_power, power_margin, derivatives=Fal
     if not derivatives:
         return headroom
     z = 0.0 * headroom
-    return headroom, {"rated_shaft_power": 1.0 + z, "shaft_power": -k + z, "power_margin": -p + z}
+    return headroom, {"rated_shaft_power": 1.0 + z, "fan_shaft_power": -k + z, "power_margin": -p + z}

@@ -5,26 +5,27 @@ The drag that blowing saves is power saved at the main propulsor's source,
 :math:`\eta_{chain}`); the fan draws :math:`P_{shaft} / \eta_{motor}`. The net saving is their
 difference, and the segment energy is the net power times the segment's duration.
 
-Lumped model, closed forms (derived here from DESIGN.md section 2). With
-:math:`x = \sqrt{C_\mu}`, :math:`B = -\beta`, :math:`K_3 = \Delta C_{D,slot}` and the
-coefficients of :func:`mdao.physics.duct.lumped_coefficients`, the non-dimensional net saving
+Lumped model, closed forms (derived in docs/theory.md). With :math:`x = \sqrt{C_\mu}`,
+:math:`B = -\beta`, the slot-penalty coefficient :math:`s = \Delta C_{D,slot}` and the
+jet-head and ram-recovery coefficients :math:`a_j`, :math:`a_r` of
+:func:`mdao.physics.duct.lumped_coefficients`, the non-dimensional net saving
 (power over :math:`\rho V^3 S/2`, times :math:`\eta_{chain}`) is
 
 .. math::
-    s(x) = -K_3 + B x^2 - (K_1 x^3 - K_2 x)/\eta_{eff}, \qquad
+    n(x) = -s + B x^2 - (a_j x^3 - a_r x)/\eta_{eff}, \qquad
     \eta_{eff} = \eta_{fan}\eta_{motor}/\eta_{chain}.
 
-:math:`s'(x) = 0` gives :math:`3K_1 x^2 - 2B\eta_{eff} x - K_2 = 0`, whose positive root is the
+:math:`n'(x) = 0` gives :math:`3a_j x^2 - 2B\eta_{eff} x - a_r = 0`, whose positive root is the
 optimum (:func:`lumped_optimum`). The break-even efficiency is the least :math:`\eta_{eff}` for
-which :math:`\max_x s = 0`: :math:`\eta_{eff} = \min_x r(x)`,
-:math:`r = (K_1 x^3 - K_2 x)/(B x^2 - K_3)` over the points where both are positive;
+which :math:`\max_x n = 0`: :math:`\eta_{eff} = \min_x r(x)`,
+:math:`r = (a_j x^3 - a_r x)/(B x^2 - s)` over the points where both are positive;
 :math:`r'(x) = 0` is the quadratic in :math:`y = x^2`
-:math:`K_1 B y^2 + (K_2 B - 3 K_1 K_3) y + K_2 K_3 = 0` (:func:`break_even_lumped`).
+:math:`a_j B y^2 + (a_r B - 3 a_j s) y + a_r s = 0` (:func:`break_even_lumped`).
 """
 import numpy as np
 
 
-def segment_power(drag_saving, speed, shaft_power, chain_efficiency, motor_efficiency,
+def segment_power(drag_saving, speed, fan_shaft_power, chain_efficiency, motor_efficiency,
                   blowing=True, derivatives=False):
     r"""Power saved at the source by the drag saving, fan electrical power and the net, [W].
 
@@ -34,7 +35,7 @@ def segment_power(drag_saving, speed, shaft_power, chain_efficiency, motor_effic
         Clean-wing drag minus blown-wing drag, [N] (negative: a penalty).
     speed : array_like
         Flight speed, [m/s].
-    shaft_power : array_like
+    fan_shaft_power : array_like
         Fan shaft power, all fans, [W].
     chain_efficiency : array_like
         Thrust power delivered per unit of source power of the main propulsion chain, (0, 1].
@@ -47,8 +48,8 @@ def segment_power(drag_saving, speed, shaft_power, chain_efficiency, motor_effic
 
     Returns
     -------
-    propulsion_saving, fan_electric, net : ndarray
-        [W]; ``net = propulsion_saving - fan_electric`` (positive: blowing pays).
+    propulsion_power_saving, fan_electric_power, net_power_saving : ndarray
+        [W]; ``net_power_saving = propulsion_power_saving - fan_electric_power`` (positive: blowing pays).
     partials : dict
         Only with ``derivatives``: ``{(output, input): ndarray}``.
 
@@ -60,7 +61,7 @@ def segment_power(drag_saving, speed, shaft_power, chain_efficiency, motor_effic
     """
     dd = np.asarray(drag_saving, float)
     v = np.asarray(speed, float)
-    ps = np.asarray(shaft_power, float)
+    ps = np.asarray(fan_shaft_power, float)
     ec = np.asarray(chain_efficiency, float)
     em = np.asarray(motor_efficiency, float)
     on = np.asarray(blowing, float)
@@ -71,16 +72,16 @@ def segment_power(drag_saving, speed, shaft_power, chain_efficiency, motor_effic
         return prop, fan, net
     z = 0 * net
     d = {
-        ("propulsion_saving", "drag_saving"): v / ec + z,
-        ("propulsion_saving", "speed"): dd / ec + z,
-        ("propulsion_saving", "chain_efficiency"): -prop / ec + z,
-        ("fan_electric", "shaft_power"): on / em + z,
-        ("fan_electric", "motor_efficiency"): -fan / em + z,
+        ("propulsion_power_saving", "drag_saving"): v / ec + z,
+        ("propulsion_power_saving", "speed"): dd / ec + z,
+        ("propulsion_power_saving", "chain_efficiency"): -prop / ec + z,
+        ("fan_electric_power", "fan_shaft_power"): on / em + z,
+        ("fan_electric_power", "motor_efficiency"): -fan / em + z,
     }
     for k in ("drag_saving", "speed", "chain_efficiency"):
-        d["net", k] = d["propulsion_saving", k]
-    for k in ("shaft_power", "motor_efficiency"):
-        d["net", k] = -d["fan_electric", k]
+        d["net_power_saving", k] = d["propulsion_power_saving", k]
+    for k in ("fan_shaft_power", "motor_efficiency"):
+        d["net_power_saving", k] = -d["fan_electric_power", k]
     return prop, fan, net, d
 
 
@@ -95,16 +96,17 @@ def segment_energy(net_power, duration):
     return np.asarray(net_power, float) * np.asarray(duration, float)
 
 
-def lumped_optimum(k1, k2, thrust_leverage, efficiency_ratio):
+def lumped_optimum(jet_head, ram_recovery, drag_per_momentum, efficiency_ratio):
     r"""Momentum coefficient that maximizes the lumped net saving (interior optimum).
 
-    Positive root of :math:`3K_1 x^2 - 2B\eta_{eff} x - K_2 = 0`, :math:`C_\mu = x^2`.
+    Positive root of :math:`3a_j x^2 - 2B\eta_{eff} x - a_r = 0`, :math:`C_\mu = x^2`.
 
     Parameters
     ----------
-    k1, k2 : array_like
-        Lumped coefficients (:func:`mdao.physics.duct.lumped_coefficients`), [-].
-    thrust_leverage : array_like
+    jet_head, ram_recovery : array_like
+        Jet-head and ram-recovery coefficients :math:`a_j`, :math:`a_r`
+        (:func:`mdao.physics.duct.lumped_coefficients`), [-].
+    drag_per_momentum : array_like
         :math:`\beta` (negative when blowing saves drag), [-].
     efficiency_ratio : array_like
         :math:`\eta_{eff} = \eta_{fan}\eta_{motor}/\eta_{chain}`, [-].
@@ -114,17 +116,17 @@ def lumped_optimum(k1, k2, thrust_leverage, efficiency_ratio):
     >>> round(float(lumped_optimum(2.5, 0.1, -1.5, 0.8)), 8)
     0.12767423
     """
-    k1 = np.asarray(k1, float)
-    k2 = np.asarray(k2, float)
-    b = -np.asarray(thrust_leverage, float)
+    k1 = np.asarray(jet_head, float)
+    k2 = np.asarray(ram_recovery, float)
+    b = -np.asarray(drag_per_momentum, float)
     e = np.asarray(efficiency_ratio, float)
     x = (2 * b * e + np.sqrt(4 * b * b * e * e + 12 * k1 * k2)) / (6 * k1)
     return x * x
 
 
-def lumped_net_saving(cmu, k1, k2, slot_penalty, thrust_leverage, efficiency_ratio):
-    r"""Non-dimensional lumped net saving :math:`-K_3 - \beta C_\mu - (K_1 C_\mu^{1.5} -
-    K_2 C_\mu^{0.5})/\eta_{eff}` (power over :math:`\rho V^3 S / 2`, times
+def lumped_net_saving(cmu, jet_head, ram_recovery, slot_drag, drag_per_momentum, efficiency_ratio):
+    r"""Non-dimensional lumped net saving :math:`-s - \beta C_\mu - (a_j C_\mu^{1.5} -
+    a_r C_\mu^{0.5})/\eta_{eff}` (power over :math:`\rho V^3 S / 2`, times
     :math:`\eta_{chain}`).
 
     Examples
@@ -133,18 +135,18 @@ def lumped_net_saving(cmu, k1, k2, slot_penalty, thrust_leverage, efficiency_rat
     0.04
     """
     c = np.asarray(cmu, float)
-    return (-np.asarray(slot_penalty) - np.asarray(thrust_leverage) * c
-            - (k1 * c ** 1.5 - k2 * np.sqrt(c)) / efficiency_ratio)
+    return (-np.asarray(slot_drag) - np.asarray(drag_per_momentum) * c
+            - (jet_head * c ** 1.5 - ram_recovery * np.sqrt(c)) / efficiency_ratio)
 
 
-def break_even_lumped(k1, k2, slot_penalty, thrust_leverage, cmu_min, cmu_max):
+def break_even_lumped(jet_head, ram_recovery, slot_drag, drag_per_momentum, cmu_min, cmu_max):
     r"""Least efficiency ratio :math:`\eta_{eff}` at which the best point just breaks even.
 
-    Minimizes :math:`r(C) = (K_1 C^{1.5} - K_2 C^{0.5})/(B C - K_3)` over the momentum
+    Minimizes :math:`r(C) = (a_j C^{1.5} - a_r C^{0.5})/(B C - s)` over the momentum
     coefficients in ``[cmu_min, cmu_max]`` where the fan is needed
-    (:math:`K_1 C \ge K_2`, i.e. not ram-driven) and the thrust exceeds the slot penalty
-    (:math:`B C > K_3`). Candidates: the roots of the stationarity quadratic in range, the
-    range's ends and the ram-driven edge :math:`C = K_2/K_1` (where :math:`r = 0`: a point
+    (:math:`a_j C \ge a_r`, i.e. not ram-driven) and the thrust exceeds the slot penalty
+    (:math:`B C > s`). Candidates: the roots of the stationarity quadratic in range, the
+    range's ends and the ram-driven edge :math:`C = a_r/a_j` (where :math:`r = 0`: a point
     that needs no fan work saves power with any fan). Callers that require a minimum fan
     pressure rise fold it into ``cmu_min``. Vectorized; NaN where no point of the range can
     break even.
@@ -157,7 +159,7 @@ def break_even_lumped(k1, k2, slot_penalty, thrust_leverage, cmu_min, cmu_max):
     0.101639
     """
     k1, k2, k3, beta, lo, hi = np.broadcast_arrays(*(np.asarray(v, float) for v in (
-        k1, k2, slot_penalty, thrust_leverage, cmu_min, cmu_max)))
+        jet_head, ram_recovery, slot_drag, drag_per_momentum, cmu_min, cmu_max)))
     b = -beta
     qa = k1 * b
     qb = k2 * b - 3 * k1 * k3

@@ -51,7 +51,7 @@ def _ratio(case, params, cmu):
     ok = ((prop > 0) & (dp >= case.fan["min_pressure_rise"] * (1 - 1e-12))
           & (dp <= case.fan["max_pressure_rise"]) & (out["jet_mach"] <= case.slot["max_jet_mach"]))
     with np.errstate(divide="ignore", invalid="ignore"):
-        r = out["ideal_power"] / (params["motor_efficiency"] * prop)
+        r = out["air_power"] / (params["motor_efficiency"] * prop)
     return np.where(ok, r, np.inf)
 
 
@@ -84,10 +84,10 @@ def break_even_efficiency(case, slot_ratio=None, params=None):
     if case.duct["model"] == "lumped" and case.fan["model"] == "constant" and not case.fan["compressible"]:
         k1, k2 = duct.lumped_coefficients(p["jet_loss_factor"], p["freestream_assist"],
                                           p["slot_ratio"])
-        from mdao.physics.airfoil import slot_penalty, thrust_leverage_at
-        k3 = slot_penalty(p["slot_ratio"], p.get("slot_drag", 0.0), p.get("slot_drag_per_ratio", 0.0))
-        beta = thrust_leverage_at(p["slot_ratio"], p["thrust_leverage"],
-                                  p.get("thrust_leverage_per_ratio", 0.0))
+        from mdao.physics.airfoil import slot_drag_at, drag_per_momentum_at
+        k3 = slot_drag_at(p["slot_ratio"], p.get("slot_drag", 0.0), p.get("slot_drag_per_ratio", 0.0))
+        beta = drag_per_momentum_at(p["slot_ratio"], p["drag_per_momentum"],
+                                  p.get("drag_per_momentum_per_ratio", 0.0))
         if np.any(np.asarray(p.get("drag_quadratic", 0.0)) != 0):
             eff = _search(case, p, lo, hi)
         else:

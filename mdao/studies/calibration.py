@@ -85,8 +85,8 @@ PLAUSIBLE = {
 
 #: Order of the case constants in the outputs.
 CONSTANT_ORDER = ("duct.jet_loss_factor", "duct.freestream_assist", "airfoil.drag_clean",
-                  "airfoil.slot_drag", "airfoil.slot_drag_per_ratio", "airfoil.thrust_leverage",
-                  "airfoil.thrust_leverage_per_ratio", "airfoil.lift_per_momentum")
+                  "airfoil.slot_drag", "airfoil.slot_drag_per_ratio", "airfoil.drag_per_momentum",
+                  "airfoil.drag_per_momentum_per_ratio", "airfoil.lift_per_momentum")
 
 #: Outlier threshold on the studentized residuals.
 OUTLIER_LIMIT = 3.0
@@ -273,9 +273,9 @@ def _fit_drag(runs, d, several):
     if "drag_coefficient_clean" in runs:
         clean = runs["drag_coefficient_clean"]
         y, response = drag - clean, "drag_coefficient - drag_coefficient_clean [-]"
-        names = (["airfoil.slot_drag", "airfoil.slot_drag_per_ratio", "airfoil.thrust_leverage",
-                  "airfoil.thrust_leverage_per_ratio"] if several
-                 else ["airfoil.slot_drag", "airfoil.thrust_leverage"])
+        names = (["airfoil.slot_drag", "airfoil.slot_drag_per_ratio", "airfoil.drag_per_momentum",
+                  "airfoil.drag_per_momentum_per_ratio"] if several
+                 else ["airfoil.slot_drag", "airfoil.drag_per_momentum"])
         n = clean.size
         se = float(np.std(clean, ddof=1) / math.sqrt(n))
         t = float(stats.t.ppf(0.975, n - 1))
@@ -284,16 +284,16 @@ def _fit_drag(runs, d, several):
                                        "ci95": [mean - t * se, mean + t * se],
                                        "source": "mean of drag_coefficient_clean"}
         model = ("drag_coefficient - drag_coefficient_clean = slot_drag + slot_drag_per_ratio r_s "
-                 "+ (thrust_leverage + thrust_leverage_per_ratio r_s) C_mu" if several else
-                 "drag_coefficient - drag_coefficient_clean = slot_drag + thrust_leverage C_mu")
+                 "+ (drag_per_momentum + drag_per_momentum_per_ratio r_s) C_mu" if several else
+                 "drag_coefficient - drag_coefficient_clean = slot_drag + drag_per_momentum C_mu")
     else:
         if not several:
             raise CalibrationError(
                 "drag fit: with one slot ratio, clean drag and slot penalty cannot be separated; "
                 "give the column `drag_coefficient_clean` or vary `slot_height` (slot ratio)")
         y, response = drag, "drag_coefficient [-]"
-        names = ["airfoil.drag_clean", "airfoil.slot_drag_per_ratio", "airfoil.thrust_leverage",
-                 "airfoil.thrust_leverage_per_ratio"]
+        names = ["airfoil.drag_clean", "airfoil.slot_drag_per_ratio", "airfoil.drag_per_momentum",
+                 "airfoil.drag_per_momentum_per_ratio"]
         extra["airfoil.slot_drag"] = {"value": 0.0, "stderr": 0.0, "ci95": [0.0, 0.0],
                                       "fixed": True,
                                       "source": "slot penalty taken proportional to slot "
@@ -301,8 +301,8 @@ def _fit_drag(runs, d, several):
         notes.append("no drag_coefficient_clean column: the slot penalty is taken proportional to "
                      "the slot ratio (airfoil.slot_drag fixed at 0) and airfoil.drag_clean is the "
                      "fit's intercept at zero slot ratio")
-        model = ("drag_coefficient = drag_clean + slot_drag_per_ratio r_s + (thrust_leverage + "
-                 "thrust_leverage_per_ratio r_s) C_mu")
+        model = ("drag_coefficient = drag_clean + slot_drag_per_ratio r_s + (drag_per_momentum + "
+                 "drag_per_momentum_per_ratio r_s) C_mu")
     record = _fit_record("drag", model, response, names, design, y, rows, d, hint)
     record["derived_constants"] = extra
     return record, notes
@@ -336,7 +336,7 @@ def _plausibility(constants, ratio_range):
     for r_s in sorted(set(ratio_range)):
         where = f" at slot ratio {r_s:.4g}"
         check("drag_slope", "drag slope dC_D/dC_mu",
-              value["airfoil.thrust_leverage"] + value.get("airfoil.thrust_leverage_per_ratio", 0.0)
+              value["airfoil.drag_per_momentum"] + value.get("airfoil.drag_per_momentum_per_ratio", 0.0)
               * r_s, where)
         clean = value["airfoil.drag_clean"]
         jet_off = clean + value["airfoil.slot_drag"] + value.get("airfoil.slot_drag_per_ratio",

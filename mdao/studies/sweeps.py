@@ -14,7 +14,7 @@ with the geometric duct loops over the slot-ratio rows (each row one vectorized 
   (:func:`mdao.studies.breakeven.break_even_efficiency`) over two inputs; :func:`review_maps`
   gives the two of the review: slot ratio against the jet loss factor (lumped duct; the geometric
   duct builds that factor from geometry, so its map is over ``duct.extra_loss``, the adder on the
-  same factor), and slot penalty against thrust leverage.
+  same factor), and slot penalty against drag per momentum coefficient.
 """
 import numpy as np
 
@@ -185,7 +185,7 @@ def review_maps(case, outcome, points=31):
        factor (lumped: 1 to max(2.5, 1.6 K_j)) or, for the geometric duct, ``duct.extra_loss``
        (0 to max(0.5, 3 times the case's)).
     2. ``airfoil.slot_drag`` (0 to max(0.03, 3 times the case's)) against
-       ``airfoil.thrust_leverage`` (min(-3, 1.6 beta) to -0.5).
+       ``airfoil.drag_per_momentum`` (min(-3, 1.6 beta) to -0.5).
 
     Returns
     -------
@@ -210,10 +210,10 @@ def review_maps(case, outcome, points=31):
         first["title"] = ("Break-even fan efficiency: slot ratio against the duct loss adder "
                           "(geometric duct: the jet loss factor is built from the geometry)")
     sd = case.airfoil["slot_drag"]
-    beta = case.airfoil["thrust_leverage"]
+    beta = case.airfoil["drag_per_momentum"]
     second = break_even_map(case, outcome, "airfoil.slot_drag",
                             np.linspace(0.0, max(0.03, 3 * sd), points),
-                            "airfoil.thrust_leverage",
+                            "airfoil.drag_per_momentum",
                             np.linspace(min(-3.0, 1.6 * beta), -0.5, points))
-    second["title"] = "Break-even fan efficiency: slot penalty against thrust leverage"
+    second["title"] = "Break-even fan efficiency: slot penalty against drag per momentum coefficient"
     return [first, second]

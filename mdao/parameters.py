@@ -1,0 +1,244 @@
+"""The model's parameters, each declared once.
+
+Every constant of the physics chain (and of the blowing system's mass) is declared here with its
+case key path, its promoted name (the OpenMDAO input name, which is also the argument name of the
+NumPy chain), its SI unit, its default, its allowed range, the duct and fan models that use it,
+and whether it may be uncertain or calibrated. Everything else reads these declarations: case
+loading (the schema of the model tables), the components' input defaults and units, the NumPy
+chain, the problem builder, sensitivities, uncertainty and calibration. A new parameter is one
+new :class:`Parameter` line here (see DEVELOPERS.md).
+
+This module imports nothing from the package: it sits at the bottom of the layers.
+"""
+import math
+from dataclasses import dataclass
+
+INF = math.inf
+
+#: Marks a parameter that the case must give (no default).
+REQUIRED = "required"
+
+
+@dataclass(frozen=True)
+class Parameter:
+    """One model parameter.
+
+    Attributes
+    ----------
+    key : str
+        Case key path, ``"table.key"`` (``"segment.key"`` for per-segment values).
+    name : str
+        Promoted input name of :class:`mdao.system.BlownWingGroup` and argument name of
+        :func:`mdao.physics.chain.evaluate`.
+    unit : str or None
+        SI unit in OpenMDAO's spelling (None: dimensionless).
+    kind : str
+        Dimension kind that the case reader checks (see :mod:`mdao.units`).
+    default : float, list, str or None
+        Value when the case omits it; :data:`REQUIRED` when it must be given (by the models that
+        use it); None when it is optional and absent means "not used".
+    example : float or tuple
+        A representative value: the components' input value before a model connects or sets
+        it, and the default's stand-in in documentation. Never used for a case's answer.
+    low, high : float
+        Allowed range.
+    low_open, high_open : bool
+        Whether the range excludes its ends.
+    duct_models, fan_models : tuple of str
+        The duct and fan models that use it.
+    per_segment : bool
+        One value per segment (else one for the wing).
+    uncertain : bool
+        May appear in a case's ``[uncertainty]`` table and in sensitivity studies.
+    calibrated : bool
+        A calibration fragment may give it.
+    description : str
+        What it is, in the trade's words.
+    """
+
+    key: str
+    name: str
+    unit: str = None
+    kind: str = "dimensionless"
+    default: object = REQUIRED
+    example: object = None
+    low: float = -INF
+    high: float = INF
+    low_open: bool = False
+    high_open: bool = False
+    duct_models: tuple = ("lumped", "geometric")
+    fan_models: tuple = ("constant", "map")
+    per_segment: bool = False
+    uncertain: bool = True
+    calibrated: bool = False
+    description: str = ""
+
+    @property
+    def table(self):
+        """The case table that holds it (``"duct"``; ``"segment"`` for per-segment values)."""
+        return self.key.split(".")[0]
+
+    @property
+    def field(self):
+        """Its key within that table (``"jet_loss_factor"``)."""
+        return self.key.split(".", 1)[1]
+
+    @property
+    def start_value(self):
+        """Value of the component input before it is connected or set."""
+        if self.default is not REQUIRED and self.default is not None:
+            return self.default
+        return self.example
+
+    def used_by(self, duct_model, fan_model):
+        """Whether a chain with these models uses the parameter."""
+        return duct_model in self.duct_models and fan_model in self.fan_models
+
+    def allowed(self):
+        """The allowed range in words, ``"(0, 1]"``."""
+        left = "(" if self.low_open else "["
+        right = ")" if self.high_open else "]"
+        return f"{left}{self.low:g}, {self.high:g}{right}"
+
+
+_GEO = ("geometric",)
+_LUMPED = ("lumped",)
+_MAP = ("map",)
+_CONSTANT = ("constant",)
+
+#: Every model parameter of the blown-wing chain, in case order.
+CHAIN_PARAMETERS = (
+    Parameter("wing.chord", "chord", "m", "length", example=0.5, low=0, low_open=True,
+              description="chord of the blown section"),
+    Parameter("wing.blown_span", "blown_span", "m", "length", example=1.0, low=0, low_open=True,
+              description="span with blowing"),
+    Parameter("slot.ratio", "slot_ratio", example=0.01, low=0, high=0.2, low_open=True,
+              description="injection slot height over chord"),
+    Parameter("slot.suction_ratio", "suction_ratio", default=REQUIRED, example=0.02, low=0,
+              high=0.3, low_open=True, duct_models=_GEO,
+              description="suction slot height over chord"),
+    Parameter("duct.jet_loss_factor", "jet_loss_factor", example=1.3, low=1.0, high=20.0,
+              duct_models=_LUMPED, calibrated=True,
+              description="jet loss factor K_j: jet dynamic heads the fan must supply"),
+    Parameter("duct.freestream_assist", "freestream_assist", example=1.0, low=0.0, high=5.0,
+              calibrated=True,
+              description="freestream assist K_inf: freestream dynamic heads recovered"),
+    Parameter("duct.fan_diameter", "fan_diameter", "m", "length", example=0.08, low=0,
+              low_open=True, duct_models=_GEO, description="fan diameter"),
+    Parameter("duct.transition_length", "transition_length", "m", "length", example=0.3, low=0,
+              low_open=True, duct_models=_GEO,
+              description="length of the round-to-slot transition"),
+    Parameter("duct.slot_exponent", "slot_exponent", default=8.0, low=2.0, high=100.0,
+              duct_models=_GEO, description="super-ellipse exponent of the slot end"),
+    Parameter("duct.roughness", "roughness", "m", "length", default=1.5e-6, low=0,
+              duct_models=_GEO, description="duct wall roughness"),
+    Parameter("duct.bend_loss", "bend_loss", default=0.0, low=0, high=10, duct_models=_GEO,
+              description="bend loss coefficient on the local velocity"),
+    Parameter("duct.suction_inlet_loss", "suction_inlet_loss", default=0.5, low=0, high=10,
+              duct_models=_GEO,
+              description="suction slot inlet loss coefficient on the slot velocity"),
+    Parameter("duct.extra_loss", "extra_loss", default=0.0, low=0, high=10, duct_models=_GEO,
+              description="calibration adder to the jet loss factor"),
+    Parameter("fan.efficiency", "fan_rated_efficiency", example=0.7, low=0, high=1,
+              low_open=True, fan_models=_CONSTANT,
+              description="fan efficiency of the constant-efficiency fan"),
+    Parameter("fan.motor_efficiency", "motor_efficiency", example=0.9, low=0, high=1,
+              low_open=True, description="fan motor and drive efficiency"),
+    Parameter("fan.pressure_coefficients", "pressure_coefficients", example=(0.6, 0.5, -1.5),
+              fan_models=_MAP, uncertain=False,
+              description="c0, c1, c2 of the characteristic psi = c0 + c1 phi + c2 phi^2"),
+    Parameter("fan.peak_efficiency", "peak_efficiency", example=0.75, low=0, high=1,
+              low_open=True, fan_models=_MAP, description="best efficiency of the fan map"),
+    Parameter("fan.peak_flow_coefficient", "peak_flow_coefficient", example=0.3, low=0,
+              low_open=True, fan_models=_MAP,
+              description="flow coefficient at the best efficiency"),
+    Parameter("fan.efficiency_falloff", "efficiency_falloff", example=0.8, low=0,
+              fan_models=_MAP, description="parabolic fall of efficiency away from the peak"),
+    Parameter("airfoil.drag_clean", "drag_clean", example=0.012, low=0, high=1, low_open=True,
+              calibrated=True, description="drag coefficient of the clean section"),
+    Parameter("airfoil.slot_drag", "slot_drag", default=0.0, low=0, high=1, calibrated=True,
+              description="drag coefficient penalty of the slotted shape at zero slot ratio"),
+    Parameter("airfoil.slot_drag_per_ratio", "slot_drag_per_ratio", default=0.0, low=0,
+              high=100, calibrated=True,
+              description="change of the slot drag penalty per unit slot ratio"),
+    Parameter("airfoil.drag_per_momentum", "drag_per_momentum", example=-1.2, low=-20, high=0,
+              high_open=True, calibrated=True,
+              description="drag coefficient change per unit momentum coefficient (negative: "
+                          "blowing reduces drag) at zero slot ratio"),
+    Parameter("airfoil.drag_per_momentum_per_ratio", "drag_per_momentum_per_ratio",
+              default=0.0, low=-1000, high=1000, calibrated=True,
+              description="change of the drag per momentum coefficient per unit slot ratio"),
+    Parameter("airfoil.drag_quadratic", "drag_quadratic", default=0.0, low=0, high=100,
+              description="drag coefficient per momentum coefficient squared"),
+    Parameter("airfoil.lift_per_momentum", "lift_per_momentum", default=0.0, low=-100,
+              high=100, calibrated=True,
+              description="lift coefficient change per unit momentum coefficient"),
+    Parameter("propulsion.chain_efficiency", "chain_efficiency", example=0.8, low=0, high=1,
+              low_open=True,
+              description="thrust power per source power of the main propulsion chain"),
+    Parameter("segment.altitude", "altitude", "m", "length", example=0.0, low=0, high=20000,
+              per_segment=True, description="geometric altitude"),
+    Parameter("segment.speed", "speed", "m/s", "speed", example=40.0, low=0, high=400,
+              low_open=True, per_segment=True, description="flight speed"),
+    Parameter("segment.duration", "duration", "s", "time", example=3600.0, low=0,
+              low_open=True, per_segment=True, description="segment duration"),
+)
+
+#: Parameters of the blowing system's mass (:mod:`mdao.components.mass`).
+MASS_PARAMETERS = (
+    Parameter("mass.fan_specific_power", "fan_specific_power", "W/kg", "specific_power",
+              default=2500.0, low=0, low_open=True,
+              description="fan shaft power per fan mass"),
+    Parameter("mass.motor_specific_power", "motor_specific_power", "W/kg", "specific_power",
+              default=5000.0, low=0, low_open=True,
+              description="motor shaft power per motor mass"),
+    Parameter("mass.duct_areal_density", "duct_areal_density", "kg/m**2", "areal_density",
+              default=1.2, low=0, description="duct wall mass per wetted area"),
+    Parameter("mass.installation_factor", "installation_factor", default=1.2, low=1, high=3,
+              description="installed over bare mass"),
+    Parameter("mass.power_margin", "power_margin", default=1.25, low=1, high=3,
+              description="rated shaft power over the largest need"),
+    Parameter("mass.duct_wetted_ratio", "duct_wetted_ratio", default=1.5, low=0, high=10,
+              duct_models=_LUMPED,
+              description="duct wetted area over the blown planform (lumped duct)"),
+)
+
+PARAMETERS = CHAIN_PARAMETERS + MASS_PARAMETERS
+
+#: Parameter by case key path.
+BY_KEY = {p.key: p for p in PARAMETERS}
+#: Parameter by promoted name.
+BY_NAME = {p.name: p for p in PARAMETERS}
+
+#: Case keys renamed since earlier versions: old key path -> new key path. A case that uses an
+#: old key is refused with a message that names the new one.
+RENAMED = {
+    "airfoil." + "_".join(("thrust", "leverage")): "airfoil.drag_per_momentum",
+    "airfoil." + "_".join(("thrust", "leverage", "per", "ratio")):
+        "airfoil.drag_per_momentum_per_ratio",
+}
+
+
+def parameter(key_or_name):
+    """The :class:`Parameter` of a case key path (``"duct.jet_loss_factor"``), a per-segment
+    key path (``"segment.NAME.speed"``) or a promoted name (``"jet_loss_factor"``)."""
+    if key_or_name in BY_KEY:
+        return BY_KEY[key_or_name]
+    if key_or_name in BY_NAME:
+        return BY_NAME[key_or_name]
+    parts = key_or_name.split(".")
+    if len(parts) == 3 and parts[0] == "segment" and f"segment.{parts[2]}" in BY_KEY:
+        return BY_KEY[f"segment.{parts[2]}"]
+    raise KeyError(f"{key_or_name!r} is not a model parameter")
+
+
+def chain_parameters(duct_model, fan_model, per_segment=None):
+    """The chain's parameters that these models use (optionally only wing-level or only
+    per-segment ones)."""
+    return tuple(p for p in CHAIN_PARAMETERS if p.used_by(duct_model, fan_model)
+                 and (per_segment is None or p.per_segment == per_segment))
+
+
+def start_values(names):
+    """``{name: start value}`` for component inputs (see :attr:`Parameter.start_value`)."""
+    return {n: BY_NAME[n].start_value for n in names}
