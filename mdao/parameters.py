@@ -45,7 +45,10 @@ class Parameter:
     low_open, high_open : bool
         Whether the range excludes its ends.
     duct_models, fan_models : tuple of str
-        The duct and fan models that use it.
+        The duct and fan models that use it: both must match, or either with ``either``.
+    either : bool
+        Used when the duct model or the fan model matches (the fan diameter: the geometric
+        duct's transition and the fan map both need it).
     per_segment : bool
         One value per segment (else one for the wing).
     uncertain : bool
@@ -68,6 +71,7 @@ class Parameter:
     high_open: bool = False
     duct_models: tuple = ("lumped", "geometric")
     fan_models: tuple = ("constant", "map")
+    either: bool = False
     per_segment: bool = False
     uncertain: bool = True
     calibrated: bool = False
@@ -92,6 +96,8 @@ class Parameter:
 
     def used_by(self, duct_model, fan_model):
         """Whether a chain with these models uses the parameter."""
+        if self.either:
+            return duct_model in self.duct_models or fan_model in self.fan_models
         return duct_model in self.duct_models and fan_model in self.fan_models
 
     def allowed(self):
@@ -124,7 +130,8 @@ CHAIN_PARAMETERS = (
               calibrated=True,
               description="freestream assist K_inf: freestream dynamic heads recovered"),
     Parameter("duct.fan_diameter", "fan_diameter", "m", "length", example=0.08, low=0,
-              low_open=True, duct_models=_GEO, description="fan diameter"),
+              low_open=True, duct_models=_GEO, fan_models=_MAP, either=True,
+              description="fan diameter"),
     Parameter("duct.transition_length", "transition_length", "m", "length", example=0.3, low=0,
               low_open=True, duct_models=_GEO,
               description="length of the round-to-slot transition"),

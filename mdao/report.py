@@ -50,3 +50,22 @@ def summary(outcome, case, optimized=True):
              f"{outcome.model_evaluations} model evaluations, {outcome.wall_time_s:.2f} s",
              "", CAUTION]
     return "\n".join(lines)
+
+
+def many_summary(data):
+    """The console report of ``many``: converged count, wall time and the saving's spread.
+
+    Parameters
+    ----------
+    data : dict
+        The result of :func:`mdao.studies.scaleout.run_many`.
+    """
+    summary = data["summary"]
+    lines = [f"blownwing many: {data['title']}: {summary['converged']}/"
+             f"{summary['optimizations']} converged in {data['wall_time_s']:.1f} s"]
+    if "mission_energy_saving_J" in summary:
+        s = summary["mission_energy_saving_J"]
+        lines.append(f"  mission energy saving [MJ]: mean {s['mean'] / 1e6:.4g}, "
+                     f"5 % {s['p05'] / 1e6:.4g}, 95 % {s['p95'] / 1e6:.4g} "
+                     f"(best: sample {s['best_index']})")
+    return "\n".join(lines)

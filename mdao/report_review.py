@@ -1,7 +1,9 @@
 """The design-review report: ``review.md``, ``review.json`` and PNG figures.
 
-:func:`write_review` takes the dict of :func:`mdao.studies.review.run_review`. Figures need
-matplotlib (Agg backend); without it the report says so and is written without them.
+:func:`write_review` takes the dict of :func:`mdao.studies.review.run_review`
+(:func:`write_review_failure` when its optimization did not converge); :func:`review_summary`
+is the text the command line prints. Figures need matplotlib (Agg backend); without it the report
+says so and is written without them.
 """
 from pathlib import Path
 
@@ -51,6 +53,28 @@ def write_review(data, out_dir, plots=True):
     write_json(out_dir / "review.json", content)
     write_atomic(out_dir / "review.md", review_markdown(data, [f.name for f in figures], note))
     return [out_dir / "review.md", out_dir / "review.json"] + figures
+
+
+def write_review_failure(data, out_dir):
+    """Write ``review.json`` of a review whose optimization did not converge: no optimum
+    (``"optimum": null``), the optimizer's message as ``failure``; no review.md. Returns its
+    path."""
+    path = Path(out_dir) / "review.json"
+    write_json(path, {k: v for k, v in data.items() if k != "optimum"}
+               | {"optimum": None, "failure": data["optimum"]["message"]})
+    return path
+
+
+def review_summary(data):
+    """The console report of ``review``: the case, the optimum's saving, the probability of
+    saving and the dominant input."""
+    e = data["optimum"]["mission_energy_saving_J"]
+    u = data["uncertainty"]
+    return "\n".join([
+        f"blownwing {data['version']}: {data['case']['title']}",
+        f"optimum mission energy saved: {e / KWH:.4f} kWh; probability of saving "
+        f"{u['probability_of_saving']:.3f} over {u['samples']} samples; dominant input "
+        f"{u['dominant_input']}"])
 
 
 # --- markdown -----------------------------------------------------------------------------------

@@ -10,6 +10,9 @@ from dataclasses import asdict
 import numpy as np
 from mdao import om
 
+from mdao import constraints as design_constraints
+from mdao import parameters as registry
+
 from mdao.components.airfoil import AirfoilComp
 from mdao.components.atmosphere import AtmosphereComp
 from mdao.components.chain import ChainComp
@@ -19,55 +22,15 @@ from mdao.components.jet import JetComp
 from mdao.components.power import SegmentPowerComp
 from mdao.components.transition import TransitionComp
 
-#: Case key path -> promoted input name of BlownWingGroup (wing-level constants).
-PARAMETERS = {
-    "wing.chord": "chord",
-    "wing.blown_span": "blown_span",
-    "slot.ratio": "slot_ratio",
-    "slot.suction_ratio": "suction_ratio",
-    "duct.jet_loss_factor": "jet_loss_factor",
-    "duct.freestream_assist": "freestream_assist",
-    "duct.fan_diameter": "fan_diameter",
-    "duct.transition_length": "transition_length",
-    "duct.slot_exponent": "slot_exponent",
-    "duct.roughness": "roughness",
-    "duct.bend_loss": "bend_loss",
-    "duct.suction_inlet_loss": "suction_inlet_loss",
-    "duct.extra_loss": "extra_loss",
-    "fan.efficiency": "fan_rated_efficiency",
-    "fan.motor_efficiency": "motor_efficiency",
-    "fan.pressure_coefficients": "pressure_coefficients",
-    "fan.peak_efficiency": "peak_efficiency",
-    "fan.peak_flow_coefficient": "peak_flow_coefficient",
-    "fan.efficiency_falloff": "efficiency_falloff",
-    "airfoil.drag_clean": "drag_clean",
-    "airfoil.slot_drag": "slot_drag",
-    "airfoil.slot_drag_per_ratio": "slot_drag_per_ratio",
-    "airfoil.drag_per_momentum": "drag_per_momentum",
-    "airfoil.drag_per_momentum_per_ratio": "drag_per_momentum_per_ratio",
-    "airfoil.drag_quadratic": "drag_quadratic",
-    "airfoil.lift_per_momentum": "lift_per_momentum",
-    "propulsion.chain_efficiency": "chain_efficiency",
-}
-#: Per-segment case keys -> promoted node inputs.
-SEGMENT_INPUTS = {"altitude": "altitude", "speed": "speed", "duration": "duration"}
-
-_LUMPED_ONLY = {"jet_loss_factor"}
-_GEOMETRIC_ONLY = {"suction_ratio", "transition_length", "slot_exponent", "roughness",
-                   "bend_loss", "suction_inlet_loss", "extra_loss"}
-_CONSTANT_FAN_ONLY = {"fan_rated_efficiency"}
-_MAP_ONLY = {"pressure_coefficients", "peak_efficiency", "peak_flow_coefficient",
-             "efficiency_falloff"}
-
-
 class BlownWingGroup(om.Group):
     """Blown wing at ``num_nodes`` operating points: from flight condition to net power saved.
 
     Inputs (promoted): ``altitude`` [m], ``speed`` [m/s], ``duration`` [s],
-    ``momentum_coefficient`` and ``fan_pressure_rise`` [Pa] per node; the wing-level constants of
-    :data:`PARAMETERS`. Outputs include ``required_pressure_rise`` [Pa], ``jet_velocity`` [m/s],
-    ``volume_flow`` [m**3/s], ``shaft_power`` [W], ``drag`` [N], ``net_power_saving`` [W],
-    ``energy_saving`` [J] per node and ``mission_energy_saving`` [J].
+    ``momentum_coefficient`` and ``fan_pressure_rise`` [Pa] per node; the wing-level constants
+    declared in :mod:`mdao.parameters` that the chosen models use. Outputs include
+    ``required_pressure_rise`` [Pa], ``jet_velocity`` [m/s], ``volume_flow`` [m**3/s],
+    ``fan_shaft_power`` [W], ``section_drag`` [N], ``net_power_saving`` [W], ``energy_saving``
+    [J] per node and ``mission_energy_saving`` [J].
     """
 
     def initialize(self):
@@ -139,24 +102,29 @@ def group_options(case, fused=None):
 
 
 def applicable_parameters(case):
-    """Case key paths of :data:`PARAMETERS` that the case's models use."""
-    skip = set()
-    skip |= _GEOMETRIC_ONLY if case.duct["model"] == "lumped" else _LUMPED_ONLY
-    skip |= _MAP_ONLY if case.fan["model"] == "constant" else _CONSTANT_FAN_ONLY
-    if case.duct["model"] == "lumped" and case.fan["model"] == "constant":
-        skip.add("fan_diameter")
-    return {k: v for k, v in PARAMETERS.items() if v not in skip}
+    """The :class:`mdao.parameters.Parameter` declarations of the chain that the case's models
+    use (wing-level and per-segment)."""
+    return registry.chain_parameters(case.duct["model"], case.fan["model"])
+
+
+def parameter_values(case):
+    """``{promoted name: SI value}`` of the case's model parameters (per-segment ones as arrays
+    over the segments); parameters the case leaves unset (None) are left out."""
+    out = {}
+    for p in applicable_parameters(case):
+        if p.per_segment:
+            out[p.name] = np.array([s[p.field] for s in case.segments], float)
+            continue
+        value = case.value(p.key)
+        if value is not None:
+            out[p.name] = np.asarray(value, float)
+    return out
 
 
 def set_case_values(prob, case, start=True, follow_requirement=False):
     """Load a case's constants and segments into a set-up problem (SI units)."""
-    for key, name in applicable_parameters(case).items():
-        value = case.value(key)
-        if value is None:
-            continue
-        prob.set_val(name, np.asarray(value, float))
-    for key, name in SEGMENT_INPUTS.items():
-        prob.set_val(name, np.array([s[key] for s in case.segments], float))
+    for name, value in parameter_values(case).items():
+        prob.set_val(name, value)
     if start:
         cmu, dp = start_point(case)
         prob.set_val("momentum_coefficient", cmu)
@@ -194,13 +162,7 @@ def chain_options(case):
 
 def chain_parameters(case, **overrides):
     """Inputs of :func:`mdao.physics.chain.evaluate` for a case (per-segment arrays)."""
-    params = {}
-    for key, name in applicable_parameters(case).items():
-        value = case.value(key)
-        if value is not None:
-            params[name] = np.asarray(value, float)
-    for key, name in SEGMENT_INPUTS.items():
-        params[name] = np.array([s[key] for s in case.segments], float)
+    params = parameter_values(case)
     params.update(overrides)
     return params
 
@@ -241,44 +203,39 @@ def build_problem(case, follow_requirement=False, driver=True, fused=None):
 
 
 def _add_optimization(prob, case, blow, follow):
+    """Design variables, constraints (from :mod:`mdao.constraints`), objective and SLSQP."""
     model = prob.model
-    cmu0, dp0 = start_point(case)
-    lo, hi = case.airfoil["momentum_coefficient_range"]
-    bounds = case.slot["ratio_bounds"]
-    if bounds is not None and bounds[1] > bounds[0]:
-        model.add_design_var("slot_ratio", lower=bounds[0], upper=bounds[1], ref=bounds[1])
-        if case.slot["min_height"] > 0:
-            model.add_constraint("slot_height", lower=case.slot["min_height"],
-                                 ref=case.slot["min_height"])
-    model.add_design_var("momentum_coefficient", indices=blow, lower=lo, upper=hi, ref=hi)
-    dp_ref = float(np.max(dp0[blow]))
-    if not follow:
-        model.add_subsystem("pressure_balance", om.EQConstraintComp(
-            "pressure_balance", eq_units="Pa", lhs_name="fan_pressure_rise",
-            rhs_name="required_pressure_rise", shape=(len(case.segments),), normalize=False,
-            use_mult=False), promotes_inputs=["fan_pressure_rise", "required_pressure_rise"],
-            promotes_outputs=["pressure_balance"])
-        model.set_input_defaults("fan_pressure_rise", dp0, units="Pa")
-        model.add_design_var("fan_pressure_rise", indices=blow, lower=case.fan["min_pressure_rise"],
-                             upper=case.fan["max_pressure_rise"], ref=dp_ref)
-        model.add_constraint("pressure_balance", equals=0.0, indices=blow, ref=dp_ref)
-    model.add_constraint("jet_mach", upper=case.slot["max_jet_mach"], indices=blow,
-                         ref=case.slot["max_jet_mach"])
-    if case.fan["model"] == "map":
-        model.add_constraint("fan_speed", upper=case.fan["max_speed"], indices=blow,
-                             ref=case.fan["max_speed"])
-        flo, fhi = case.fan["flow_coefficient_range"]
-        model.add_constraint("flow_coefficient", lower=flo, upper=fhi, indices=blow, ref=fhi)
-    if case.duct["model"] == "geometric":
-        limit = case.duct["max_diffusion_half_angle"]
-        model.add_constraint("diffusion_half_angle", upper=limit, ref=limit)
-    objective = case.optimize["objective"]
-    if objective == "mission-energy":
-        scale = _energy_scale(case)
-        model.add_objective("mission_energy_saving", ref=-scale)
+    _, dp0 = start_point(case)
+    start = {"fan_pressure_rise": dp0}
+    for con in design_constraints.applicable(case, follow_requirement=follow):
+        lower, upper = design_constraints.bounds(con, case)
+        ref = design_constraints.reference(con, case, required=dp0)
+        indices = blow if con.per_segment else None
+        if con.quantity == "fan_pressure_rise" and follow:  # the fan gives what is required
+            model.add_constraint("required_pressure_rise", lower=lower, upper=upper,
+                                 indices=indices, ref=ref)
+        elif con.design_variable:
+            if con.quantity == "fan_pressure_rise":
+                model.set_input_defaults(con.quantity, start[con.quantity], units="Pa")
+            model.add_design_var(con.quantity, lower=lower, upper=upper, indices=indices,
+                                 ref=ref)
+        elif con.quantity == "pressure_balance":
+            model.add_subsystem("pressure_balance", om.EQConstraintComp(
+                "pressure_balance", eq_units="Pa", lhs_name="fan_pressure_rise",
+                rhs_name="required_pressure_rise", shape=(len(case.segments),),
+                normalize=False, use_mult=False),
+                promotes_inputs=["fan_pressure_rise", "required_pressure_rise"],
+                promotes_outputs=["pressure_balance"])
+            model.add_constraint(con.quantity, equals=con.equals, indices=indices, ref=ref)
+        else:
+            model.add_constraint(con.quantity, lower=lower, upper=upper, indices=indices,
+                                 ref=ref)
+    segment = case.objective_segment
+    if segment is None:
+        model.add_objective("mission_energy_saving", ref=-_energy_scale(case))
     else:
-        i = case.segment_names.index(objective[8:])
-        model.add_objective("net_power_saving", index=i, ref=-_power_scale(case))
+        model.add_objective("net_power_saving", index=case.segment_names.index(segment),
+                            ref=-_power_scale(case))
     prob.driver = om.ScipyOptimizeDriver(optimizer="SLSQP", maxiter=case.optimize["max_iterations"],
                                          tol=case.optimize["tolerance"], disp=False)
 

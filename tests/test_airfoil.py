@@ -1,6 +1,6 @@
 """Blown-airfoil drag model (mdao.physics.airfoil) and AirfoilComp.
 
-The model is the calibrated reduced-order form of DESIGN.md "Airfoil drag and thrust"; the checks
+The model is the calibrated reduced-order form of docs/theory.md, section "Airfoil"; the checks
 are values worked by hand from that formula, shapes, derivatives and component partials.
 """
 import numpy as np

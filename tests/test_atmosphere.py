@@ -8,7 +8,7 @@ from partials_check import assert_partials
 from mdao.components.atmosphere import AtmosphereComp
 from mdao.physics.atmosphere import CP, GAMMA, GAS_CONSTANT, Atmosphere, isa
 
-# REFERENCES.md "Standard atmosphere" table (ICAO Doc 7488 / US 1976), z geometric [m]:
+# Standard atmosphere table (ICAO Doc 7488 / U.S. Standard Atmosphere 1976), z geometric [m]:
 # T [K], p [Pa], rho [kg/m3], a [m/s], mu [Pa s]
 TABLE = np.array([
     [0, 288.150, 101325.00, 1.22500, 340.294, 1.78938e-5],
@@ -26,7 +26,8 @@ def test_constants():
 
 
 def test_reference_table():
-    """REFERENCES.md table, all 5 rows and all fields (altitude in, 5 state fields out).
+    """ICAO Doc 7488 / U.S. Standard Atmosphere 1976 table, all 5 rows and all fields (altitude
+    in, 5 state fields out).
 
     Worst relative error measured: 3.9e-6 (density at 20 km, the table's last printed digit).
     The table's pressures follow the 1976 gas constant R*/M0 (7e-7 relative above ICAO's

@@ -2,7 +2,7 @@
 
 Outside references: the NIST Statistical Reference Datasets' certified values for the Longley
 regression; statsmodels OLS (test-only) for every fit statistic on the demo runs; the ISA table of
-REFERENCES.md (ICAO Doc 7488) for the viscosity behind the Reynolds number.
+ICAO Doc 7488 / U.S. Standard Atmosphere 1976 for the viscosity behind the Reynolds number.
 """
 import importlib.util
 import json
@@ -13,6 +13,8 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+
+from mdao.case.fragment import FragmentError
 
 from mdao.studies.calibration import (CAUTION, CalibrationError, CalibrationWarning, calibrate,
                                       calibrate_file, format_summary, fragment_text,
@@ -267,7 +269,7 @@ def test_units_converted_to_si(tmp_path):
 
 
 def test_reynolds_with_density_only_uses_sea_level_viscosity():
-    """ISA sea level (REFERENCES.md, ICAO Doc 7488): mu = 1.78938e-5 Pa s at 288.15 K."""
+    """ISA sea level (ICAO Doc 7488, Sutherland's law): mu = 1.78938e-5 Pa s at 288.15 K."""
     runs = {"speed": [30.0], "density": [1.1], "chord": [0.4], "span": [1.0],
             "slot_height": [0.004], "mass_flow": [0.1], "fan_pressure_rise": [100.0],
             "drag_coefficient": [0.01]}
@@ -381,7 +383,7 @@ def test_load_fragment_rejects_inconsistent_uncertainty(tmp_path):
     text = fragment_text(result).replace('parameters = ["duct.jet_loss_factor", ',
                                          'parameters = [')
     (tmp_path / "f.toml").write_text(text)
-    with pytest.raises(CalibrationError, match="uncertainty.parameters"):
+    with pytest.raises(FragmentError, match="uncertainty.parameters"):
         load_fragment(tmp_path / "f.toml")
 
 

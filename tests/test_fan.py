@@ -32,11 +32,11 @@ def assert_derivatives(func, args, keys=None, rtol=1e-6):
         assert np.max(np.abs(derivs[name] - fd)) <= rtol * scale + 1e-12, name
 
 
-# --- REFERENCES.md "Fans": worked numbers -----------------------------------------------------
+# --- Fan coefficients (Dixon & Hall 2014): worked numbers --------------------------------------
 
 def test_worked_numbers():
-    """REFERENCES.md "Fans" (derived there): D 0.1 m, 20 000 rpm, Q 0.1 m3/s, dp 2000 Pa,
-    rho 1.225, eta 0.8 -> phi 0.30000, psi 1.46939, lambda 0.55102, P 250 W."""
+    """Definitions of Dixon & Hall (2014), worked by hand: D 0.1 m, 20 000 rpm, Q 0.1 m3/s,
+    dp 2000 Pa, rho 1.225, eta 0.8 -> phi 0.30000, psi 1.46939, lambda 0.55102, P 250 W."""
     n, d, q, dp, rho, eta = 20000 / 60, 0.1, 0.1, 2000.0, 1.225, 0.8
     phi = fan.flow_coefficient(q, n, d)
     psi = fan.pressure_coefficient(dp, rho, n, d)
@@ -50,8 +50,9 @@ def test_worked_numbers():
 
 
 def test_fan_curve_meets_system():
-    """REFERENCES.md "Fans": fan curve dp = 1000 - 2e4 Q^2 against system 3e4 Q^2 meets at
-    Q = 0.141421 m3/s, dp = 600 Pa. Route: the dimensional curve is written as a
+    """Fan curve dp = 1000 - 2e4 Q^2 against system 3e4 Q^2 meets at
+    Q = sqrt(1000 / 5e4) = 0.141421 m3/s, dp = 600 Pa (by hand). Route: the dimensional curve is
+    written as a
     characteristic psi(phi) at a chosen (rho, D, N0); the operating flow is where speed() for
     the system's pressure rise equals N0."""
     p0, b, c, k_sys = 1000.0, 0.0, -2e4, 3e4
@@ -66,12 +67,13 @@ def test_fan_curve_meets_system():
     assert fan.characteristic(phi, coef) * rho * n0**2 * d**2 == pytest.approx(dp, rel=1e-12)
 
 
-# --- REFERENCES.md "Compression power" ---------------------------------------------------------
+# --- Compression power (isentropic work, Dixon & Hall 2014) ------------------------------------
 
 @pytest.mark.parametrize("dp, ratio", [(200.0, 0.999296), (1000.0, 0.996495),
                                        (5000.0, 0.982857), (20000.0, 0.936527)])
 def test_compression_power_ratio(dp, ratio):
-    """REFERENCES.md "Compression power": isentropic / (Q dp) at p 101325 Pa, T 288.15 K,
+    """Isentropic compression work (Dixon & Hall 2014): isentropic / (Q dp) at p 101325 Pa,
+    T 288.15 K,
     gamma 1.4, cp 1004.69, to the printed digits; cross-checked with
     fluids.compressible.isentropic_work_compression (J/mol, converted with the molar mass that
     makes R = cp (gamma-1)/gamma)."""
@@ -87,7 +89,7 @@ def test_compression_power_ratio(dp, ratio):
 
 
 def test_compression_power_small_x_limit():
-    """REFERENCES.md: small-x limit 1 - x/(2 gamma); the next term is (1-k)(2-k) x^2 / 6
+    """Small-x limit 1 - x/(2 gamma); the next term is (1-k)(2-k) x^2 / 6
     (binomial series). Reference value by mpmath at 40 digits."""
     p, t, gamma, cp = 101325.0, 288.15, 1.4, 1004.685
     k = (gamma - 1) / gamma
@@ -106,7 +108,7 @@ def test_compression_power_small_x_limit():
 
 
 def test_power_zero_when_ram_driven():
-    """dp <= 0: no power and no negative power over an efficiency (DESIGN.md, duct loss)."""
+    """dp <= 0: no power and no negative power over an efficiency (docs/theory.md, "Duct loss")."""
     dp = np.array([-500.0, 0.0, 500.0])
     p = fan.shaft_power(0.1, dp, 0.7)
     assert p[0] == 0.0 and p[1] == 0.0 and p[2] == pytest.approx(0.1 * 500 / 0.7)

@@ -5,7 +5,7 @@ from fluids.friction import Churchill_1977, Colebrook, friction_factor
 
 from mdao.physics.friction import churchill
 
-# REFERENCES.md "Darcy friction factor": Re, eps/D, Colebrook, Churchill 1977
+# Darcy friction factor: Re, eps/D, Colebrook (1939, implicit), Churchill, Chem. Eng. 84(24) (1977)
 TABLE = [(1e4, 0.0, 0.03088295, 0.031002), (1e5, 0.0, 0.01798977, 0.017875),
          (1e5, 1e-4, 0.01851387, 0.018463), (1e6, 0.0, 0.01164504, 0.011612),
          (1e6, 1e-3, 0.01994347, 0.020022)]
@@ -60,7 +60,7 @@ def _jumps(values):
 def test_smooth_through_transition():
     """No step between Re 2000 and 4000 larger than the neighbouring steps (within 10 %), for
     several roughnesses; the switch-based fluids.friction_factor fails the same check (its jump at
-    Re 2040, REFERENCES.md), which shows the check can fail."""
+    Re 2040), which shows the check can fail."""
     re = np.linspace(2000.0, 4000.0, 2001)
     for eps in (0.0, 1e-4, 1e-2):
         assert _jumps(churchill(re, eps)) < 1.1

@@ -12,7 +12,8 @@ RNG = np.random.default_rng(7)
 
 
 def test_momentum_coefficient_round_trip():
-    """C_mu = m_dot V_j / (q S) recovered from the kinematics (definition, DESIGN.md)."""
+    """C_mu = m_dot V_j / (q S) recovered from the kinematics (definition: Englar 2001, from memory;
+    docs/theory.md "Jet kinematics")."""
     c = RNG.uniform(0.005, 0.2, 50)
     s = jet.kinematics(c, 0.012, 35.0, 1.1, 0.6, 2.5, 330.0)
     back = s.mass_flow * s.jet_velocity / (s.dynamic_pressure * 0.6 * 2.5)
@@ -21,7 +22,7 @@ def test_momentum_coefficient_round_trip():
 
 
 def test_lumped_reduction_matches_dimensional_power():
-    """Q dP_req / (rho V^3 S / 2) = K1 C^1.5 - K2 C^0.5 (DESIGN.md section 2)."""
+    """Q dP_req / (rho V^3 S / 2) = K1 C^1.5 - K2 C^0.5 (docs/theory.md, "Net power")."""
     c = RNG.uniform(0.01, 0.2, 40)
     r, kj, ki, rho, v, ch, b = 0.011, 1.27, 0.93, 0.9, 52.0, 0.45, 3.0
     s = jet.kinematics(c, r, v, rho, ch, b, 330.0)

@@ -1,4 +1,5 @@
-"""Minor losses against handbook values (REFERENCES.md) and fluids.fittings."""
+"""Minor losses against handbook values (Crane TP-410, 2009; Rennels & Hudson, Pipe Flow, 2012)
+and fluids.fittings."""
 import numpy as np
 import pytest
 from fluids.fittings import contraction_conical, diffuser_conical
@@ -12,17 +13,18 @@ ANGLES_DEG = [10.0, 30.0, 44.9, 45.1, 60.0]   # fluids switches formula at 45 de
 
 
 def test_constants():
-    """Crane TP-410 sharp inlet 0.5; Rennels & Hudson exit 1.0 (REFERENCES.md)."""
+    """Crane TP-410 (2009) sharp inlet 0.5; Rennels & Hudson, Pipe Flow (2012), exit 1.0."""
     assert SHARP_INLET == 0.5 and EXIT == 1.0
 
 
 def test_contraction_reference():
-    """Crane TP-410 via REFERENCES.md: 0.0523 at 10 deg, A2/A1 = 0.25."""
+    """Crane TP-410 (2009) gradual contraction 0.8 sin(theta/2)(1 - A2/A1): 0.0523 at 10 deg,
+    A2/A1 = 0.25."""
     assert round(float(gradual_contraction(np.radians(10.0), 0.25)), 4) == 0.0523
 
 
 def test_borda_carnot_reference():
-    """REFERENCES.md: 0.5625 at A1/A2 = 0.25."""
+    """Borda-Carnot (Rennels & Hudson, Pipe Flow, 2012): (1 - 0.25)^2 = 0.5625 at A1/A2 = 0.25."""
     assert sudden_expansion(0.25) == 0.5625
 
 
@@ -63,7 +65,7 @@ def test_smacna_range_note():
 
 @pytest.mark.parametrize("ratio, expected", [(1.0, 0.3133), (1.5, 0.2253), (2.0, 0.2037), (4.0, 0.2258)])
 def test_bend_reference(ratio, expected):
-    """REFERENCES.md 90 deg smooth bend, Rennels & Hudson (2012), fd 0.017990 at Re 1e5."""
+    """90 deg smooth bend, Rennels & Hudson, Pipe Flow (2012), fd 0.017990 at Re 1e5."""
     assert round(float(bend_rounded(ratio, 0.017990)), 4) == expected
 
 

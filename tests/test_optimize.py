@@ -42,7 +42,7 @@ def _case(**changes):
     {"slot__ratio": 0.02, "propulsion__chain_efficiency": 0.6, "fan__motor_efficiency": 0.95},
 ])
 def test_lumped_optimum_matches_closed_form(changes):
-    """Optimum C_mu and net power per segment against DESIGN.md section 2's closed form
+    """Optimum C_mu and net power per segment against the closed form of docs/theory.md, "Net power"
     (positive root of 3 K1 x^2 - 2 B eta_eff x - K2 = 0), to 1e-5 relative."""
     case = _case(**changes)
     out = optimize(case)
@@ -63,7 +63,8 @@ def test_lumped_optimum_matches_closed_form(changes):
 
 
 def test_independent_hand_calculation_of_one_segment():
-    """Every figure of one segment recomputed by hand from the definitions (DESIGN.md)."""
+    """Every figure of one segment recomputed by hand from the definitions (docs/theory.md,
+    "Jet kinematics" to "Net power")."""
     case = _case()
     out = optimize(case)
     seg = out.segments[1]
@@ -161,7 +162,7 @@ def test_blowing_off_segment_carries_slot_penalty_only():
 def test_break_even_search_agrees_with_closed_form():
     """The grid + golden-section search (used for the geometric duct and fan maps) finds the
     closed-form break-even efficiency of the lumped model."""
-    from mdao.studies import breakeven
+    from mdao.optimum import breakeven
     from mdao.system import chain_parameters
     case = _case(airfoil__slot_drag=0.03)
     params = chain_parameters(case)

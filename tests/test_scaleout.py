@@ -15,8 +15,10 @@ import numpy as np
 import pytest
 
 from mdao.case import load_case
+from mdao.cli import main
+from mdao.cli.progress import OptimizationCounter
 from mdao.studies.scaleout import (monte_carlo_overrides, multistart_overrides, optimize_many,
-                                   run_many_cli, solve_one)
+                                   run_many, solve_one)
 
 ROOT = Path(__file__).resolve().parents[1]
 CASE = ROOT / "cases" / "survey-drone.toml"
@@ -90,7 +92,10 @@ def test_failure_after_retries_is_reported(case, samples):
 
 
 def test_progress_on_stderr(case, samples, capsys):
-    optimize_many(case, samples[:2], progress=True)
+    calls = []
+    optimize_many(case, samples[:2], progress=lambda done, total: calls.append((done, total)))
+    assert calls == [(0, 2), (1, 2), (2, 2)]
+    optimize_many(case, samples[:2], progress=OptimizationCounter())
     err = capsys.readouterr().err
     assert "optimize_many: 1/2 done" in err and "optimize_many: 2/2 done" in err
 
@@ -138,7 +143,7 @@ def test_bad_arguments(case):
     with pytest.raises(ValueError, match="starts"):
         multistart_overrides(case, 0, 1)
     with pytest.raises(ValueError, match="kind"):
-        run_many_cli(CASE, "grid", 10, 1, "out", None, None)
+        run_many(case, "grid", 10, 1)
 
 
 def test_model_error_is_a_result_not_a_crash(case):
@@ -147,7 +152,8 @@ def test_model_error_is_a_result_not_a_crash(case):
 
 
 def test_run_many_cli_writes_json(tmp_path, capsys):
-    code = run_many_cli(CASE, "monte-carlo", 10, 2, tmp_path / "many", None, None)
+    code = main(["many", str(CASE), "--kind", "monte-carlo", "--samples", "10", "--seed", "2",
+                 "--out", str(tmp_path / "many")])
     assert code == 0
     data = json.loads((tmp_path / "many" / "many.json").read_text())
     assert data["kind"] == "monte-carlo" and data["samples"] == 10 and data["seed"] == 2

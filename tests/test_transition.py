@@ -37,7 +37,8 @@ def test_sections_consistent():
 
 
 def test_linear_semi_axes_swell():
-    """The trap (DESIGN.md): a 100:1 slot with the same area as the fan's circle.
+    """The trap (docs/theory.md, "Transition duct"): a 100:1 slot with the same area as the
+    fan's circle.
 
     Linear semi-axes swell the area mid-duct (measured +203 % at n = 2 to +238 % at n = 20: far
     beyond 'tens of percent'), an unintended diffuser; the monotone-area schedule keeps the area
@@ -78,7 +79,8 @@ def test_half_angle_matches_cone():
 
 
 def test_equivalent_cone():
-    """REFERENCES.md 'Diffusers': a true cone of radii 1 -> 2 over length 10 has half-angle
+    """Equivalent cone (docs/theory.md, "Transition duct"): a true cone of radii 1 -> 2 over
+    length 10 has half-angle
     atan(0.1)."""
     assert equivalent_cone_half_angle(np.pi, 4 * np.pi, 10.0) == pytest.approx(np.arctan(0.1), rel=1e-15)
     assert equivalent_cone_half_angle(4 * np.pi, np.pi, 10.0) < 0

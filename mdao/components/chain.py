@@ -48,7 +48,7 @@ class ChainComp(om.ExplicitComponent):
     """Whole lumped chain at ``num_nodes`` points in one component (fast path)."""
 
     cite = ("ICAO Doc 7488 (1993); Englar, AIAA PA&A 192 (2001); Dixon & Hall (2014); "
-            "DESIGN.md section 2 (this project).")
+            "docs/theory.md (this project).")
 
     def initialize(self):
         self.options.declare("num_nodes", types=int, default=1, lower=1)

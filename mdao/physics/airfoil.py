@@ -18,34 +18,41 @@ References
    augmentation and modification." AIAA Progress in Astronautics and Aeronautics 192 (2001)
    (from memory).
 .. [2] The linear-in-C_mu drag form with slot-ratio dependent constants is this project's
-   calibrated reduced-order model (design notes, "Airfoil drag and thrust").
+   calibrated reduced-order model: docs/theory.md, section "Airfoil".
 """
 import numpy as np
 
 
 def slot_drag_at(slot_ratio, slot_drag, slot_drag_per_ratio):
-    r"""Drag penalty of the slotted shape, :math:`\Delta C_{D,slot} = s_0 + s_1 r_s`.
+    r"""Drag penalty of the slotted shape at a slot ratio.
+
+    .. math:: \Delta C_{D,slot} = s_0 + s_1 r_s
 
     Parameters
     ----------
     slot_ratio : array_like
-        Injection slot height over chord, [-] (calibrated range, typically 0.002-0.03).
+        Injection slot height over chord :math:`r_s`, [-], > 0 (inside the calibrated range,
+        typically 0.002-0.03).
     slot_drag : array_like
-        Penalty at zero slot ratio (the calibration's intercept), [-].
+        Penalty at zero slot ratio :math:`s_0` (the calibration's intercept), [-], any real
+        (usually >= 0).
     slot_drag_per_ratio : array_like
-        Change of the penalty per unit slot ratio, [-].
+        Change of the penalty per unit slot ratio :math:`s_1`, [-], any real.
 
     Returns
     -------
     ndarray
-        Drag coefficient increment, [-].
+        Drag coefficient increment :math:`\Delta C_{D,slot}`, [-].
 
     References
     ----------
-    .. [1] Module references [2].
+    .. [1] docs/theory.md, section "Airfoil" (this project's calibrated reduced-order drag
+       model, linear in the slot ratio and in :math:`C_\mu`).
 
     Examples
     --------
+    By hand: 0.02 + 0.5 * 0.01 = 0.025.
+
     >>> round(float(slot_drag_at(0.01, 0.02, 0.5)), 12)
     0.025
     """
@@ -53,28 +60,35 @@ def slot_drag_at(slot_ratio, slot_drag, slot_drag_per_ratio):
 
 
 def drag_per_momentum_at(slot_ratio, drag_per_momentum, drag_per_momentum_per_ratio):
-    r"""Drag per momentum coefficient :math:`\beta = \beta_0 + \beta_1 r_s`, i.e. dC_D/dC_mu of the linear term.
+    r"""Drag per momentum coefficient at a slot ratio (dC_D/dC_mu of the linear term).
+
+    .. math:: \beta = \beta_0 + \beta_1 r_s
 
     Parameters
     ----------
     slot_ratio : array_like
-        Injection slot height over chord, [-].
+        Injection slot height over chord :math:`r_s`, [-], > 0 (inside the calibrated range).
     drag_per_momentum : array_like
-        Drag per momentum coefficient at zero slot ratio, [-] (negative).
+        Drag per momentum coefficient at zero slot ratio :math:`\beta_0`, [-], any real
+        (< 0 when blowing saves drag; calibrated values are often below -1).
     drag_per_momentum_per_ratio : array_like
-        Change of the drag per momentum coefficient per unit slot ratio, [-].
+        Change of the drag per momentum coefficient per unit slot ratio :math:`\beta_1`, [-],
+        any real.
 
     Returns
     -------
     ndarray
-        Drag per momentum coefficient, [-].
+        Drag per momentum coefficient :math:`\beta`, [-].
 
     References
     ----------
-    .. [1] Module references [2].
+    .. [1] docs/theory.md, section "Airfoil" (this project's calibrated reduced-order drag
+       model, linear in the slot ratio and in :math:`C_\mu`).
 
     Examples
     --------
+    By hand: -1.2 + 10 * 0.01 = -1.1.
+
     >>> round(float(drag_per_momentum_at(0.01, -1.2, 10.0)), 12)
     -1.1
     """
@@ -93,17 +107,19 @@ def drag_coefficient(momentum_coefficient, slot_ratio, drag_clean, slot_drag, sl
     Parameters
     ----------
     momentum_coefficient : array_like
-        Jet momentum coefficient C_mu, [-] (>= 0, inside the calibrated range).
+        Jet momentum coefficient :math:`C_\mu`, [-], >= 0 (inside the calibrated range).
     slot_ratio : array_like
-        Injection slot height over chord, [-].
+        Injection slot height over chord :math:`r_s`, [-], > 0 (inside the calibrated range).
     drag_clean : array_like
-        Drag coefficient of the clean (unslotted) section at the same lift, [-].
+        Drag coefficient of the clean (unslotted) section at the same lift, [-], > 0.
     slot_drag, slot_drag_per_ratio : array_like
-        Slotted-shape penalty intercept and slope in slot ratio, [-].
+        Slotted-shape penalty intercept :math:`s_0` and slope in slot ratio :math:`s_1`, [-],
+        any real (see :func:`slot_drag_at`).
     drag_per_momentum, drag_per_momentum_per_ratio : array_like
-        Drag per momentum coefficient, intercept and slope in slot ratio, [-].
+        Drag per momentum coefficient, intercept :math:`\beta_0` (< 0 when blowing saves drag)
+        and slope in slot ratio :math:`\beta_1`, [-], any real.
     drag_quadratic : array_like
-        Coefficient of C_mu^2, [-] (0 for the linear model).
+        Coefficient :math:`k_2` of :math:`C_\mu^2`, [-], any real (0 for the linear model).
     derivatives : bool
         Also return a dict of partials keyed by every argument name above.
 
@@ -111,13 +127,21 @@ def drag_coefficient(momentum_coefficient, slot_ratio, drag_clean, slot_drag, sl
     -------
     cd : ndarray
         Drag coefficient on the blown planform, [-].
+    partials : dict
+        Only with ``derivatives``: ``{argument name: dC_D/d argument}``, each of cd's shape.
 
     References
     ----------
-    .. [1] Module references [1], [2].
+    .. [1] docs/theory.md, section "Airfoil" (this project's calibrated reduced-order drag
+       model, linear in the slot ratio and in :math:`C_\mu`).
+    .. [2] Englar, R. J. "Circulation control pneumatic aerodynamics: blown force and moment
+       augmentation and modification." AIAA Progress in Astronautics and Aeronautics 192 (2001)
+       (definition of the momentum coefficient; from memory).
 
     Examples
     --------
+    By hand: 0.012 + 0.02 - 1.2 * 0.03 = -0.004 (net thrust).
+
     >>> round(float(drag_coefficient(0.03, 0.01, 0.012, 0.02, 0.0, -1.2, 0.0)), 12)
     -0.004
     """
@@ -143,14 +167,16 @@ def drag_coefficient(momentum_coefficient, slot_ratio, drag_clean, slot_drag, sl
 
 
 def lift_increment(momentum_coefficient, lift_per_momentum):
-    r"""Lift coefficient increment from blowing, :math:`\Delta C_L = (dC_L/dC_\mu)\,C_\mu`.
+    r"""Lift coefficient increment from blowing.
+
+    .. math:: \Delta C_L = \frac{dC_L}{dC_\mu}\,C_\mu
 
     Parameters
     ----------
     momentum_coefficient : array_like
-        Jet momentum coefficient, [-].
+        Jet momentum coefficient :math:`C_\mu`, [-], >= 0 (inside the calibrated range).
     lift_per_momentum : array_like
-        Calibrated lift slope against C_mu, [-].
+        Calibrated lift slope against :math:`C_\mu`, [-], any real (> 0 when blowing adds lift).
 
     Returns
     -------
@@ -159,10 +185,16 @@ def lift_increment(momentum_coefficient, lift_per_momentum):
 
     References
     ----------
-    .. [1] Module references [1], [2].
+    .. [1] docs/theory.md, section "Airfoil" (this project's calibrated reduced-order drag
+       model, linear in the slot ratio and in :math:`C_\mu`).
+    .. [2] Englar, R. J. "Circulation control pneumatic aerodynamics: blown force and moment
+       augmentation and modification." AIAA Progress in Astronautics and Aeronautics 192 (2001)
+       (definition of the momentum coefficient; from memory).
 
     Examples
     --------
+    By hand: 5 * 0.03 = 0.15.
+
     >>> round(float(lift_increment(0.03, 5.0)), 12)
     0.15
     """

@@ -1,24 +1,39 @@
-"""The whole physics chain in plain NumPy: one call from operating points to net power.
+"""The whole physics chain in plain NumPy: the one place where the disciplines are wired.
 
-This is the direct path that sweeps, Monte Carlo studies and break-even searches use: every
-input broadcasts (segments, grid points or samples on any leading axes), and it runs the same
-functions as the OpenMDAO components, so the two cannot drift apart (a test compares them).
+:func:`evaluate` runs atmosphere, jet, duct (lumped or geometric), fan (constant efficiency or
+map), airfoil and segment power from operating points to net power. Sweeps, Monte Carlo studies
+and break-even searches call it for values on any broadcast shape (segments, grid points or
+samples on leading axes); the fused OpenMDAO component
+(:class:`mdao.components.chain.ChainComp`, the default of :class:`mdao.system.BlownWingGroup`)
+calls it with ``derivatives=True`` for values and forward-mode partials. The per-discipline group
+(one component per discipline) is kept as an independent wiring of the same physics functions;
+a test compares the two to round-off, values and total derivatives.
 
-Parameter names are the promoted input names of :class:`mdao.system.BlownWingGroup`.
+Parameter names are the promoted names declared in :mod:`mdao.parameters`, and the defaults of
+optional parameters come from there (:attr:`mdao.parameters.Parameter.default`).
+
+References
+----------
+.. [1] docs/theory.md, sections "Atmosphere" to "Net power" (each discipline and its source);
+   the derivatives are forward-mode tangents by the chain rule from the partials each physics
+   function returns (Griewank, A. and Walther, A. *Evaluating Derivatives*, 2nd ed., SIAM, 2008,
+   ch. 3).
 """
 import functools
 from dataclasses import dataclass
 
 import numpy as np
 
+from mdao import parameters as registry
 from mdao.physics import airfoil, atmosphere, duct, fan, jet, power, transition
 
-#: Defaults for optional parameters (the same as the components' defaults).
-DEFAULTS = {
-    "slot_drag": 0.0, "slot_drag_per_ratio": 0.0, "drag_per_momentum_per_ratio": 0.0,
-    "drag_quadratic": 0.0, "lift_per_momentum": 0.0, "duration": 0.0, "extra_loss": 0.0,
-    "suction_inlet_loss": 0.0, "bend_loss": 0.0, "roughness": 0.0,
-}
+#: Internal root names of the three fan-map pressure coefficients (stacked on a last axis of
+#: length 3 under ``"pressure_coefficients"`` in the returned partials).
+_COEFFICIENTS = tuple(("pressure_coefficients", i) for i in range(3))
+#: Station fields whose tangents the chain carries, and the wing-level inputs that shape them.
+STATION_FIELDS = ("position", "area", "perimeter", "hydraulic_diameter", "half_angle")
+STATION_ROOTS = ("fan_diameter", "blown_span", "slot_ratio", "chord", "transition_length",
+                 "slot_exponent")
 
 
 @dataclass(frozen=True)
@@ -33,101 +48,153 @@ class ChainOptions:
     compressible: bool = False
 
 
-def evaluate(params, options=ChainOptions(), blowing=True):
-    """Evaluate the chain at broadcast operating points.
+def with_defaults(params, options=ChainOptions()):
+    """``params`` completed by the defaults of the optional parameters these models use.
+
+    Parameters that have no default (required, or absent meaning "not used") are not added.
+    """
+    p = {}
+    for prm in registry.chain_parameters(options.duct_model, options.fan_model):
+        if prm.default is not registry.REQUIRED and prm.default is not None:
+            p[prm.name] = prm.default
+    p.update(params)
+    return p
+
+
+def evaluate(params, options=ChainOptions(), blowing=True, derivatives=False):
+    """Evaluate the chain at broadcast operating points, optionally with partial derivatives.
 
     Parameters
     ----------
     params : mapping of str to array_like
-        Inputs by promoted name: ``altitude`` [m], ``speed`` [m/s], ``momentum_coefficient``,
-        ``slot_ratio``, ``chord`` [m], ``blown_span`` [m], ``freestream_assist``,
-        ``jet_loss_factor`` (lumped) or the geometric duct's ``suction_ratio``,
-        ``suction_inlet_loss``, ``bend_loss``, ``extra_loss``, ``roughness`` [m],
-        ``fan_diameter`` [m], ``transition_length`` [m], ``slot_exponent``;
+        Inputs by promoted name (:mod:`mdao.parameters`): ``altitude`` [m], ``speed`` [m/s],
+        ``duration`` [s] (optional: without it there is no ``energy_saving``),
+        ``momentum_coefficient``, ``slot_ratio``, ``chord`` [m], ``blown_span`` [m],
+        ``freestream_assist``, ``jet_loss_factor`` (lumped) or the geometric duct's
+        ``suction_ratio``, ``suction_inlet_loss``, ``bend_loss``, ``extra_loss``,
+        ``roughness`` [m], ``fan_diameter`` [m], ``transition_length`` [m], ``slot_exponent``;
         ``fan_pressure_rise`` [Pa] (optional: when absent the fan follows the requirement);
         ``fan_rated_efficiency`` (constant fan) or the map's ``pressure_coefficients`` (3,),
         ``peak_efficiency``, ``peak_flow_coefficient``, ``efficiency_falloff``,
         ``fan_diameter``; ``motor_efficiency``, ``chain_efficiency``, ``drag_clean``,
         ``slot_drag``, ``slot_drag_per_ratio``, ``drag_per_momentum``,
-        ``drag_per_momentum_per_ratio``, ``drag_quadratic``, ``lift_per_momentum``,
-        ``duration`` [s]. The geometric duct needs scalar geometry (one wing).
+        ``drag_per_momentum_per_ratio``, ``drag_quadratic``, ``lift_per_momentum``. Optional
+        parameters default to :attr:`mdao.parameters.Parameter.default`. The geometric duct
+        needs scalar geometry (one wing).
     options : ChainOptions
         Model choices.
     blowing : bool or array_like of bool
         Whether the fan runs.
+    derivatives : bool
+        Also return the partial derivatives of every output with respect to every input it
+        depends on (forward-mode tangents, elementwise: for an output ``y`` and an input ``x``
+        broadcast against it, ``d[y][x][i] = dy[i]/dx[j]`` with ``j`` the element of ``x`` that
+        ``y[i]`` sees; a wing-level scalar input thus gives one column). The tangent with respect
+        to ``pressure_coefficients`` has a last axis of length 3 (c0, c1, c2). Only pairs that
+        are structurally non-zero appear.
 
     Returns
     -------
-    dict of ndarray
-        Every intermediate: atmosphere fields, jet state, ``jet_loss_factor``,
-        ``required_pressure_rise``, ``fan_pressure_rise``, ``ram_driven``, ``fan_efficiency``,
-        ``shaft_power``, ``ideal_power`` (shaft power at unit fan efficiency), map outputs,
-        ``drag``, ``clean_drag``, ``drag_saving``, ``propulsion_power_saving``,
-        ``fan_electric_power``, ``net_power_saving``, ``energy_saving`` (SI).
+    out : dict of ndarray
+        Every intermediate: atmosphere fields, jet state (with ``slot_height`` [m]),
+        ``jet_loss_factor``, ``required_pressure_rise`` [Pa], ``ram_driven`` (bool),
+        ``fan_pressure_rise`` [Pa], ``fan_efficiency``, ``air_power`` [W] (Q dp, or the
+        isentropic work rate), ``fan_shaft_power`` [W], the map's ``fan_speed`` [rev/s],
+        ``flow_coefficient``, ``pressure_coefficient`` and ``tip_mach``; the geometric duct's
+        ``diffusion_half_angle`` [rad] (stations - 1, wing-level); ``drag_coefficient``,
+        ``section_drag`` [N], ``clean_section_drag`` [N], ``drag_saving`` [N],
+        ``lift_increment``, ``propulsion_power_saving`` [W], ``fan_electric_power`` [W],
+        ``net_power_saving`` [W] and ``energy_saving`` [J] (SI).
+    partials : dict of dict of ndarray
+        Only with ``derivatives``: ``{output: {input: ndarray of the output's shape}}`` (last
+        axis 3 for ``pressure_coefficients``); ``ram_driven`` has none.
+
+    Notes
+    -----
+    Where the map fan's speed has no solution the values and their partials are NaN; where the
+    jet is ram-driven (no fan power) the fan power's partials are zero, as in
+    :func:`mdao.physics.fan.shaft_power`.
     """
-    p = dict(DEFAULTS)
-    p.update(params)
+    p = with_defaults(params, options)
+    d = derivatives
     out = {}
-    atm = atmosphere.isa(p["altitude"])
+    tan = {}
+    if d:
+        for name in p:
+            tan[name] = {name: 1.0}
+        for root in _COEFFICIENTS:
+            tan[root] = {root: 1.0}
+
+    # Atmosphere and jet.
+    if d:
+        atm, datm = atmosphere.isa(p["altitude"], derivatives=True)
+        for field in atm._fields:
+            tan[field] = {"altitude": getattr(datm, field)}
+    else:
+        atm = atmosphere.isa(p["altitude"])
     out.update(atm._asdict())
-    js = jet.kinematics(p["momentum_coefficient"], p["slot_ratio"], p["speed"], atm.density,
-                        p["chord"], p["blown_span"], atm.speed_of_sound)
+    jet_args = (p["momentum_coefficient"], p["slot_ratio"], p["speed"], atm.density, p["chord"],
+                p["blown_span"], atm.speed_of_sound)
+    if d:
+        js, djs = jet.kinematics(*jet_args, derivatives=True)
+        for field in js._fields:
+            tan[field] = _chain({k: djs[field, k] for k in jet.KINEMATICS_INPUTS
+                                 if (field, k) in djs}, tan)
+    else:
+        js = jet.kinematics(*jet_args)
     out.update(js._asdict())
 
+    # Duct: the jet loss factor and the pressure rise the jet requires.
     if options.duct_model == "lumped":
         kj = np.asarray(p["jet_loss_factor"], float)
     else:
-        geo = {k: _scalar(k, p[k]) for k in ("fan_diameter", "blown_span", "slot_ratio", "chord",
-                                             "transition_length", "slot_exponent")}
-        st = _stations(geo["fan_diameter"], geo["blown_span"] / options.fans,
-                       geo["slot_ratio"] * geo["chord"], geo["transition_length"],
-                       geo["slot_exponent"], options.schedule, options.stations)
-        # Friction and the transition's form loss depend on the flow only: evaluate them on
-        # the flow's own shape (often far smaller than that of the samples), then add the
-        # loss coefficients, which may vary per sample.
-        shape = np.broadcast(js.volume_flow, atm.density, atm.viscosity).shape
-        flow = [np.broadcast_to(v, shape).ravel()
-                for v in (js.volume_flow / options.fans, atm.density, atm.viscosity)]
-        base = duct.jet_loss_factor(geo["slot_ratio"], 1.0, 0.0, 0.0, 0.0,
-                                    _scalar("roughness", p["roughness"]), *flow,
-                                    st.position, st.area, st.perimeter).reshape(shape)
-        k_in, k_bend = duct.coefficient_losses(geo["slot_ratio"], p["suction_ratio"],
-                                               p["suction_inlet_loss"], p["bend_loss"], st.area)
-        kj = base + k_in + k_bend + np.asarray(p["extra_loss"], float)
+        kj = _geometric_loss_factor(p, options, atm, js, tan if d else None)
+        st = duct_stations(p, options)
         out["diffusion_half_angle"] = st.half_angle
     out["jet_loss_factor"] = kj
-    req = duct.required_pressure_rise(kj, p["freestream_assist"], atm.density, js.jet_velocity,
-                                      js.dynamic_pressure)
+    res = duct.required_pressure_rise(kj, p["freestream_assist"], atm.density, js.jet_velocity,
+                                      js.dynamic_pressure, derivatives=d)
+    req = _step(tan, "required_pressure_rise", res, d)
     out["required_pressure_rise"] = req
     out["ram_driven"] = duct.ram_driven(req)
-    dp = np.asarray(p["fan_pressure_rise"], float) if "fan_pressure_rise" in p else req
+    if "fan_pressure_rise" in p:
+        dp = np.asarray(p["fan_pressure_rise"], float)
+    else:
+        dp = req
+        if d:
+            tan["fan_pressure_rise"] = tan["required_pressure_rise"]
     out["fan_pressure_rise"] = dp
 
+    # Fan: efficiency (and the map's operating point), air power and shaft power.
     if options.fan_model == "constant":
         eta = np.asarray(p["fan_rated_efficiency"], float) + 0 * js.volume_flow
+        if d:
+            tan["fan_efficiency"] = {"fan_rated_efficiency": 1.0}
     else:
-        coeffs = np.asarray(p["pressure_coefficients"], float)
-        q_f = js.volume_flow / options.fans
-        with np.errstate(invalid="ignore"):
-            n_rev = fan.speed(q_f, np.maximum(dp, 0.0), atm.density, p["fan_diameter"], coeffs)
-        phi = fan.flow_coefficient(q_f, n_rev, p["fan_diameter"])
-        eta = fan.efficiency(phi, p["peak_efficiency"], p["peak_flow_coefficient"],
-                             p["efficiency_falloff"])
-        out["fan_speed"] = n_rev
-        out["flow_coefficient"] = phi
-        out["tip_mach"] = fan.tip_mach(n_rev, p["fan_diameter"], atm.speed_of_sound)
+        eta = _fan_map(p, options, atm, js, dp, out, tan if d else None)
     out["fan_efficiency"] = eta
     if options.compressible:
-        ideal = fan.shaft_power_isentropic(js.mass_flow, dp, atm.pressure, atm.temperature, 1.0)
+        res = fan.shaft_power_isentropic(js.mass_flow, dp, atm.pressure, atm.temperature, 1.0,
+                                         derivatives=d)
+        names = {"mass_flow": "mass_flow", "pressure_rise": "fan_pressure_rise",
+                 "inlet_pressure": "pressure", "inlet_temperature": "temperature"}
     else:
-        ideal = fan.shaft_power(js.volume_flow, dp, 1.0)
+        res = fan.shaft_power(js.volume_flow, dp, 1.0, derivatives=d)
+        names = {"volume_flow": "volume_flow", "pressure_rise": "fan_pressure_rise"}
+    ideal = _step(tan, "air_power", res, d, names)
     out["air_power"] = ideal
+    on = ideal > 0
     with np.errstate(divide="ignore", invalid="ignore"):
-        out["fan_shaft_power"] = np.where(ideal > 0, ideal / eta, 0.0)
+        out["fan_shaft_power"] = np.where(on, ideal / eta, 0.0)
+        if d:
+            tan["fan_shaft_power"] = _chain({
+                "air_power": np.where(on, 1.0 / eta, 0.0),
+                "fan_efficiency": np.where(on, -out["fan_shaft_power"] / eta, 0.0)}, tan)
 
-    cd = airfoil.drag_coefficient(p["momentum_coefficient"], p["slot_ratio"], p["drag_clean"],
-                                  p["slot_drag"], p["slot_drag_per_ratio"], p["drag_per_momentum"],
-                                  p["drag_per_momentum_per_ratio"], p["drag_quadratic"])
+    # Airfoil: drag of the blown span against the clean section's.
+    drag_args = (p["slot_ratio"], p["drag_clean"], p["slot_drag"], p["slot_drag_per_ratio"],
+                 p["drag_per_momentum"], p["drag_per_momentum_per_ratio"], p["drag_quadratic"])
+    cd = airfoil.drag_coefficient(p["momentum_coefficient"], *drag_args)
     area = np.asarray(p["chord"], float) * np.asarray(p["blown_span"], float)
     out["drag_coefficient"] = cd
     out["section_drag"] = js.dynamic_pressure * area * cd
@@ -135,21 +202,254 @@ def evaluate(params, options=ChainOptions(), blowing=True):
     out["drag_saving"] = out["clean_section_drag"] - out["section_drag"]
     out["lift_increment"] = airfoil.lift_increment(p["momentum_coefficient"],
                                                    p["lift_per_momentum"])
-    prop, fan_el, net = power.segment_power(out["drag_saving"], p["speed"], out["fan_shaft_power"],
-                                            p["chain_efficiency"], p["motor_efficiency"],
-                                            blowing=blowing)
-    out["propulsion_power_saving"] = prop
-    out["fan_electric_power"] = fan_el
-    out["net_power_saving"] = net
-    out["energy_saving"] = power.segment_energy(net, p["duration"])
-    return out
+    if d:
+        _airfoil_tangents(p, js.dynamic_pressure, area, cd, tan)
+
+    # Segment power and energy.
+    res = power.segment_power(out["drag_saving"], p["speed"], out["fan_shaft_power"],
+                              p["chain_efficiency"], p["motor_efficiency"], blowing=blowing,
+                              derivatives=d)
+    for i, name in enumerate(("propulsion_power_saving", "fan_electric_power",
+                              "net_power_saving")):
+        out[name] = res[i]
+        if d:
+            tan[name] = _chain({k: v for (o, k), v in res[3].items() if o == name}, tan)
+    if "duration" in p:
+        out["energy_saving"] = power.segment_energy(out["net_power_saving"], p["duration"])
+        if d:
+            tan["energy_saving"] = _chain({"net_power_saving": p["duration"],
+                                           "duration": out["net_power_saving"]}, tan)
+    if not d:
+        return out
+    return out, _partials(out, tan)
+
+
+def duct_stations(params, options=ChainOptions(), derivatives=False):
+    """Transition stations of the wing's geometric duct (one duct per fan, all alike).
+
+    Parameters
+    ----------
+    params : mapping
+        As for :func:`evaluate`; uses ``fan_diameter``, ``blown_span``, ``slot_ratio``,
+        ``chord``, ``transition_length`` and ``slot_exponent`` (each one value for the wing).
+    options : ChainOptions
+        ``fans``, ``stations`` and ``schedule`` are used.
+    derivatives : bool
+        Also return ``{field: {input: ndarray (stations,) or (stations - 1,)}}`` for the fields
+        of :data:`STATION_FIELDS` and the inputs each depends on structurally.
+
+    Returns
+    -------
+    mdao.physics.transition.TransitionStations
+        Kept between calls with the same geometry (searches re-evaluate the same duct); do not
+        modify its arrays.
+    """
+    geo = _geometry(with_defaults(params, options))
+    st = _stations(*geo, options.fans, options.schedule, options.stations)
+    if not derivatives:
+        return st
+    return st, _station_tangents(*geo, options.fans, options.schedule, options.stations)
+
+
+def _geometry(p):
+    return tuple(_scalar(k, p[k]) for k in STATION_ROOTS)
 
 
 @functools.lru_cache(maxsize=64)
-def _stations(fan_diameter, slot_width, slot_height, length, slot_exponent, schedule, count):
+def _stations(fan_diameter, blown_span, slot_ratio, chord, length, slot_exponent, fans, schedule,
+              count):
     """Transition stations of one wing geometry, kept: searches re-evaluate the same duct."""
-    return transition.stations(fan_diameter, slot_width, slot_height, length, slot_exponent,
-                               schedule=schedule, count=count)
+    return transition.stations(fan_diameter, blown_span / fans, slot_ratio * chord, length,
+                               slot_exponent, schedule=schedule, count=count)
+
+
+def _station_dependencies(schedule):
+    """Inputs each station field depends on: the position on the length only, the sections on
+    all but the length; with the monotone-area schedule the areas (hence the angles) not on the
+    slot exponent (the outlet area is w h whatever the exponent)."""
+    sections = [k for k in STATION_ROOTS if k != "transition_length"]
+    area = sections if schedule != "monotone-area" else [k for k in sections
+                                                         if k != "slot_exponent"]
+    return {"position": ["transition_length"], "area": area, "perimeter": sections,
+            "hydraulic_diameter": sections, "half_angle": area + ["transition_length"]}
+
+
+@functools.lru_cache(maxsize=64)
+def _station_tangents(fan_diameter, blown_span, slot_ratio, chord, length, slot_exponent, fans,
+                      schedule, count):
+    """Station fields' partials by wing input, through slot width b/fans and height r_s c."""
+    _, ds = transition.stations(fan_diameter, blown_span / fans, slot_ratio * chord, length,
+                                slot_exponent, schedule=schedule, count=count, derivatives=True)
+    via = {"fan_diameter": ("fan_diameter", 1.0), "blown_span": ("slot_width", 1.0 / fans),
+           "slot_ratio": ("slot_height", chord), "chord": ("slot_height", slot_ratio),
+           "transition_length": ("length", 1.0), "slot_exponent": ("slot_exponent", 1.0)}
+    return {field: {k: ds[field, via[k][0]] * via[k][1] for k in roots}
+            for field, roots in _station_dependencies(schedule).items()}
+
+
+def _geometric_loss_factor(p, options, atm, js, tan):
+    """Geometric jet loss factor; its tangent into ``tan`` when given."""
+    geo = _geometry(p)
+    st = _stations(*geo, options.fans, options.schedule, options.stations)
+    r_s = geo[STATION_ROOTS.index("slot_ratio")]
+    # Friction and the transition's form loss depend on the flow only: evaluate them on the
+    # flow's own shape (often far smaller than that of the samples), then add the loss
+    # coefficients, which may vary per sample.
+    shape = np.broadcast(js.volume_flow, atm.density, atm.viscosity).shape
+    flow = [np.broadcast_to(v, shape).ravel()
+            for v in (js.volume_flow / options.fans, atm.density, atm.viscosity)]
+    res = duct.jet_loss_factor(r_s, 1.0, 0.0, 0.0, 0.0, _scalar("roughness", p["roughness"]),
+                               *flow, st.position, st.area, st.perimeter,
+                               derivatives=tan is not None)
+    base = (res[0] if tan is not None else res).reshape(shape)
+    k_in, k_bend = duct.coefficient_losses(r_s, p["suction_ratio"], p["suction_inlet_loss"],
+                                           p["bend_loss"], st.area)
+    kj = base + k_in + k_bend + np.asarray(p["extra_loss"], float)
+    if tan is None:
+        return kj
+    db = {k: v.reshape(shape + v.shape[1:]) for k, v in res[1].items()}
+    sd = _station_tangents(*geo, options.fans, options.schedule, options.stations)
+    tan["diffusion_half_angle"] = sd["half_angle"]
+    terms = [_chain({"volume_flow": db["volume_flow"] / options.fans, "density": db["density"],
+                     "viscosity": db["viscosity"]}, tan),
+             {"roughness": db["roughness"], "extra_loss": 1.0}]
+    # Through the stations: friction and form loss (on every station), bend loss (on the ends).
+    # k_in = K_in (r_s/r_suc)^2 and k_bend = K_bend (A_slot/A_fan)^2 (coefficient_losses).
+    a_fan, a_slot = st.area[0], st.area[-1]
+    ratio_in = r_s / np.asarray(p["suction_ratio"], float)
+    terms.append({"slot_ratio": 2.0 * k_in / r_s,
+                  "suction_ratio": -2.0 * k_in / np.asarray(p["suction_ratio"], float),
+                  "suction_inlet_loss": ratio_in ** 2, "bend_loss": (a_slot / a_fan) ** 2})
+    station = {}
+    for field in ("position", "area", "perimeter"):
+        for k, t in sd[field].items():
+            station[k] = station.get(k, 0.0) + db[field] @ t
+    for k, t in sd["area"].items():
+        station[k] = station[k] + 2.0 * k_bend * (t[-1] / a_slot - t[0] / a_fan)
+    terms.append(station)
+    tan["jet_loss_factor"] = _add(*terms)
+    return kj
+
+
+def _fan_map(p, options, atm, js, dp, out, tan):
+    """The map fan's operating point into ``out`` (and tangents); returns its efficiency."""
+    coeffs = np.asarray(p["pressure_coefficients"], float)
+    diameter = p["fan_diameter"]
+    q_f = js.volume_flow / options.fans
+    d = tan is not None
+    with np.errstate(invalid="ignore"):
+        res = fan.speed(q_f, np.maximum(dp, 0.0), atm.density, diameter, coeffs, derivatives=d)
+    n_rev = res[0] if d else res
+    res_phi = fan.flow_coefficient(q_f, n_rev, diameter, derivatives=d)
+    phi = res_phi[0] if d else res_phi
+    res_eta = fan.efficiency(phi, p["peak_efficiency"], p["peak_flow_coefficient"],
+                             p["efficiency_falloff"], derivatives=d)
+    res_tip = fan.tip_mach(n_rev, diameter, atm.speed_of_sound, derivatives=d)
+    res_psi = fan.pressure_coefficient(dp, atm.density, n_rev, diameter, derivatives=d)
+    out["fan_speed"] = n_rev
+    out["flow_coefficient"] = phi
+    out["pressure_coefficient"] = res_psi[0] if d else res_psi
+    out["tip_mach"] = res_tip[0] if d else res_tip
+    if not d:
+        return res_eta
+    ds = res[1]
+    with np.errstate(invalid="ignore"):
+        tan["fan_speed"] = _chain({
+            "volume_flow": ds["volume_flow"] / options.fans,
+            "fan_pressure_rise": np.where(dp > 0, ds["pressure_rise"], 0.0),
+            "density": ds["density"], "fan_diameter": ds["diameter"],
+            _COEFFICIENTS[0]: ds["c0"], _COEFFICIENTS[1]: ds["c1"], _COEFFICIENTS[2]: ds["c2"]},
+            tan)
+    dphi = res_phi[1]
+    tan["flow_coefficient"] = _chain({"volume_flow": dphi["volume_flow"] / options.fans,
+                                      "fan_speed": dphi["speed"],
+                                      "fan_diameter": dphi["diameter"]}, tan)
+    _step(tan, "pressure_coefficient", res_psi, True,
+          {"pressure_rise": "fan_pressure_rise", "density": "density", "speed": "fan_speed",
+           "diameter": "fan_diameter"})
+    _step(tan, "tip_mach", res_tip, True,
+          {"speed": "fan_speed", "diameter": "fan_diameter", "speed_of_sound": "speed_of_sound"})
+    return _step(tan, "fan_efficiency", res_eta, True)
+
+
+def _airfoil_tangents(p, q, area, cd, tan):
+    """Tangents of the drag outputs; the saving through the blown increment C_D - C_D,clean
+    alone, so that it does not depend on the clean drag."""
+    names = ("momentum_coefficient", "slot_ratio", "drag_clean", "slot_drag",
+             "slot_drag_per_ratio", "drag_per_momentum", "drag_per_momentum_per_ratio",
+             "drag_quadratic")
+    inc, dinc = airfoil.drag_coefficient(p["momentum_coefficient"], p["slot_ratio"], 0.0,
+                                         *(p[k] for k in names[3:]), derivatives=True)
+    tan["blown_increment"] = _chain({k: dinc[k] for k in names if k != "drag_clean"}, tan)
+    tan["drag_coefficient"] = _add(tan["blown_increment"], {"drag_clean": 1.0})
+    tan["area"] = {"chord": p["blown_span"], "blown_span": p["chord"]}
+    cd0 = np.asarray(p["drag_clean"], float)
+    tan["section_drag"] = _chain({"dynamic_pressure": area * cd, "area": q * cd,
+                                  "drag_coefficient": q * area}, tan)
+    tan["clean_section_drag"] = _chain({"dynamic_pressure": area * cd0, "area": q * cd0,
+                                        "drag_clean": q * area}, tan)
+    tan["drag_saving"] = _chain({"dynamic_pressure": -area * inc, "area": -q * inc,
+                                 "blown_increment": -q * area}, tan)
+    tan["lift_increment"] = {"momentum_coefficient": p["lift_per_momentum"],
+                             "lift_per_momentum": p["momentum_coefficient"]}
+
+
+def _step(tan, name, result, derivatives, names=None):
+    """Value of a physics call; with ``derivatives`` its tangent ``tan[name]`` by the chain
+    rule, the call's partials keyed by argument name (renamed to quantities by ``names``)."""
+    if not derivatives:
+        return result
+    value, partials = result
+    local = {(names or {}).get(k, k): v for k, v in partials.items()
+             if names is None or k in names}
+    tan[name] = _chain(local, tan)
+    return value
+
+
+def _chain(local, tan):
+    """Chain rule, elementwise: d(out)/d(root) = sum over quantities x of d(out)/dx dx/d(root).
+
+    ``local`` maps a quantity to the partial of the output; ``tan`` maps each quantity to its
+    tangents ``{root: derivative}``. Quantities without tangents (constants) are skipped.
+    """
+    out = {}
+    for name, dx in local.items():
+        for root, t in tan.get(name, {}).items():
+            term = dx * t
+            out[root] = out[root] + term if root in out else term
+    return out
+
+
+def _add(*tangents):
+    """Sum of tangent dictionaries."""
+    out = {}
+    for t in tangents:
+        for root, v in t.items():
+            out[root] = out[root] + v if root in out else v
+    return out
+
+
+def _partials(out, tan):
+    """``{output: {input: tangent broadcast to the output}}``; the pressure coefficients
+    stacked on a last axis."""
+    result = {}
+    for name, value in out.items():
+        if name == "ram_driven" or name not in tan:
+            continue
+        shape = np.shape(value)
+        row = {}
+        coeffs = {}
+        for root, t in tan[name].items():
+            if root in _COEFFICIENTS:
+                coeffs[root[1]] = t
+            else:
+                row[root] = np.broadcast_to(np.asarray(t, float), shape)
+        if coeffs:
+            row["pressure_coefficients"] = np.stack(
+                [np.broadcast_to(np.asarray(coeffs.get(i, 0.0), float), shape)
+                 for i in range(3)], axis=-1)
+        result[name] = row
+    return result
 
 
 def _scalar(name, value):

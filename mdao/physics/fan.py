@@ -39,7 +39,7 @@ def flow_coefficient(volume_flow, speed, diameter, derivatives=False):
     Parameters
     ----------
     volume_flow : array_like
-        Volume flow through one fan, [m^3/s].
+        Volume flow through one fan, [m^3/s] (>= 0).
     speed : array_like
         Shaft speed, [rev/s] (> 0).
     diameter : array_like
@@ -58,6 +58,8 @@ def flow_coefficient(volume_flow, speed, diameter, derivatives=False):
 
     Examples
     --------
+    D = 0.1 m, 20 000 rpm, Q = 0.1 m^3/s: phi = 0.1 / (333.33 * 0.001) = 0.3 (by hand).
+
     >>> round(float(flow_coefficient(0.1, 20000 / 60, 0.1)), 5)
     0.3
     """
@@ -74,7 +76,7 @@ def pressure_coefficient(pressure_rise, density, speed, diameter, derivatives=Fa
     Parameters
     ----------
     pressure_rise : array_like
-        Fan total-pressure rise, [Pa].
+        Fan total-pressure rise, [Pa] (any real value; > 0 when the fan works).
     density : array_like
         Inlet density, [kg/m^3] (> 0).
     speed : array_like
@@ -95,6 +97,8 @@ def pressure_coefficient(pressure_rise, density, speed, diameter, derivatives=Fa
 
     Examples
     --------
+    By hand: 2000 / (1.225 * 333.33**2 * 0.01) = 1.46939.
+
     >>> round(float(pressure_coefficient(2000.0, 1.225, 20000 / 60, 0.1)), 5)
     1.46939
     """
@@ -113,7 +117,7 @@ def power_coefficient(power, density, speed, diameter):
     Parameters
     ----------
     power : array_like
-        Shaft power of one fan, [W].
+        Shaft power of one fan, [W] (>= 0).
     density : array_like
         Inlet density, [kg/m^3] (> 0).
     speed : array_like
@@ -132,6 +136,8 @@ def power_coefficient(power, density, speed, diameter):
 
     Examples
     --------
+    By hand: 250 / (1.225 * 333.33**3 * 1e-5) = 0.55102 (with phi psi / lambda = 0.8).
+
     >>> round(float(power_coefficient(250.0, 1.225, 20000 / 60, 0.1)), 5)
     0.55102
     """
@@ -149,14 +155,14 @@ def scale(volume_flow, pressure_rise, power, speed_ratio, diameter_ratio, densit
     Parameters
     ----------
     volume_flow, pressure_rise, power : array_like
-        The known point, [m^3/s], [Pa], [W].
+        The known point, [m^3/s] (>= 0), [Pa] (any real value), [W] (>= 0).
     speed_ratio, diameter_ratio, density_ratio : array_like
-        New over old speed, diameter and density, [-].
+        New over old speed, diameter and density, [-] (> 0).
 
     Returns
     -------
     ScaledFan
-        Named tuple (volume_flow, pressure_rise, power) of the scaled point.
+        Named tuple of the scaled point: volume_flow [m^3/s], pressure_rise [Pa], power [W].
 
     References
     ----------
@@ -164,6 +170,8 @@ def scale(volume_flow, pressure_rise, power, speed_ratio, diameter_ratio, densit
 
     Examples
     --------
+    Half the speed, twice the diameter; by hand Q x 0.5 x 8, dp x 0.25 x 4, P x 0.125 x 32:
+
     >>> tuple(round(float(v), 6) for v in scale(0.1, 2000.0, 250.0, 0.5, 2.0))
     (0.4, 2000.0, 1000.0)
     """
@@ -178,7 +186,7 @@ def characteristic(flow_coefficient, coefficients):
     Parameters
     ----------
     flow_coefficient : array_like
-        Flow coefficient, [-].
+        Flow coefficient, [-] (>= 0, inside the map's flow-coefficient range).
     coefficients : sequence of 3 array_like
         (c0, c1, c2), [-]; a stable fan has c2 < 0 and operates where dpsi/dphi < 0.
 
@@ -193,6 +201,8 @@ def characteristic(flow_coefficient, coefficients):
 
     Examples
     --------
+    By hand: 0.6 + 0.5 * 0.2 - 1.5 * 0.04 = 0.64.
+
     >>> round(float(characteristic(0.2, (0.6, 0.5, -1.5))), 12)
     0.64
     """
@@ -216,13 +226,13 @@ def speed(volume_flow, pressure_rise, density, diameter, coefficients, derivativ
     volume_flow : array_like
         Volume flow through one fan, [m^3/s] (>= 0).
     pressure_rise : array_like
-        Required pressure rise, [Pa].
+        Required pressure rise, [Pa] (any real value; NaN speed where no positive root).
     density : array_like
         Inlet density, [kg/m^3] (> 0).
     diameter : array_like
         Fan diameter, [m] (> 0).
     coefficients : sequence of 3 array_like
-        (c0, c1, c2) of :func:`characteristic`; c0 must be > 0.
+        (c0, c1, c2) of :func:`characteristic`, [-]; c0 must be > 0.
     derivatives : bool
         Also return a dict of partials keyed 'volume_flow', 'pressure_rise', 'density',
         'diameter', 'c0', 'c1', 'c2' (implicit differentiation: dN/dx = -dF/dx / sqrt(Delta)).
@@ -294,7 +304,7 @@ def efficiency(flow_coefficient, peak_efficiency, peak_flow_coefficient, efficie
     Parameters
     ----------
     flow_coefficient : array_like
-        Flow coefficient, [-].
+        Flow coefficient, [-] (>= 0, inside the map's flow-coefficient range).
     peak_efficiency : array_like
         Best efficiency, [-] (0, 1].
     peak_flow_coefficient : array_like
@@ -314,9 +324,12 @@ def efficiency(flow_coefficient, peak_efficiency, peak_flow_coefficient, efficie
     ----------
     .. [1] Eck (1973), ch. 2 (efficiency hill about the design flow; the parabola is common
        practice, no source).
+    .. [2] docs/theory.md, section "Fan" (the efficiency parabola of this project's map).
 
     Examples
     --------
+    At half the peak flow: 0.8 (1 - 0.8 * 0.25) = 0.64 (by hand).
+
     >>> round(float(efficiency(0.15, 0.8, 0.3, 0.8)), 12)
     0.64
     """
@@ -339,11 +352,11 @@ def shaft_power(volume_flow, pressure_rise, efficiency, derivatives=False):
     Parameters
     ----------
     volume_flow : array_like
-        Volume flow, [m^3/s].
+        Volume flow, [m^3/s] (>= 0).
     pressure_rise : array_like
-        Total-pressure rise, [Pa].
+        Total-pressure rise, [Pa] (any real value; <= 0 gives zero power).
     efficiency : array_like
-        Fan efficiency, [-] (> 0).
+        Fan efficiency, [-] (in (0, 1]).
     derivatives : bool
         Also return a dict of partials keyed 'volume_flow', 'pressure_rise', 'efficiency'.
 
@@ -360,6 +373,8 @@ def shaft_power(volume_flow, pressure_rise, efficiency, derivatives=False):
 
     Examples
     --------
+    By hand: 0.1 * 2000 / 0.8 = 250 W.
+
     >>> round(float(shaft_power(0.1, 2000.0, 0.8)), 9)
     250.0
     """
@@ -388,19 +403,19 @@ def shaft_power_isentropic(mass_flow, pressure_rise, inlet_pressure, inlet_tempe
     Parameters
     ----------
     mass_flow : array_like
-        Mass flow, [kg/s].
+        Mass flow, [kg/s] (>= 0).
     pressure_rise : array_like
-        Total-pressure rise, [Pa].
+        Total-pressure rise, [Pa] (any real value; <= 0 gives zero power).
     inlet_pressure : array_like
         Inlet total pressure, [Pa] (> 0).
     inlet_temperature : array_like
         Inlet total temperature, [K] (> 0).
     efficiency : array_like
-        Isentropic (total-to-total) efficiency, [-] (> 0).
+        Isentropic (total-to-total) efficiency, [-] (in (0, 1]).
     gamma : float
-        Ratio of specific heats, [-].
+        Ratio of specific heats, [-] (> 1; 1.4 for air).
     cp : float
-        Specific heat at constant pressure, [J/(kg K)].
+        Specific heat at constant pressure, [J/(kg K)] (> 0; 1004.685 for air).
     derivatives : bool
         Also return a dict of partials keyed 'mass_flow', 'pressure_rise', 'inlet_pressure',
         'inlet_temperature', 'efficiency'.
@@ -418,6 +433,8 @@ def shaft_power_isentropic(mass_flow, pressure_rise, inlet_pressure, inlet_tempe
 
     Examples
     --------
+    A pressure ratio 2**3.5 makes (1 + x)**(0.4/1.4) = 2, so P = 1 * 1004.685 * 300 (by hand):
+
     >>> round(float(shaft_power_isentropic(1.0, 101325.0 * (2**3.5 - 1), 101325.0, 300.0, 1.0)), 6)
     301405.5
     """
@@ -446,9 +463,9 @@ def tip_mach(speed, diameter, speed_of_sound, derivatives=False):
     Parameters
     ----------
     speed : array_like
-        Shaft speed, [rev/s].
+        Shaft speed, [rev/s] (>= 0).
     diameter : array_like
-        Fan diameter, [m].
+        Fan diameter, [m] (> 0).
     speed_of_sound : array_like
         Inlet speed of sound, [m/s] (> 0).
     derivatives : bool
@@ -465,6 +482,8 @@ def tip_mach(speed, diameter, speed_of_sound, derivatives=False):
 
     Examples
     --------
+    20 000 rpm, 0.1 m, ISA sea-level speed of sound: pi * 333.33 * 0.1 / 340.294 (by hand).
+
     >>> round(float(tip_mach(20000 / 60, 0.1, 340.294)), 6)
     0.307733
     """
@@ -479,14 +498,20 @@ def tip_mach(speed, diameter, speed_of_sound, derivatives=False):
 def margins(speed, max_speed, flow_coefficient, flow_coefficient_range):
     r"""Margins to the speed limit and to the map's flow range (positive = inside).
 
+    .. math::
+        m_N = 1 - \frac{N}{N_{max}},\qquad m_{stall} = \frac{\phi}{\phi_{lo}} - 1,\qquad
+        m_{choke} = 1 - \frac{\phi}{\phi_{hi}}
+
     Parameters
     ----------
-    speed, max_speed : array_like
-        Shaft speed and its limit, [rev/s].
+    speed : array_like
+        Shaft speed, [rev/s] (>= 0).
+    max_speed : array_like
+        Shaft speed limit, [rev/s] (> 0).
     flow_coefficient : array_like
-        Operating flow coefficient, [-].
+        Operating flow coefficient, [-] (>= 0).
     flow_coefficient_range : (lo, hi)
-        Valid flow-coefficient range of the map, [-]; lo is the stall side.
+        Valid flow-coefficient range of the map, [-], 0 < lo < hi; lo is the stall side.
 
     Returns
     -------
@@ -496,10 +521,13 @@ def margins(speed, max_speed, flow_coefficient, flow_coefficient_range):
 
     References
     ----------
-    .. [1] Definitions of this module (relative margins; common practice, no source).
+    .. [1] docs/theory.md, section "Optimization" (the fan speed and flow-coefficient range
+       constraints); the relative form of the margins is common practice, no source.
 
     Examples
     --------
+    By hand: 1 - 400/500 = 0.2, 0.25/0.2 - 1 = 0.25, 1 - 0.25/0.4 = 0.375.
+
     >>> tuple(round(float(v), 12) for v in margins(400.0, 500.0, 0.25, (0.2, 0.4)))
     (0.2, 0.25, 0.375)
     """
@@ -531,9 +559,15 @@ def fit_points(volume_flow, pressure_rise, speed, density, diameter, efficiency=
     r"""Fit a :class:`FanMap` to measured points by linear least squares.
 
     Each point gives phi = Q/(N D^3) and psi = dp/(rho N^2 D^2); psi(phi) and eta(phi) are fitted
-    as quadratics (``numpy.linalg.lstsq``, no normal equations). The efficiency quadratic
-    ``e0 + e1 phi + e2 phi^2`` is converted to the peak form of :func:`efficiency`:
-    phi_pk = -e1/(2 e2), eta_pk = e0 - e1^2/(4 e2), falloff = -e2 phi_pk^2 / eta_pk.
+    as quadratics (``numpy.linalg.lstsq``, no normal equations),
+
+    .. math::
+        \min_{c}\sum_i\left(\psi_i - c_0 - c_1\phi_i - c_2\phi_i^2\right)^2,\qquad
+        \min_{e}\sum_i\left(\eta_i - e_0 - e_1\phi_i - e_2\phi_i^2\right)^2 .
+
+    The efficiency quadratic is converted to the peak form of :func:`efficiency`:
+    :math:`\phi_{pk} = -e_1/(2 e_2)`, :math:`\eta_{pk} = e_0 - e_1^2/(4 e_2)`,
+    :math:`f = -e_2\phi_{pk}^2/\eta_{pk}`.
 
     Parameters
     ----------
@@ -558,10 +592,11 @@ def fit_points(volume_flow, pressure_rise, speed, density, diameter, efficiency=
     Returns
     -------
     fan_map : FanMap
-        The fitted map; flow_coefficient_range is the measured (min, max) phi.
+        The fitted map, all coefficients [-]; flow_coefficient_range is the measured (min, max)
+        phi.
     stats : dict
         'pressure_r2', 'pressure_residual_std', 'efficiency_r2', 'efficiency_residual_std'
-        (residual std with n - 3 degrees of freedom), 'points' (count).
+        (residual std with n - 3 degrees of freedom), all [-], and 'points' (count).
 
     Raises
     ------
@@ -577,6 +612,8 @@ def fit_points(volume_flow, pressure_rise, speed, density, diameter, efficiency=
 
     Examples
     --------
+    Four points generated exactly on psi = 0.6 + 0.5 phi - 1.5 phi^2; the fit recovers it:
+
     >>> phi = [0.2, 0.25, 0.3, 0.35]
     >>> fm, st = fit_points([p * 300 * 1e-3 for p in phi],
     ...                     [1.225 * 300**2 * 0.01 * (0.6 + 0.5 * p - 1.5 * p * p) for p in phi],

@@ -14,7 +14,8 @@ References
 ----------
 .. [1] Englar, R. J. "Circulation control pneumatic aerodynamics: blown force and moment
    augmentation and modification." AIAA Progress in Astronautics and Aeronautics 192 (2001),
-   for the definition of the momentum coefficient used throughout blown-airfoil work.
+   for the definition of the momentum coefficient used throughout blown-airfoil work
+   (from memory).
 """
 from typing import NamedTuple
 
@@ -39,10 +40,31 @@ KINEMATICS_INPUTS = ("momentum_coefficient", "slot_ratio", "speed", "density", "
 
 
 def dynamic_pressure(density, speed):
-    r"""Freestream dynamic pressure :math:`q = \rho V^2 / 2`, [Pa].
+    r"""Freestream dynamic pressure.
+
+    .. math:: q = \frac{\rho V^2}{2}
+
+    Parameters
+    ----------
+    density : array_like
+        Freestream density, [kg/m^3], > 0.
+    speed : array_like
+        Freestream (true air) speed, [m/s], >= 0.
+
+    Returns
+    -------
+    q : ndarray
+        Dynamic pressure, [Pa].
+
+    References
+    ----------
+    .. [1] Anderson, J. D. *Fundamentals of Aerodynamics*, 6th ed., McGraw-Hill, 2017, ch. 1
+       (definition of the dynamic pressure; from memory).
 
     Examples
     --------
+    ISA sea-level density at 40 m/s; by hand 1.225 * 40**2 / 2 = 980 Pa:
+
     >>> round(float(dynamic_pressure(1.225, 40.0)), 9)
     980.0
     """
@@ -50,17 +72,42 @@ def dynamic_pressure(density, speed):
 
 
 def jet_velocity_ratio(momentum_coefficient, slot_ratio):
-    r"""Jet to freestream velocity ratio :math:`\sqrt{C_\mu / (2 r_s)}`, [-].
+    r"""Jet to freestream velocity ratio from the momentum coefficient.
+
+    .. math::
+        \frac{V_j}{V} = \sqrt{\frac{C_\mu}{2 r_s}}
+
+    from :math:`C_\mu = \dot m V_j/(q S)` with :math:`\dot m = \rho\, r_s c\, b\, V_j` and
+    :math:`S = c b` (jet at the freestream density).
 
     Parameters
     ----------
     momentum_coefficient : array_like
-        :math:`C_\mu \ge 0`, [-].
+        Momentum coefficient :math:`C_\mu`, [-], >= 0.
     slot_ratio : array_like
-        Injection slot height over chord, > 0, [-].
+        Injection slot height over chord :math:`r_s`, [-], > 0.
+
+    Returns
+    -------
+    ratio : ndarray
+        Velocity ratio :math:`V_j / V`, [-].
+
+    Raises
+    ------
+    ValueError
+        If any slot ratio is <= 0 or any momentum coefficient is < 0.
+
+    References
+    ----------
+    .. [1] Englar, R. J. "Circulation control pneumatic aerodynamics: blown force and moment
+       augmentation and modification." AIAA Progress in Astronautics and Aeronautics 192 (2001)
+       (definition of the momentum coefficient; from memory).
+    .. [2] docs/theory.md, section "Jet kinematics" (the one-line derivation of the ratio).
 
     Examples
     --------
+    By hand: sqrt(0.08 / (2 * 0.01)) = sqrt(4) = 2.
+
     >>> float(jet_velocity_ratio(0.08, 0.01))
     2.0
     """
@@ -77,33 +124,49 @@ def kinematics(momentum_coefficient, slot_ratio, speed, density, chord, blown_sp
                speed_of_sound, derivatives=False):
     r"""Jet state for a momentum coefficient, vectorized over operating points.
 
+    .. math::
+        q = \tfrac12\rho V^2,\quad V_j = V\sqrt{\frac{C_\mu}{2 r_s}},\quad h = r_s c,\quad
+        Q = h\, b\, V_j,\quad \dot m = \rho Q,\quad M_j = \frac{V_j}{a}
+
     Parameters
     ----------
     momentum_coefficient : array_like
-        :math:`C_\mu = \dot m V_j/(q S)`, >= 0, [-].
+        :math:`C_\mu = \dot m V_j/(q S)`, [-], >= 0.
     slot_ratio : array_like
-        Injection slot height over chord :math:`r_s`, > 0, [-].
+        Injection slot height over chord :math:`r_s`, [-], > 0.
     speed : array_like
-        Freestream speed, [m/s].
+        Freestream speed, [m/s], > 0.
     density : array_like
-        Freestream density, [kg/m^3].
+        Freestream density, [kg/m^3], > 0.
     chord, blown_span : array_like
-        Chord and blown span, [m].
+        Chord and blown span, [m], > 0.
     speed_of_sound : array_like
-        Freestream speed of sound, [m/s].
+        Freestream speed of sound, [m/s], > 0.
     derivatives : bool
         Also return the partial derivatives.
 
     Returns
     -------
     state : JetState
+        dynamic_pressure [Pa], jet_velocity [m/s], mass_flow [kg/s], volume_flow [m^3/s]
+        (all slots), jet_mach [-] and slot_height [m], each of the inputs' broadcast shape.
     partials : dict
         Only with ``derivatives``: ``{(field, input): ndarray}`` for every field of
         :class:`JetState` and every name in :data:`KINEMATICS_INPUTS` it depends on. At
         :math:`C_\mu = 0` (jet off) the derivative in :math:`C_\mu`, infinite there, is set to 0.
 
+    References
+    ----------
+    .. [1] Englar, R. J. "Circulation control pneumatic aerodynamics: blown force and moment
+       augmentation and modification." AIAA Progress in Astronautics and Aeronautics 192 (2001)
+       (definition of the momentum coefficient; from memory).
+    .. [2] docs/theory.md, section "Jet kinematics".
+
     Examples
     --------
+    By hand: V_j = 40 * sqrt(0.08 / 0.02) = 80 m/s, h = 0.01 * 0.5 = 0.005 m,
+    Q = 0.005 * 2 * 80 = 0.8 m^3/s:
+
     >>> s = kinematics(0.08, 0.01, 40.0, 1.225, 0.5, 2.0, 340.0)
     >>> float(s.jet_velocity), round(float(s.volume_flow), 6), float(s.slot_height)
     (80.0, 0.8, 0.005)

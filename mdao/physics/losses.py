@@ -169,12 +169,12 @@ def bend_rounded(radius_ratio, darcy, angle=np.pi / 2, reynolds=1e5):
     radius_ratio : array_like
         Bend centre-line radius over duct (hydraulic) diameter r/D, [-], >= 0.5.
     darcy : array_like or None
-        Darcy friction factor of the duct, [-]; if None, the smooth-wall value at ``reynolds``
-        from :func:`mdao.physics.friction.churchill`.
+        Darcy friction factor of the duct, [-], > 0; if None, the smooth-wall value at
+        ``reynolds`` from :func:`mdao.physics.friction.churchill`.
     angle : array_like
         Bend angle, [rad], in (0, pi].
     reynolds : array_like
-        Reynolds number, [-]; used only when ``darcy`` is None.
+        Reynolds number on the duct diameter, [-], > 0; used only when ``darcy`` is None.
 
     Returns
     -------
@@ -188,6 +188,8 @@ def bend_rounded(radius_ratio, darcy, angle=np.pi / 2, reynolds=1e5):
 
     Examples
     --------
+    Rennels & Hudson's 90 deg bend at r/D = 1 with f = 0.017990 (Re 1e5, smooth): K = 0.3133.
+
     >>> round(float(bend_rounded(1.0, 0.017990)), 4)
     0.3133
     """

@@ -96,10 +96,13 @@ def rotating_mass(rated_shaft_power, fan_specific_power, motor_specific_power,
 
     References
     ----------
-    .. [1] Module references [1] (component weight from a specific power).
+    .. [1] Raymer, D. P. *Aircraft Design: A Conceptual Approach*, 6th ed., AIAA (2018),
+       chapter 15 (component weight from a specific power; from memory).
 
     Examples
     --------
+    By hand: 1000 (1/2500 + 1/5000) = 0.4 + 0.2 = 0.6 kg.
+
     >>> round(float(rotating_mass(1000.0, 2500.0, 5000.0)), 12)
     0.6
     """
@@ -130,7 +133,7 @@ def transition_wetted_area(position, perimeter, fans=1, derivatives=False):
     perimeter : array_like, shape (..., m)
         Section perimeter at each station, [m], >= 0.
     fans : int
-        Number of identical ducts (one per fan), >= 1.
+        Number of identical ducts (one per fan), [-], integer >= 1.
     derivatives : bool
         Also return the partial derivatives with respect to every station.
 
@@ -154,7 +157,8 @@ def transition_wetted_area(position, perimeter, fans=1, derivatives=False):
 
     Examples
     --------
-    A straight round duct of 0.1 m diameter and 0.5 m length, two of them:
+    A straight round duct of 0.1 m diameter and 0.5 m length, two of them; by hand
+    2 * pi * 0.1 * 0.5 = 0.1 pi:
 
     >>> x = np.linspace(0.0, 0.5, 5)
     >>> round(float(transition_wetted_area(x, np.full(5, np.pi * 0.1), fans=2)), 10)
@@ -207,12 +211,21 @@ def lumped_wetted_area(chord, blown_span, wetted_ratio, derivatives=False):
     Returns
     -------
     area : ndarray
-        [m**2].
+        Wetted area, [m**2].
     partials : dict
         Only with ``derivatives``: ``{"chord", "blown_span", "wetted_ratio"}``.
 
+    References
+    ----------
+    .. [1] Raymer, D. P. *Aircraft Design: A Conceptual Approach*, 6th ed., AIAA (2018),
+       chapter 15 (duct and skin weights from wetted area times an areal
+       density; from memory). The ratio of about 1.5 is this project's estimate (common
+       practice, no source).
+
     Examples
     --------
+    By hand: 1.5 * 0.42 * 3.2 = 2.016 m**2.
+
     >>> round(float(lumped_wetted_area(0.42, 3.2, 1.5)), 12)
     2.016
     """
@@ -249,17 +262,22 @@ def blowing_system_mass(rotating, wetted_area, duct_areal_density, installation_
     Returns
     -------
     mass : ndarray
-        [kg].
+        Installed mass, [kg].
     partials : dict
         Only with ``derivatives``: ``{"rotating", "wetted_area", "duct_areal_density",
         "installation_factor"}``.
 
     References
     ----------
-    .. [1] Module references [1], [2] (installation factors on component weights).
+    .. [1] Raymer, D. P. *Aircraft Design: A Conceptual Approach*, 6th ed., AIAA (2018),
+       chapter 15 (weight build-up with installation factors; from memory).
+    .. [2] Gudmundsson, S. *General Aviation Aircraft Design*, 2nd ed., Butterworth-Heinemann
+       (2022), chapter on weight analysis (from memory).
 
     Examples
     --------
+    By hand: 1.2 (0.6 + 1.2 * 2.0) = 3.6 kg.
+
     >>> round(float(blowing_system_mass(0.6, 2.0, 1.2, 1.2)), 12)
     3.6
     """
@@ -279,7 +297,9 @@ def blowing_system_mass(rotating, wetted_area, duct_areal_density, installation_
 
 
 def power_headroom(rated_shaft_power, fan_shaft_power, power_margin, derivatives=False):
-    r"""Rated shaft power left over at an operating point, [W]: ``rated - margin * shaft``.
+    r"""Rated shaft power left over at an operating point, [W].
+
+    .. math:: h = P_{rated} - k_P\, P_{shaft}
 
     An optimizer that holds this at or above zero in every segment sizes the fans and motors for
     the most demanding segment with the margin asked for. This exact, per-segment form is used
@@ -289,9 +309,9 @@ def power_headroom(rated_shaft_power, fan_shaft_power, power_margin, derivatives
     Parameters
     ----------
     rated_shaft_power : array_like
-        Rated shaft power of all fans, [W].
+        Rated shaft power of all fans, [W], >= 0.
     fan_shaft_power : array_like
-        Shaft power needed at the operating point, [W].
+        Shaft power needed at the operating point, [W], >= 0.
     power_margin : array_like
         Required rating over the need, [-], >= 1; typically 1.1-1.5 (common practice, no source).
     derivatives : bool
@@ -300,12 +320,20 @@ def power_headroom(rated_shaft_power, fan_shaft_power, power_margin, derivatives
     Returns
     -------
     headroom : ndarray
-        [W]; negative when the rating is too small.
+        Headroom, [W]; negative when the rating is too small.
     partials : dict
         Only with ``derivatives``: ``{"rated_shaft_power", "fan_shaft_power", "power_margin"}``.
 
+    References
+    ----------
+    .. [1] Martins, J. R. R. A. and Ning, A. *Engineering Design Optimization*, Cambridge
+       University Press (2021), chapter 5 (inequality constraints one per operating point
+       rather than aggregated by a Kreisselmeier-Steinhauser function; from memory).
+
     Examples
     --------
+    By hand: 1000 - 1.25 * 600 = 250 W.
+
     >>> float(power_headroom(1000.0, 600.0, 1.25))
     250.0
     """

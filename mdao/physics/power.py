@@ -29,32 +29,47 @@ def segment_power(drag_saving, speed, fan_shaft_power, chain_efficiency, motor_e
                   blowing=True, derivatives=False):
     r"""Power saved at the source by the drag saving, fan electrical power and the net, [W].
 
+    .. math::
+        P_{prop} = \frac{\Delta D\, V}{\eta_{chain}},\qquad
+        P_{fan} = \frac{P_{shaft}}{\eta_{motor}}\ (\text{0 when not blowing}),\qquad
+        P_{net} = P_{prop} - P_{fan}
+
     Parameters
     ----------
     drag_saving : array_like
-        Clean-wing drag minus blown-wing drag, [N] (negative: a penalty).
+        Clean-wing drag minus blown-wing drag :math:`\Delta D`, [N], any real (negative: a
+        penalty).
     speed : array_like
-        Flight speed, [m/s].
+        Flight speed, [m/s], > 0.
     fan_shaft_power : array_like
-        Fan shaft power, all fans, [W].
+        Fan shaft power, all fans, [W], >= 0.
     chain_efficiency : array_like
-        Thrust power delivered per unit of source power of the main propulsion chain, (0, 1].
+        Thrust power delivered per unit of source power of the main propulsion chain, [-],
+        in (0, 1].
     motor_efficiency : array_like
-        Fan motor and drive efficiency, (0, 1].
+        Fan motor and drive efficiency, [-], in (0, 1].
     blowing : array_like of bool
-        Whether the fan runs in the segment; where it does not, no fan power is drawn.
+        Whether the fan runs in the segment, [-], True or False; where it does not, no fan
+        power is drawn.
     derivatives : bool
         Also return the partial derivatives.
 
     Returns
     -------
     propulsion_power_saving, fan_electric_power, net_power_saving : ndarray
-        [W]; ``net_power_saving = propulsion_power_saving - fan_electric_power`` (positive: blowing pays).
+        [W]; ``net_power_saving = propulsion_power_saving - fan_electric_power`` (positive: blowing
+        pays).
     partials : dict
         Only with ``derivatives``: ``{(output, input): ndarray}``.
 
+    References
+    ----------
+    .. [1] docs/theory.md, section "Net power" (this project's segment power balance).
+
     Examples
     --------
+    By hand: 10 * 40 / 0.8 = 500 W saved, 100 / 0.9 = 111.1111 W drawn, net 388.8889 W.
+
     >>> p, f, net = segment_power(10.0, 40.0, 100.0, 0.8, 0.9)
     >>> float(p), round(float(f), 4), round(float(net), 4)
     (500.0, 111.1111, 388.8889)
@@ -86,10 +101,30 @@ def segment_power(drag_saving, speed, fan_shaft_power, chain_efficiency, motor_e
 
 
 def segment_energy(net_power, duration):
-    """Energy saved in a segment, net power times duration, [J].
+    r"""Energy saved in a segment, [J].
+
+    .. math:: E = P_{net}\, t
+
+    Parameters
+    ----------
+    net_power : array_like
+        Net power saving of the segment (:func:`segment_power`), [W], any real.
+    duration : array_like
+        Segment duration, [s], >= 0.
+
+    Returns
+    -------
+    ndarray
+        Energy saved, [J] (negative: blowing costs energy).
+
+    References
+    ----------
+    .. [1] docs/theory.md, section "Net power" (this project's segment power balance); the mission total is the sum over segments.
 
     Examples
     --------
+    By hand: 250 W for one hour is 900 kJ.
+
     >>> float(segment_energy(250.0, 3600.0))
     900000.0
     """
@@ -99,20 +134,41 @@ def segment_energy(net_power, duration):
 def lumped_optimum(jet_head, ram_recovery, drag_per_momentum, efficiency_ratio):
     r"""Momentum coefficient that maximizes the lumped net saving (interior optimum).
 
-    Positive root of :math:`3a_j x^2 - 2B\eta_{eff} x - a_r = 0`, :math:`C_\mu = x^2`.
+    .. math::
+        3 a_j x^2 - 2 B \eta_{eff} x - a_r = 0,\qquad
+        x = \frac{2 B\eta_{eff} + \sqrt{4 B^2\eta_{eff}^2 + 12 a_j a_r}}{6 a_j},\qquad
+        C_\mu = x^2,\quad B = -\beta
+
+    the positive root of :math:`n'(x) = 0` for the net saving of :func:`lumped_net_saving`
+    (the same in every segment, since it does not depend on the dynamic pressure).
 
     Parameters
     ----------
     jet_head, ram_recovery : array_like
-        Jet-head and ram-recovery coefficients :math:`a_j`, :math:`a_r`
+        Jet-head and ram-recovery coefficients :math:`a_j` (> 0) and :math:`a_r` (>= 0)
         (:func:`mdao.physics.duct.lumped_coefficients`), [-].
     drag_per_momentum : array_like
-        :math:`\beta` (negative when blowing saves drag), [-].
+        :math:`\beta`, [-], any real (< 0 when blowing saves drag).
     efficiency_ratio : array_like
-        :math:`\eta_{eff} = \eta_{fan}\eta_{motor}/\eta_{chain}`, [-].
+        :math:`\eta_{eff} = \eta_{fan}\eta_{motor}/\eta_{chain}`, [-], > 0.
+
+    Returns
+    -------
+    cmu : ndarray
+        Optimal momentum coefficient :math:`C_\mu`, [-]; bounds of the calibrated range, jet
+        Mach number or pressure rise are not applied here.
+
+    References
+    ----------
+    .. [1] docs/theory.md, section "Net power" (lumped closed forms, derived there from
+       :math:`Q = A_j V_j` and the lumped duct form
+       :math:`\Delta p = K_j \rho V_j^2/2 - K_\infty q`).
 
     Examples
     --------
+    A bounded scalar maximization of :func:`lumped_net_saving` in :math:`\sqrt{C_\mu}`
+    (``scipy.optimize.minimize_scalar``, x tolerance 1e-12) finds 0.1276742 as well:
+
     >>> round(float(lumped_optimum(2.5, 0.1, -1.5, 0.8)), 8)
     0.12767423
     """
@@ -125,12 +181,43 @@ def lumped_optimum(jet_head, ram_recovery, drag_per_momentum, efficiency_ratio):
 
 
 def lumped_net_saving(cmu, jet_head, ram_recovery, slot_drag, drag_per_momentum, efficiency_ratio):
-    r"""Non-dimensional lumped net saving :math:`-s - \beta C_\mu - (a_j C_\mu^{1.5} -
-    a_r C_\mu^{0.5})/\eta_{eff}` (power over :math:`\rho V^3 S / 2`, times
-    :math:`\eta_{chain}`).
+    r"""Non-dimensional net saving of the lumped model.
+
+    .. math::
+        n = -s - \beta C_\mu - \frac{a_j C_\mu^{3/2} - a_r C_\mu^{1/2}}{\eta_{eff}}
+
+    (power over :math:`\rho V^3 S / 2`, times :math:`\eta_{chain}`).
+
+    Parameters
+    ----------
+    cmu : array_like
+        Momentum coefficient :math:`C_\mu`, [-], >= 0.
+    jet_head, ram_recovery : array_like
+        :math:`a_j` (> 0) and :math:`a_r` (>= 0) of
+        :func:`mdao.physics.duct.lumped_coefficients`, [-].
+    slot_drag : array_like
+        Slotted-shape drag penalty :math:`s = \Delta C_{D,slot}`, [-], any real (usually >= 0).
+    drag_per_momentum : array_like
+        :math:`\beta`, [-], any real (< 0 when blowing saves drag).
+    efficiency_ratio : array_like
+        :math:`\eta_{eff} = \eta_{fan}\eta_{motor}/\eta_{chain}`, [-], > 0.
+
+    Returns
+    -------
+    ndarray
+        Net saving :math:`n`, [-] (positive: blowing pays).
+
+    References
+    ----------
+    .. [1] docs/theory.md, section "Net power" (lumped closed forms, derived there from
+       :math:`Q = A_j V_j` and the lumped duct form
+       :math:`\Delta p = K_j \rho V_j^2/2 - K_\infty q`).
 
     Examples
     --------
+    By hand at :math:`C_\mu = 0.04`: -0.02 + 1.5 * 0.04 - (2.5 * 0.008 - 0.1 * 0.2) / 0.8
+    = 0.04 (the fan's ideal power is exactly zero there).
+
     >>> round(float(lumped_net_saving(0.04, 2.5, 0.1, 0.02, -1.5, 0.8)), 6)
     0.04
     """
@@ -142,19 +229,48 @@ def lumped_net_saving(cmu, jet_head, ram_recovery, slot_drag, drag_per_momentum,
 def break_even_lumped(jet_head, ram_recovery, slot_drag, drag_per_momentum, cmu_min, cmu_max):
     r"""Least efficiency ratio :math:`\eta_{eff}` at which the best point just breaks even.
 
-    Minimizes :math:`r(C) = (a_j C^{1.5} - a_r C^{0.5})/(B C - s)` over the momentum
-    coefficients in ``[cmu_min, cmu_max]`` where the fan is needed
+    .. math::
+        \eta_{eff} = \min_C r(C),\qquad r(C) = \frac{a_j C^{3/2} - a_r C^{1/2}}{B C - s},\qquad
+        r'(C) = 0 \iff a_j B C^2 + (a_r B - 3 a_j s) C + a_r s = 0
+
+    over the momentum coefficients in ``[cmu_min, cmu_max]`` where the fan is needed
     (:math:`a_j C \ge a_r`, i.e. not ram-driven) and the thrust exceeds the slot penalty
-    (:math:`B C > s`). Candidates: the roots of the stationarity quadratic in range, the
-    range's ends and the ram-driven edge :math:`C = a_r/a_j` (where :math:`r = 0`: a point
-    that needs no fan work saves power with any fan). Callers that require a minimum fan
-    pressure rise fold it into ``cmu_min``. Vectorized; NaN where no point of the range can
-    break even.
+    (:math:`B C > s`), :math:`B = -\beta`. Candidates: the roots of the stationarity quadratic
+    in range, the range's ends and the ram-driven edge :math:`C = a_r/a_j` (where
+    :math:`r = 0`: a point that needs no fan work saves power with any fan). Callers that
+    require a minimum fan pressure rise fold it into ``cmu_min``. Vectorized.
 
     Multiply by :math:`\eta_{chain}/\eta_{motor}` to get the break-even fan efficiency.
 
+    Parameters
+    ----------
+    jet_head, ram_recovery : array_like
+        :math:`a_j` (> 0) and :math:`a_r` (>= 0) of
+        :func:`mdao.physics.duct.lumped_coefficients`, [-].
+    slot_drag : array_like
+        Slotted-shape drag penalty :math:`s`, [-], any real (usually >= 0).
+    drag_per_momentum : array_like
+        :math:`\beta`, [-], any real (< 0 is needed for a break-even point).
+    cmu_min, cmu_max : array_like
+        Admissible range of :math:`C_\mu`, [-], 0 <= cmu_min <= cmu_max.
+
+    Returns
+    -------
+    ndarray
+        Break-even efficiency ratio :math:`\eta_{eff}`, [-]; NaN where no point of the range can
+        break even.
+
+    References
+    ----------
+    .. [1] docs/theory.md, section "Net power" (lumped closed forms, derived there from
+       :math:`Q = A_j V_j` and the lumped duct form
+       :math:`\Delta p = K_j \rho V_j^2/2 - K_\infty q`).
+
     Examples
     --------
+    A brute-force minimum of :math:`r(C)` over 2e6 points of [0.05, 0.5] agrees to 1e-15
+    (the minimum sits at the range's lower end, C = 0.05):
+
     >>> round(float(break_even_lumped(2.5, 0.1, 0.02, -1.5, 0.05, 0.5)), 6)
     0.101639
     """

@@ -192,7 +192,8 @@ def semi_axes(area, aspect, n, derivatives=False):
 
     References
     ----------
-    .. [1] Inverts the exact area of :func:`area`.
+    .. [1] Weisstein, E. W., "Superellipse", MathWorld (the exact area through the Gamma
+       function, which this function inverts for a prescribed aspect ratio).
 
     Examples
     --------

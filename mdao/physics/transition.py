@@ -79,26 +79,31 @@ def stations(fan_diameter, slot_width, slot_height, length, slot_exponent,
     schedule : {"monotone-area", "linear"}
         How the sections vary along the duct.
     count : int
-        Number of stations, >= 3 (the station axis is last).
+        Number of stations, [-], integer >= 3 (the station axis is last).
     derivatives : bool
         Also return the partial derivatives.
 
     Returns
     -------
     stations : TransitionStations
-        Fields of shape ``(..., count)``; ``half_angle`` of shape ``(..., count - 1)``.
+        position [m], area [m**2], perimeter [m], hydraulic_diameter [m], semi_axis_y [m],
+        semi_axis_z [m], exponent [-], each of shape ``(..., count)``; half_angle [rad] of shape
+        ``(..., count - 1)``, positive where the duct diffuses.
     derivs : dict
         ``{(field, input): ndarray}`` for field in ``FIELDS`` and input in ``INPUTS``, each the
         field's shape (only when ``derivatives`` is true).
 
     References
     ----------
-    .. [1] Lame curve area and perimeter: :mod:`mdao.physics.superellipse`.
+    .. [1] Weisstein, E. W., "Superellipse", MathWorld (Lame curve area and perimeter, computed
+       by :mod:`mdao.physics.superellipse`).
     .. [2] Equivalent cone angle of a non-circular diffuser: Blevins, R. D., *Applied Fluid
        Dynamics Handbook*, Van Nostrand Reinhold, 1984, ch. 6 (from memory).
 
     Examples
     --------
+    The outlet area is exactly w h = 0.25 * 0.005 and the inlet pi 0.08**2 / 4 (by hand):
+
     >>> s = stations(0.08, 0.25, 0.005, 0.3, 8.0, count=5)
     >>> round(float(s.area[-1]), 12), round(float(s.area[0]), 12)
     (0.00125, 0.005026548246)
@@ -230,12 +235,15 @@ def friction_integral(position, area, perimeter, darcy, area_ref, derivatives=Fa
 
     Parameters
     ----------
-    position, area, perimeter : array_like, shape (count,)
-        Station positions [m], areas [m**2] and perimeters [m].
+    position : array_like, shape (count,)
+        Station positions along the duct, [m], increasing (count >= 2).
+    area, perimeter : array_like, shape (count,)
+        Section areas [m**2] and perimeters [m], > 0.
     darcy : array_like, shape (n, count)
-        Darcy friction factor at each station for each operating point, [-].
+        Darcy friction factor at each station for each operating point, [-], > 0 (about
+        0.01-0.1 in practice; 64/Re when laminar).
     area_ref : float or array_like, shape (n,)
-        Area whose velocity the coefficient refers to, [m**2].
+        Area whose velocity the coefficient refers to, [m**2], > 0.
     derivatives : bool
         Also return the partial derivatives.
 
@@ -254,6 +262,8 @@ def friction_integral(position, area, perimeter, darcy, area_ref, derivatives=Fa
 
     Examples
     --------
+    A straight duct of constant section: K = f L / D_h = 0.02 * 1 / 1 (by hand).
+
     >>> x = np.linspace(0.0, 1.0, 3)
     >>> a = np.full(3, np.pi / 4)            # 1 m circular duct, 1 m long
     >>> p = np.full(3, np.pi)

@@ -60,13 +60,10 @@ import warnings
 import numpy as np
 from scipy import linalg, stats
 
+from mdao.case.fragment import load_fragment
 from mdao.files import write_atomic
 from mdao.studies.runs import CalibrationError, check_runs, derived, fit_plan, read_runs
 
-try:
-    import tomllib
-except ModuleNotFoundError:  # Python 3.10
-    import tomli as tomllib
 
 __all__ = ["CalibrationError", "CalibrationWarning", "PLAUSIBLE", "CAUTION", "read_runs",
            "least_squares", "calibrate", "calibrate_file", "format_summary", "load_fragment",
@@ -482,73 +479,6 @@ def fragment_text(result, source=None):
     lines += ["  " + _toml_value(row) + "," for row in result["covariance"]["matrix"]]
     lines.append("]")
     return "\n".join(lines) + "\n"
-
-
-def load_fragment(path):
-    """Read a calibration fragment (``calibration.toml``) back.
-
-    Parameters
-    ----------
-    path : str or path-like
-        The fragment.
-
-    Returns
-    -------
-    dict
-        ``constants`` (case key path -> value), ``stderr`` (key -> value), ``covariance``
-        (``parameters``, ``matrix``), ``validity``: ``momentum_coefficient_range``,
-        ``slot_ratio_range``, ``reynolds_range`` [-] and ``speed_range`` [m/s], each [low, high].
-
-    Raises
-    ------
-    CalibrationError
-        Missing section or key, or an inconsistent uncertainty block (names the key).
-    """
-    with open(path, "rb") as handle:
-        try:
-            data = tomllib.load(handle)
-        except tomllib.TOMLDecodeError as exc:
-            raise CalibrationError(f"{path}: not valid TOML ({exc})") from None
-    for section in ("duct", "airfoil", "validity", "uncertainty"):
-        if not isinstance(data.get(section), dict):
-            raise CalibrationError(f"{path}: missing section [{section}]")
-    airfoil = dict(data["airfoil"])
-    validity = {}
-    if "momentum_coefficient_range" not in airfoil:
-        raise CalibrationError(f"{path}: missing key airfoil.momentum_coefficient_range")
-    validity["momentum_coefficient_range"] = [float(v) for v in
-                                              airfoil.pop("momentum_coefficient_range")]
-    constants = {f"duct.{k}": float(v) for k, v in data["duct"].items()}
-    constants.update({f"airfoil.{k}": float(v) for k, v in airfoil.items()})
-    from mdao.units import to_si
-    for key in ("slot_ratio_range", "reynolds_range", "speed_range"):
-        if key not in data["validity"]:
-            raise CalibrationError(f"{path}: missing key validity.{key}")
-    validity["slot_ratio_range"] = [float(v) for v in data["validity"]["slot_ratio_range"]]
-    validity["reynolds_range"] = [float(v) for v in data["validity"]["reynolds_range"]]
-    try:
-        validity["speed_range"] = [to_si(v, "speed")
-                                   for v in data["validity"]["speed_range"]]
-    except Exception as exc:
-        raise CalibrationError(f"{path}: validity.speed_range must be speeds like \"12.0 m/s\" "
-                               f"({exc})") from None
-    unc = data["uncertainty"]
-    for key in ("parameters", "stderr", "covariance"):
-        if key not in unc:
-            raise CalibrationError(f"{path}: missing key uncertainty.{key}")
-    names = list(unc["parameters"])
-    matrix = [[float(v) for v in row] for row in unc["covariance"]]
-    if sorted(names) != sorted(constants):
-        raise CalibrationError(f"{path}: uncertainty.parameters {names} do not match the "
-                               f"constants {sorted(constants)}")
-    if len(unc["stderr"]) != len(names) or len(matrix) != len(names) \
-            or any(len(row) != len(names) for row in matrix):
-        raise CalibrationError(f"{path}: uncertainty.stderr and uncertainty.covariance must be "
-                               f"of size {len(names)} (one per parameter)")
-    return {"constants": constants,
-            "stderr": {k: float(v) for k, v in zip(names, unc["stderr"])},
-            "covariance": {"parameters": names, "matrix": matrix},
-            "validity": validity}
 
 
 def _plots(runs, result, out_dir):

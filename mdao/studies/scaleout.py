@@ -22,23 +22,28 @@ Guarantees:
   worker, up to ``retries`` times; tasks that raise are retried too. On a local cluster the
   scheduler is told to tolerate ``retries`` worker deaths per task
   (``distributed.scheduler.allowed-failures``); on an external scheduler its own setting applies.
-- *Progress* on stderr: ``optimize_many: k/N done``.
+- *Progress* through a plain callback, ``progress(done, total)``: ``(0, N)`` at the start, then
+  once per finished optimization (in completion order on a cluster). Nothing is printed here;
+  the command line (:mod:`mdao.cli`) shows it.
 
 Sampling rule of :func:`monte_carlo_overrides`: the review's own draws
 (:func:`mdao.studies.uncertainty.draw_samples`), so both see the same samples for the same seed.
+:func:`optimum_per_sample` re-optimizes the review's samples; :func:`run_many` is the study of
+``blownwing many`` (it returns the content of ``many.json``).
 """
 import contextlib
-import sys
 import tempfile
 import time
 from pathlib import Path
 
 import numpy as np
 
-__all__ = ["optimize_many", "solve_one", "monte_carlo_overrides", "multistart_overrides",
-           "run_many_cli", "KINDS"]
+from mdao import CAUTION, __version__
 
-#: Study kinds of :func:`run_many_cli`.
+__all__ = ["optimize_many", "solve_one", "monte_carlo_overrides", "multistart_overrides",
+           "optimum_per_sample", "run_many", "summarize", "KINDS"]
+
+#: Study kinds of :func:`run_many`.
 KINDS = ("monte-carlo", "multistart")
 
 
@@ -87,13 +92,7 @@ def solve_one(case, override, index=0):
     return base
 
 
-def _progress(done, total, t0, stream=None):
-    stream = stream or sys.stderr
-    print(f"optimize_many: {done}/{total} done ({time.perf_counter() - t0:.1f} s)", file=stream,
-          flush=True)
-
-
-def optimize_many(case, overrides, scheduler=None, workers=None, progress=False, retries=3,
+def optimize_many(case, overrides, scheduler=None, workers=None, progress=None, retries=3,
                   task=None):
     """One independent optimization per override, serially or on a Dask cluster.
 
@@ -108,8 +107,9 @@ def optimize_many(case, overrides, scheduler=None, workers=None, progress=False,
     workers : int, optional
         Start a local cluster of this many single-threaded worker processes on 127.0.0.1 (no
         dashboard) for the duration of the call. Ignored when ``scheduler`` is given.
-    progress : bool
-        Report progress on stderr.
+    progress : callable, optional
+        ``progress(done, total)``: ``(0, total)`` before the first optimization, then after each
+        finished one (in completion order on a cluster).
     retries : int
         Re-runs allowed per task when it raises or its worker dies, >= 0.
     task : callable, optional
@@ -126,6 +126,8 @@ def optimize_many(case, overrides, scheduler=None, workers=None, progress=False,
     ------
     ValueError
         For ``workers < 1`` or ``retries < 0``.
+    TypeError
+        For a ``progress`` that is not callable.
     RuntimeError
         When a task still fails after its retries (the message names the sample index).
     """
@@ -136,18 +138,20 @@ def optimize_many(case, overrides, scheduler=None, workers=None, progress=False,
     if workers is not None and (isinstance(workers, bool) or not isinstance(workers, int)
                                 or workers < 1):
         raise ValueError(f"workers = {workers!r}: an integer >= 1 is allowed")
-    t0 = time.perf_counter()
+    if progress is not None and not callable(progress):
+        raise TypeError(f"progress = {progress!r}: a callable progress(done, total) or None")
+    report = progress if progress is not None else (lambda done, total: None)
+    report(0, len(overrides))
     if scheduler is None and workers is None:
         results = []
         for i, override in enumerate(overrides):
             results.append(task(case, override, i))
-            if progress:
-                _progress(i + 1, len(overrides), t0)
+            report(i + 1, len(overrides))
         return results
-    return _distributed(case, overrides, scheduler, workers, progress, retries, task, t0)
+    return _distributed(case, overrides, scheduler, workers, report, retries, task)
 
 
-def _distributed(case, overrides, scheduler, workers, progress, retries, task, t0):
+def _distributed(case, overrides, scheduler, workers, report, retries, task):
     import dask
     from distributed import Client, LocalCluster, as_completed
 
@@ -183,8 +187,7 @@ def _distributed(case, overrides, scheduler, workers, progress, retries, task, t
                         raise RuntimeError(f"optimize_many: sample {i} failed after {retries} "
                                            f"retries: {type(exc).__name__}: {exc}") from exc
                     done += 1
-                    if progress:
-                        _progress(done, len(futures), t0)
+                    report(done, len(futures))
         finally:
             if cluster is not None:
                 cluster.close()
@@ -276,54 +279,82 @@ def summarize(results):
     return summary
 
 
-def run_many_cli(case_path, kind, samples=None, seed=None, out="many", scheduler=None,
-                 workers=None):
-    """``blownwing many CASE --kind monte-carlo|multistart``: run and write ``OUT/many.json``.
+def optimum_per_sample(case, keys, x, scheduler=None, workers=None, progress=None):
+    """Re-optimize every Monte Carlo sample (optimization under uncertainty) through
+    :func:`optimize_many`.
 
     Parameters
     ----------
-    case_path : str or Path
-        Case file.
-    kind : {"monte-carlo", "multistart"}
-        One optimum per Monte Carlo sample of ``[uncertainty]``, or one per random start.
-    samples, seed : int, optional
-        Number of samples or starts, and the seed (default: the case's ``[review]`` values).
-    out : str or Path
-        Output folder; ``many.json`` is written atomically.
-    scheduler, workers
-        As in :func:`optimize_many` (neither: serial).
+    case : mdao.case.Case
+    keys : list of str
+        Key paths, the columns of ``x`` (as :func:`mdao.studies.uncertainty.draw_samples`
+        returns them).
+    x : ndarray, shape (samples, len(keys))
+        Sampled values in SI.
+    scheduler, workers, progress
+        As in :func:`optimize_many`.
 
     Returns
     -------
-    int
-        0 when at least one optimization converged, 3 when none did.
+    dict
+        ``samples``, ``converged``, ``probability_of_saving`` (over all samples; a sample that
+        did not converge counts as not saving), ``percentiles_J`` over the converged samples,
+        ``slot_ratio_percentiles`` and ``energy_J`` (array; dropped from the JSON).
     """
-    from mdao import CAUTION, __version__
-    from mdao.case import load_case
-    from mdao.files import write_json
+    overrides = [{k: float(x[i, j]) for j, k in enumerate(keys)} for i in range(len(x))]
+    res = optimize_many(case, overrides, scheduler=scheduler, workers=workers, progress=progress)
+    ok = np.array([bool(r["converged"]) for r in res])
+    e = np.array([r["mission_energy_saving_J"] if r["converged"] else np.nan for r in res], float)
+    sr = np.array([r["slot_ratio"] if r["converged"] else np.nan for r in res], float)
+    pct = np.percentile(e[ok], [5, 50, 95]) if ok.any() else [np.nan] * 3
+    spct = np.percentile(sr[ok], [5, 50, 95]) if ok.any() else [np.nan] * 3
+    return {"samples": len(res), "converged": int(ok.sum()),
+            "probability_of_saving": float(np.count_nonzero(ok & (e > 0)) / len(res)),
+            "percentiles_J": {"5": float(pct[0]), "50": float(pct[1]), "95": float(pct[2])},
+            "slot_ratio_percentiles": {"5": float(spct[0]), "50": float(spct[1]),
+                                       "95": float(spct[2])},
+            "energy_J": e}
 
+
+def run_many(case, kind, samples=None, seed=None, scheduler=None, workers=None, progress=None):
+    """The study of ``blownwing many``: one optimization per Monte Carlo sample or per random
+    start; returns the content of ``many.json`` (the command writes and prints it).
+
+    Parameters
+    ----------
+    case : mdao.case.Case
+    kind : {"monte-carlo", "multistart"}
+        One optimum per Monte Carlo sample of ``[uncertainty]``
+        (:func:`monte_carlo_overrides`), or one per random start (:func:`multistart_overrides`).
+    samples, seed : int, optional
+        Number of samples or starts, and the seed (default: the case's ``[review]`` values).
+    scheduler, workers, progress
+        As in :func:`optimize_many` (neither scheduler nor workers: serial).
+
+    Returns
+    -------
+    dict
+        ``case`` (the case file's path), ``title``, ``kind``, ``samples``, ``seed``,
+        ``scheduler``, ``workers``, ``wall_time_s`` (of the optimizations), ``version``,
+        ``caution``, ``summary`` (:func:`summarize`), ``overrides`` and ``results`` (in input
+        order).
+
+    Raises
+    ------
+    ValueError
+        For an unknown ``kind``.
+    """
     if kind not in KINDS:
         raise ValueError(f"kind = {kind!r}: allowed are " + ", ".join(KINDS))
-    case = load_case(case_path)
     samples = case.review["samples"] if samples is None else samples
     seed = case.review["seed"] if seed is None else seed
     overrides = (monte_carlo_overrides(case, samples, seed) if kind == "monte-carlo"
                  else multistart_overrides(case, samples, seed))
     t0 = time.perf_counter()
-    results = optimize_many(case, overrides, scheduler=scheduler, workers=workers, progress=True)
+    results = optimize_many(case, overrides, scheduler=scheduler, workers=workers,
+                            progress=progress)
     wall = time.perf_counter() - t0
-    summary = summarize(results)
-    data = {"case": str(case_path), "title": case.title, "kind": kind, "samples": samples,
-            "seed": seed, "scheduler": scheduler, "workers": workers, "wall_time_s": wall,
-            "version": __version__, "caution": CAUTION, "summary": summary,
-            "overrides": overrides, "results": results}
-    path = Path(out) / "many.json"
-    write_json(path, data)
-    print(f"blownwing many: {case.title}: {summary['converged']}/{summary['optimizations']} "
-          f"converged in {wall:.1f} s")
-    if "mission_energy_saving_J" in summary:
-        s = summary["mission_energy_saving_J"]
-        print(f"  mission energy saving [MJ]: mean {s['mean'] / 1e6:.4g}, 5 % {s['p05'] / 1e6:.4g}, "
-              f"95 % {s['p95'] / 1e6:.4g} (best: sample {s['best_index']})")
-    print(f"wrote {path}")
-    return 0 if summary["converged"] else 3
+    return {"case": str(case.path) if case.path else None, "title": case.title, "kind": kind,
+            "samples": samples, "seed": seed, "scheduler": scheduler, "workers": workers,
+            "wall_time_s": wall, "version": __version__, "caution": CAUTION,
+            "summary": summarize(results), "overrides": overrides, "results": results}

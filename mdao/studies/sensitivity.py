@@ -30,16 +30,20 @@ References
 """
 import numpy as np
 
-from mdao.case import kind_of, spec_of
+from mdao import constraints, parameters
+from mdao.case.schema import kind_of
+from mdao.optimum.solve import feasibility, read_values
 from mdao.physics import chain
-from mdao.system import (PARAMETERS, SEGMENT_INPUTS, applicable_parameters, build_problem,
-                         chain_options, chain_parameters)
+from mdao.units import SI_UNITS
+from mdao.system import applicable_parameters, build_problem, chain_options, chain_parameters
 
 #: Inputs the geometric duct takes as one value for the wing (cannot vary along samples).
 WING_GEOMETRY = ("fan_diameter", "blown_span", "slot_ratio", "chord", "transition_length",
                  "slot_exponent", "roughness")
 #: Vector-valued or design inputs that are not reported as sensitivities.
 NOT_STUDIED = ("slot.ratio", "fan.pressure_coefficients")
+#: Order of each segment's inputs in the studies.
+SEGMENT_ORDER = ("speed", "altitude", "duration")
 #: Absolute step scale for inputs whose value is zero (post-optimal differences).
 ZERO_SCALE = {"altitude": 1000.0, "roughness": 1e-5}
 #: Relative step of the post-optimal central differences.
@@ -48,40 +52,41 @@ POST_OPTIMAL_STEP = 1e-3
 
 # --- inputs: key paths, promoted names, ranges --------------------------------------------------
 def sensitivity_keys(case):
-    """Case key paths studied: the applicable model constants and each segment's speed,
-    altitude and duration (in that order)."""
-    keys = [k for k in applicable_parameters(case) if k not in NOT_STUDIED
-            and case.value(k) is not None]
+    """Case key paths studied: the applicable model constants that may be uncertain and each
+    segment's speed, altitude and duration (in that order)."""
+    keys = [p.key for p in applicable_parameters(case) if not p.per_segment and p.uncertain
+            and p.key not in NOT_STUDIED and case.value(p.key) is not None]
+    segment_inputs = [p for p in applicable_parameters(case) if p.per_segment]
     for seg in case.segment_names:
-        keys += [f"segment.{seg}.speed", f"segment.{seg}.altitude", f"segment.{seg}.duration"]
+        keys += [f"segment.{seg}.{p.field}" for p in sorted(
+            segment_inputs, key=lambda p: SEGMENT_ORDER.index(p.field))]
     return keys
 
 
 def promoted(case, key):
     """``(promoted input name, segment index or None)`` of a case key path."""
-    parts = key.split(".")
-    if parts[0] == "segment":
-        if parts[2] not in SEGMENT_INPUTS:
-            raise ValueError(f"key = {key!r}: segment inputs are "
-                             + ", ".join(SEGMENT_INPUTS))
-        return SEGMENT_INPUTS[parts[2]], case.segment_names.index(parts[1])
-    if key not in PARAMETERS:
+    try:
+        p = parameters.parameter(key)
+    except KeyError:
         raise ValueError(f"key = {key!r} is not a model input; allowed: "
-                         + ", ".join(sorted(PARAMETERS)))
-    return PARAMETERS[key], None
+                         + ", ".join(p.key for p in parameters.CHAIN_PARAMETERS)) from None
+    if p.per_segment:
+        return p.name, case.segment_names.index(key.split(".")[1])
+    return p.name, None
 
 
 def allowed_range(key):
-    """``(low, high)`` the case schema allows for a key path (open ends included as closed)."""
-    lo, hi = spec_of(key)["range"][:2]
-    return lo, hi
+    """``(low, high)`` the model allows for a key path (open ends included as closed)."""
+    p = parameters.parameter(key)
+    return p.low, p.high
 
 
-def unit_of(key):
-    """SI unit of a key path, for tables (``"-"`` for pure numbers)."""
-    from mdao.units import SI_UNITS
-
-    unit = SI_UNITS.get(kind_of(key), "")
+def unit_label(key):
+    """SI unit of any case key path for tables (``"-"`` for pure numbers)."""
+    try:
+        unit = parameters.parameter(key).unit
+    except KeyError:
+        unit = SI_UNITS[kind_of(key)]
     return (unit or "-").replace("revolution/s", "rev/s")
 
 
@@ -215,14 +220,13 @@ def _set_input(prob, case, key, value):
 
 def _reoptimize(prob, case, outcome, key, value):
     """Warm-started re-optimization with one input changed; (energy [J], converged, message)."""
-    from mdao.optimum import _feasible, _read
-
     _set_input(prob, case, key, value)
     for name in ("slot_ratio", "momentum_coefficient", "fan_pressure_rise"):
         prob.set_val(name, outcome.values[name])
     result = prob.run_driver()
-    vals = _read(prob, case.replace({key: value}))
-    bad = _feasible(case.replace({key: value}), vals)
+    changed = case.replace({key: value})
+    vals = read_values(prob, changed)
+    bad = feasibility(changed, vals)
     _set_input(prob, case, key, case.value(key))
     return vals["mission_energy_saving"], bool(result.success) and not bad, "; ".join(bad)
 
@@ -295,41 +299,12 @@ def post_optimal_derivatives(case, outcome, keys=None, step=POST_OPTIMAL_STEP, p
 
 # --- post-optimal derivatives from the multipliers ----------------------------------------------
 def _active_rows(case, outcome):
-    """Active constraints as (output name, index, kind) with kind 'eq', 'dv' or 'out'."""
-    from mdao.optimum import ACTIVE_TOL
-
-    v = outcome.values
+    """Active constraints as (quantity, index, kind) with kind 'eq' (the pressure balance),
+    'dv' (a design-variable bound) or 'out' (an output constraint)."""
     rows = []
-    near = lambda a, b, s: abs(a - b) <= ACTIVE_TOL * max(abs(s), 1e-300)  # noqa: E731
-    lo, hi = case.airfoil["momentum_coefficient_range"]
-    bounds = case.slot["ratio_bounds"]
-    if bounds is not None and bounds[1] > bounds[0]:
-        if near(v["slot_ratio"], bounds[0], bounds[1]) or near(v["slot_ratio"], bounds[1], bounds[1]):
-            rows.append(("slot_ratio", 0, "dv"))
-        if case.slot["min_height"] > 0 and near(v["slot_height"], case.slot["min_height"],
-                                                case.slot["min_height"]):
-            rows.append(("slot_height", 0, "out"))
-    for i in np.flatnonzero(case.blowing):
-        rows.append(("balance", i, "eq"))
-        c, dp = v["momentum_coefficient"][i], v["fan_pressure_rise"][i]
-        if near(c, lo, hi) or near(c, hi, hi):
-            rows.append(("momentum_coefficient", i, "dv"))
-        if near(dp, case.fan["min_pressure_rise"], case.fan["min_pressure_rise"]) or \
-                near(dp, case.fan["max_pressure_rise"], case.fan["max_pressure_rise"]):
-            rows.append(("fan_pressure_rise", i, "dv"))
-        if near(v["jet_mach"][i], case.slot["max_jet_mach"], case.slot["max_jet_mach"]):
-            rows.append(("jet_mach", i, "out"))
-        if case.fan["model"] == "map":
-            flo, fhi = case.fan["flow_coefficient_range"]
-            if near(v["fan_speed"][i], case.fan["max_speed"], case.fan["max_speed"]):
-                rows.append(("fan_speed", i, "out"))
-            if near(v["flow_coefficient"][i], flo, fhi) or near(v["flow_coefficient"][i], fhi, fhi):
-                rows.append(("flow_coefficient", i, "out"))
-    if case.duct["model"] == "geometric":
-        ang = np.asarray(v["diffusion_half_angle"]).ravel()
-        limit = case.duct["max_diffusion_half_angle"]
-        for j in np.flatnonzero(ang >= limit * (1 - ACTIVE_TOL)):
-            rows.append(("diffusion_half_angle", int(j), "out"))
+    for con, i in constraints.active_rows(case, outcome.values):
+        kind = "eq" if con.equals is not None else ("dv" if con.design_variable else "out")
+        rows.append((con.quantity, i, kind))
     return rows
 
 
@@ -354,8 +329,7 @@ def multiplier_derivatives(case, outcome, keys=None):
         prob.set_val(name, outcome.values[name])
     prob.run_model()
     blow = np.flatnonzero(case.blowing)
-    bounds = case.slot["ratio_bounds"]
-    slot_free = bounds is not None and bounds[1] > bounds[0]
+    slot_free = constraints.slot_ratio_free(case)
     dvs = (["slot_ratio"] if slot_free else []) + ["momentum_coefficient", "fan_pressure_rise"]
     rows = _active_rows(case, outcome)
     outs = sorted({r[0] for r in rows if r[2] == "out"})

@@ -11,15 +11,16 @@ with the geometric duct loops over the slot-ratio rows (each row one vectorized 
   the constraints (calibrated range, fan pressure-rise limits, jet Mach limit, fan speed and map
   flow range) and the optimum.
 * :func:`break_even_map`: break-even fan efficiency
-  (:func:`mdao.studies.breakeven.break_even_efficiency`) over two inputs; :func:`review_maps`
+  (:func:`mdao.optimum.breakeven.break_even_efficiency`) over two inputs; :func:`review_maps`
   gives the two of the review: slot ratio against the jet loss factor (lumped duct; the geometric
   duct builds that factor from geometry, so its map is over ``duct.extra_loss``, the adder on the
   same factor), and slot penalty against drag per momentum coefficient.
 """
 import numpy as np
 
+from mdao import constraints
 from mdao.physics import chain
-from mdao.studies.breakeven import break_even_efficiency
+from mdao.optimum.breakeven import break_even_efficiency
 from mdao.studies.sensitivity import WING_GEOMETRY, chunk_rows, design_parameters, promoted
 from mdao.system import chain_options, chain_parameters
 
@@ -88,21 +89,14 @@ def net_power_sweep(case, outcome, efficiencies=None, points=201, cmu_max=None):
     out = {k: np.concatenate([q[k] for q in parts], axis=1) for k in parts[0]}
     shape = (points, nseg)
     first = {k: v[0] for k, v in out.items()}
-    dp = np.broadcast_to(first["required_pressure_rise"], shape)
-    limits = {
-        "momentum_coefficient in the calibrated range": np.broadcast_to(
-            (grid >= lo) & (grid <= hi), (nseg, points)).T,
-        "fan_pressure_rise >= minimum": dp >= case.fan["min_pressure_rise"],
-        "fan_pressure_rise <= maximum": dp <= case.fan["max_pressure_rise"],
-        "jet_mach <= limit": np.broadcast_to(first["jet_mach"], shape) <= case.slot["max_jet_mach"],
-    }
-    if case.fan["model"] == "map":
-        flo, fhi = case.fan["flow_coefficient_range"]
-        phi = np.broadcast_to(first["flow_coefficient"], shape)
-        with np.errstate(invalid="ignore"):
-            limits["fan_speed <= max_speed"] = np.broadcast_to(first["fan_speed"], shape) \
-                <= case.fan["max_speed"]
-            limits["flow_coefficient in the map range"] = (phi >= flo) & (phi <= fhi)
+    values = {k: np.broadcast_to(v, shape) for k, v in first.items()}
+    values["fan_pressure_rise"] = values["required_pressure_rise"]
+    values["momentum_coefficient"] = np.broadcast_to(grid[:, None], shape)
+    limits = {}
+    for con in constraints.applicable(case, follow_requirement=True):
+        if con.per_segment:
+            with np.errstate(invalid="ignore"):
+                limits[con.name] = constraints.margin(con, case, values, blowing=True) >= 0
     feasible = np.logical_and.reduce(list(limits.values()))
     opt = [{"momentum_coefficient": float(outcome.values["momentum_coefficient"][i]),
             "net_power_W": float(outcome.values["net_power_saving"][i])}

@@ -26,6 +26,7 @@ References
 import numpy as np
 from scipy import stats
 
+from mdao import constraints
 from mdao.case import CaseError
 from mdao.studies.sensitivity import allowed_range, evaluate_design
 
@@ -129,18 +130,21 @@ def draw_samples(case, samples=None, seed=None):
 
 
 def violations(case, out):
-    """Per sample, does any blowing segment break a constraint at the fixed design?"""
-    b = case.blowing
-    dp = out["required_pressure_rise"][:, b]
-    bad = (dp > case.fan["max_pressure_rise"]) | (out["jet_mach"][:, b] > case.slot["max_jet_mach"])
-    bad |= (dp < case.fan["min_pressure_rise"]) & (dp > 0)
-    if case.fan["model"] == "map":
-        flo, fhi = case.fan["flow_coefficient_range"]
-        phi = out["flow_coefficient"][:, b]
-        with np.errstate(invalid="ignore"):
-            bad |= ~(out["fan_speed"][:, b] <= case.fan["max_speed"])
-            bad |= ~((phi >= flo) & (phi <= fhi))
-    return np.any(bad, axis=1)
+    """Per sample, does any blowing segment break a constraint at the fixed design?
+
+    The case's per-segment constraints (:mod:`mdao.constraints`) with the fan giving the
+    required pressure rise; a ram-driven segment (no fan work needed) is counted apart, not as
+    below the fan's minimum pressure rise.
+    """
+    cons = [c for c in constraints.applicable(case, follow_requirement=True) if c.per_segment]
+    rise = [c for c in cons if c.quantity == "fan_pressure_rise"]
+    others = [c for c in cons if c.quantity != "fan_pressure_rise"]
+    ok = constraints.holds(case, out, others)
+    rise_ok = constraints.holds(case, out, rise)
+    if rise_ok is not None:
+        rise_ok = rise_ok | (np.asarray(out["required_pressure_rise"]) <= 0)
+        ok = rise_ok if ok is None else ok & rise_ok
+    return ~np.all(ok, axis=-1)
 
 
 def monte_carlo(case, outcome, samples=None, seed=None, derivatives=None):
@@ -220,31 +224,3 @@ def monte_carlo(case, outcome, samples=None, seed=None, derivatives=None):
         "dominant_input": shares[0]["parameter"] if shares else None,
         "energy_J": e, "x": x, "keys": keys,
     }
-
-
-def optimum_per_sample(case, keys, x, scheduler=None, workers=None, progress=True):
-    """Re-optimize every sample (optimization under uncertainty) through
-    :func:`mdao.studies.scaleout.optimize_many`.
-
-    Returns
-    -------
-    dict
-        ``samples``, ``converged``, ``probability_of_saving`` (over all samples; a sample that
-        did not converge counts as not saving), ``percentiles_J`` over the converged samples,
-        ``slot_ratio_percentiles`` and ``energy_J`` (array; dropped from the JSON).
-    """
-    from mdao.studies.scaleout import optimize_many  # lazy: only with --optimum-per-sample
-
-    overrides = [{k: float(x[i, j]) for j, k in enumerate(keys)} for i in range(len(x))]
-    res = optimize_many(case, overrides, scheduler=scheduler, workers=workers, progress=progress)
-    ok = np.array([bool(r["converged"]) for r in res])
-    e = np.array([r["mission_energy_saving_J"] if r["converged"] else np.nan for r in res], float)
-    sr = np.array([r["slot_ratio"] if r["converged"] else np.nan for r in res], float)
-    pct = np.percentile(e[ok], [5, 50, 95]) if ok.any() else [np.nan] * 3
-    spct = np.percentile(sr[ok], [5, 50, 95]) if ok.any() else [np.nan] * 3
-    return {"samples": len(res), "converged": int(ok.sum()),
-            "probability_of_saving": float(np.count_nonzero(ok & (e > 0)) / len(res)),
-            "percentiles_J": {"5": float(pct[0]), "50": float(pct[1]), "95": float(pct[2])},
-            "slot_ratio_percentiles": {"5": float(spct[0]), "50": float(spct[1]),
-                                       "95": float(spct[2])},
-            "energy_J": e}

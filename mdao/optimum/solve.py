@@ -10,13 +10,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from mdao.studies.breakeven import break_even_efficiency
+from mdao import constraints
+from mdao.optimum.breakeven import break_even_efficiency
 from mdao.system import build_problem
-
-#: Relative closeness to a bound that counts as active.
-ACTIVE_TOL = 1e-4
-#: Feasibility tolerance of the equality constraint, relative to the pressure scale.
-BALANCE_TOL = 1e-6
 
 
 @dataclass
@@ -50,100 +46,39 @@ class Outcome:
         }
 
 
-OUTPUTS = ("momentum_coefficient", "fan_pressure_rise", "required_pressure_rise", "jet_velocity",
-           "volume_flow", "mass_flow", "jet_mach", "fan_efficiency", "fan_shaft_power", "section_drag",
-           "clean_section_drag", "drag_saving", "propulsion_power_saving", "fan_electric_power",
-           "net_power_saving", "energy_saving", "dynamic_pressure", "density")
+#: Per-segment outputs read back from the problem (besides the constrained quantities).
+RESULT_OUTPUTS = ("momentum_coefficient", "fan_pressure_rise", "required_pressure_rise",
+                  "jet_velocity", "volume_flow", "mass_flow", "jet_mach", "fan_efficiency",
+                  "fan_shaft_power", "section_drag", "clean_section_drag", "drag_saving",
+                  "propulsion_power_saving", "fan_electric_power", "net_power_saving",
+                  "energy_saving", "dynamic_pressure", "density")
+#: Outputs that only some models have.
+MODEL_OUTPUTS = {"map": ("fan_speed", "flow_coefficient", "tip_mach"),
+                 "geometric": ("jet_loss_factor", "diffusion_half_angle")}
 
 
-def _read(prob, case):
-    vals = {k: np.array(prob.get_val(k), float) for k in OUTPUTS}
-    if case.fan["model"] == "map":
-        for k in ("fan_speed", "flow_coefficient", "tip_mach"):
-            vals[k] = np.array(prob.get_val(k), float)
-    if case.duct["model"] == "geometric":
-        vals["jet_loss_factor"] = np.array(prob.get_val("jet_loss_factor"), float)
-        vals["diffusion_half_angle"] = np.array(prob.get_val("diffusion_half_angle"), float)
-    vals["slot_ratio"] = float(prob.get_val("slot_ratio")[0])
-    vals["slot_height"] = float(prob.get_val("slot_height")[0])
-    vals["mission_energy_saving"] = float(prob.get_val("mission_energy_saving")[0])
+def read_values(prob, case):
+    """The optimum's values by promoted name (SI): the result outputs, every constrained
+    quantity of the case, and the wing-level ``slot_ratio``, ``slot_height`` and
+    ``mission_energy_saving`` as floats."""
+    names = list(RESULT_OUTPUTS) + list(MODEL_OUTPUTS.get(case.fan["model"], ()))
+    names += list(MODEL_OUTPUTS.get(case.duct["model"], ()))
+    vals = {k: np.array(prob.get_val(k), float) for k in names}
+    for k in ("slot_ratio", "slot_height", "mission_energy_saving"):
+        vals[k] = float(prob.get_val(k)[0])
     return vals
 
 
-def _near(value, bound, scale):
-    return abs(value - bound) <= ACTIVE_TOL * max(abs(scale), 1e-300)
-
-
 def active_constraints(case, vals):
-    """Per segment, and for the wing, the names of constraints and bounds that bind."""
-    lo, hi = case.airfoil["momentum_coefficient_range"]
-    per = []
-    for i, seg in enumerate(case.segments):
-        act = []
-        if seg["blowing"]:
-            c = vals["momentum_coefficient"][i]
-            dp = vals["fan_pressure_rise"][i]
-            if _near(c, lo, hi):
-                act.append("momentum_coefficient >= calibrated minimum")
-            if _near(c, hi, hi):
-                act.append("momentum_coefficient <= calibrated maximum")
-            if _near(dp, case.fan["min_pressure_rise"], case.fan["min_pressure_rise"]):
-                act.append("fan_pressure_rise >= minimum")
-            if _near(dp, case.fan["max_pressure_rise"], case.fan["max_pressure_rise"]):
-                act.append("fan_pressure_rise <= maximum")
-            if _near(vals["jet_mach"][i], case.slot["max_jet_mach"], case.slot["max_jet_mach"]):
-                act.append("jet_mach <= limit")
-            if case.fan["model"] == "map":
-                flo, fhi = case.fan["flow_coefficient_range"]
-                if _near(vals["fan_speed"][i], case.fan["max_speed"], case.fan["max_speed"]):
-                    act.append("fan_speed <= max_speed")
-                if _near(vals["flow_coefficient"][i], flo, fhi):
-                    act.append("flow_coefficient >= map minimum (stall side)")
-                if _near(vals["flow_coefficient"][i], fhi, fhi):
-                    act.append("flow_coefficient <= map maximum")
-        per.append(act)
-    wing = []
-    bounds = case.slot["ratio_bounds"]
-    if bounds is not None and bounds[1] > bounds[0]:
-        if _near(vals["slot_ratio"], bounds[0], bounds[1]):
-            wing.append("slot_ratio >= lower bound")
-        if _near(vals["slot_ratio"], bounds[1], bounds[1]):
-            wing.append("slot_ratio <= upper bound")
-        if case.slot["min_height"] > 0 and _near(vals["slot_height"], case.slot["min_height"],
-                                                 case.slot["min_height"]):
-            wing.append("slot_height >= min_height")
-    if case.duct["model"] == "geometric":
-        limit = case.duct["max_diffusion_half_angle"]
-        if np.max(vals["diffusion_half_angle"]) >= limit * (1 - ACTIVE_TOL):
-            wing.append("diffusion_half_angle <= limit")
-    return per, wing
+    """Per segment, and for the wing, the constraints (in words) that bind."""
+    return constraints.active(case, vals)
 
 
-def _feasible(case, vals):
-    """Check the constraints at a returned point; return a list of violations (empty: ok)."""
-    bad = []
-    blow = case.blowing
-    scale = max(float(np.max(np.abs(vals["required_pressure_rise"][blow]))), 1.0)
-    gap = np.abs(vals["fan_pressure_rise"] - vals["required_pressure_rise"])[blow]
-    if np.any(gap > BALANCE_TOL * scale + 1e-6):
-        bad.append(f"fan pressure rise differs from the requirement by {gap.max():.3g} Pa")
-    tol = 1e-6
-    if np.any(vals["jet_mach"][blow] > case.slot["max_jet_mach"] * (1 + tol)):
-        bad.append("jet Mach limit exceeded")
-    if case.fan["model"] == "map":
-        flo, fhi = case.fan["flow_coefficient_range"]
-        if np.any(vals["fan_speed"][blow] > case.fan["max_speed"] * (1 + tol)):
-            bad.append("fan speed limit exceeded")
-        phi = vals["flow_coefficient"][blow]
-        if np.any(~np.isfinite(phi)) or np.any(phi < flo * (1 - tol)) or np.any(phi > fhi * (1 + tol)):
-            bad.append("fan flow coefficient outside the map's range")
-    if case.duct["model"] == "geometric":
-        if np.max(vals["diffusion_half_angle"]) > case.duct["max_diffusion_half_angle"] * (1 + tol):
-            bad.append("transition diffusion half-angle above the limit")
-    if vals["slot_height"] < case.slot["min_height"] * (1 - tol):
-        bad.append("slot below the minimum height")
+def feasibility(case, vals):
+    """The constraints a returned point breaks, in words (empty: feasible)."""
+    bad = constraints.violations(case, vals)
     if not np.all(np.isfinite(vals["net_power_saving"])):
-        bad.append("non-finite net power")
+        bad.append("net power is not finite")
     return bad
 
 
@@ -184,7 +119,7 @@ def _segments(case, vals, be):
 
 
 def _outcome(case, prob, converged, message, iterations, evals, devals, wall):
-    vals = _read(prob, case)
+    vals = read_values(prob, case)
     be = break_even_efficiency(case, slot_ratio=vals["slot_ratio"])
     _, wing = active_constraints(case, vals)
     return Outcome(converged=converged, message=message, iterations=iterations,
@@ -220,8 +155,8 @@ def optimize(case, problem=None, warm_start=None):
             prob.set_val(name, warm_start.values[name])
     result = prob.run_driver()
     wall = time.perf_counter() - t0
-    vals = _read(prob, case)
-    bad = _feasible(case, vals)
+    vals = read_values(prob, case)
+    bad = feasibility(case, vals)
     converged = bool(result.success) and not bad
     scipy_result = getattr(prob.driver, "_scipy_optimize_result", None)
     said = getattr(scipy_result, "message", None) or f"exit status {result.exit_status}"
@@ -242,7 +177,7 @@ def evaluate(case):
     prob = build_problem(case, driver=False)
     prob.run_model()
     wall = time.perf_counter() - t0
-    vals = _read(prob, case)
-    bad = _feasible(case, vals)
+    vals = read_values(prob, case)
+    bad = feasibility(case, vals)
     msg = "start point evaluated (not optimized)" + (": " + "; ".join(bad) if bad else "")
     return _outcome(case, prob, False, msg, 0, 1, 0, wall)

@@ -15,7 +15,10 @@ other leading axes).
 """
 import numpy as np
 
+from mdao import constraints
 from mdao.physics import atmosphere, chain, duct, power
+from mdao.physics.airfoil import drag_per_momentum_at, slot_drag_at
+from mdao.system import chain_options, chain_parameters
 
 GRID = 81
 GOLDEN_STEPS = 45  # the bracket shrinks to 1e-9 of one grid step
@@ -42,14 +45,20 @@ def admissible_range(case, params):
     return low, high
 
 
+def _admissible_constraints(case):
+    """The constraints a break-even point must meet: all per-segment ones but the fan map's own
+    limits (the answer is the efficiency the fan must reach, whatever fan gives it)."""
+    return [c for c in constraints.applicable(case, follow_requirement=True)
+            if c.per_segment and c.name not in constraints.FAN_MAP_LIMITS]
+
+
 def _ratio(case, params, cmu):
     """P_ideal / (eta_motor P_prop) at momentum coefficients ``cmu``; +inf where inadmissible."""
-    from mdao.system import chain_options
     out = chain.evaluate(dict(params, momentum_coefficient=cmu), chain_options(case), blowing=True)
     prop = out["propulsion_power_saving"]
-    dp = out["required_pressure_rise"]
-    ok = ((prop > 0) & (dp >= case.fan["min_pressure_rise"] * (1 - 1e-12))
-          & (dp <= case.fan["max_pressure_rise"]) & (out["jet_mach"] <= case.slot["max_jet_mach"]))
+    out["momentum_coefficient"] = np.broadcast_to(cmu, np.shape(prop))
+    ok = (prop > 0) & constraints.holds(case, out, _admissible_constraints(case), tol=1e-12,
+                                        blowing=True)
     with np.errstate(divide="ignore", invalid="ignore"):
         r = out["air_power"] / (params["motor_efficiency"] * prop)
     return np.where(ok, r, np.inf)
@@ -71,8 +80,6 @@ def break_even_efficiency(case, slot_ratio=None, params=None):
     ndarray
         Per segment (and leading axes of ``params``); NaN for non-blowing segments too.
     """
-    from mdao.system import chain_parameters
-
     p = chain_parameters(case) if params is None else dict(params)
     if slot_ratio is not None:
         p["slot_ratio"] = np.asarray(slot_ratio, float)
@@ -82,16 +89,15 @@ def break_even_efficiency(case, slot_ratio=None, params=None):
                                     if k != "pressure_coefficients"]).shape
     lo, hi = np.broadcast_to(lo, shape), np.broadcast_to(hi, shape)
     if case.duct["model"] == "lumped" and case.fan["model"] == "constant" and not case.fan["compressible"]:
-        k1, k2 = duct.lumped_coefficients(p["jet_loss_factor"], p["freestream_assist"],
-                                          p["slot_ratio"])
-        from mdao.physics.airfoil import slot_drag_at, drag_per_momentum_at
-        k3 = slot_drag_at(p["slot_ratio"], p.get("slot_drag", 0.0), p.get("slot_drag_per_ratio", 0.0))
+        jet_head, ram_recovery = duct.lumped_coefficients(
+            p["jet_loss_factor"], p["freestream_assist"], p["slot_ratio"])
+        slot_drag = slot_drag_at(p["slot_ratio"], p["slot_drag"], p["slot_drag_per_ratio"])
         beta = drag_per_momentum_at(p["slot_ratio"], p["drag_per_momentum"],
-                                  p.get("drag_per_momentum_per_ratio", 0.0))
-        if np.any(np.asarray(p.get("drag_quadratic", 0.0)) != 0):
+                                    p["drag_per_momentum_per_ratio"])
+        if np.any(np.asarray(p["drag_quadratic"]) != 0):
             eff = _search(case, p, lo, hi)
         else:
-            eff = power.break_even_lumped(k1, k2, k3, beta, lo, hi)
+            eff = power.break_even_lumped(jet_head, ram_recovery, slot_drag, beta, lo, hi)
             eff = eff * p["chain_efficiency"] / p["motor_efficiency"]
     else:
         eff = _search(case, p, lo, hi)

@@ -1,15 +1,16 @@
 """The command line: ``blownwing optimize|evaluate|calibrate|review|many``.
 
-Exit codes: 0 success (a converged optimum), 2 bad input (a message, no traceback), 3 the
-optimizer did not converge (said so; nothing is printed as an optimum).
+The top layer of the package: argument handling, exit codes, everything printed on the console
+and the progress display live here (:mod:`mdao.cli.commands`, :mod:`mdao.cli.progress`); the
+studies below return data.
+
+Exit codes (:mod:`mdao.cli.commands`): 0 success (a converged optimum; for ``many``, at least one
+converged optimization), 2 bad input (a message, no traceback), 3 the optimizer did not converge
+(said so; nothing is printed as an optimum).
 """
 import argparse
-import sys
-from pathlib import Path
 
 from mdao import CAUTION, __version__
-
-EXIT_OK, EXIT_INPUT, EXIT_NOT_CONVERGED = 0, 2, 3
 
 
 def _parser():
@@ -57,73 +58,9 @@ def _parser():
 
 
 def main(argv=None):
+    """Run the command line on ``argv`` (default ``sys.argv[1:]``); returns the exit code."""
     args = _parser().parse_args(argv)
-    try:
-        return _COMMANDS[args.command](args)
-    except _InputErrors() as exc:
-        print(f"blownwing: error: {exc}", file=sys.stderr)
-        return EXIT_INPUT
+    from mdao.cli.commands import run  # after parsing: --help and --version stay fast
 
+    return run(args)
 
-def _InputErrors():
-    from mdao.case import CaseError
-    errors = [CaseError]
-    try:
-        from mdao.studies.calibration import CalibrationError
-        errors.append(CalibrationError)
-    except ImportError:
-        pass
-    return tuple(errors)
-
-
-def _optimize(args, optimized=True):
-    from mdao.case import load_case
-    from mdao.optimum import evaluate, optimize
-    from mdao.files import write_json
-    from mdao.report import summary
-
-    case = load_case(args.case)
-    outcome = optimize(case) if optimized else evaluate(case)
-    if optimized and not outcome.converged:
-        print(f"blownwing: {case.title}\nNOT CONVERGED: {outcome.message} after "
-              f"{outcome.iterations} iterations ({outcome.model_evaluations} model evaluations). "
-              "No optimum is reported; check the bounds, the start point "
-              "([[segment]] momentum_coefficient) or [optimize] max_iterations.", file=sys.stderr)
-        if args.out:
-            write_json(Path(args.out) / "results.json", outcome.to_json())
-        return EXIT_NOT_CONVERGED
-    print(summary(outcome, case, optimized=optimized))
-    if args.out:
-        data = outcome.to_json()
-        data.update(case=str(args.case), title=case.title, version=__version__, caution=CAUTION)
-        write_json(Path(args.out) / "results.json", data)
-        print(f"wrote {Path(args.out) / 'results.json'}")
-    return EXIT_OK
-
-
-def _calibrate(args):
-    from mdao.studies.calibration import calibrate_file, format_summary
-
-    result = calibrate_file(args.runs, args.out, plots=not args.no_plots)
-    print(format_summary(result))
-    print(f"wrote {Path(args.out) / 'calibration.json'} and {Path(args.out) / 'calibration.toml'}")
-    return EXIT_OK
-
-
-def _review(args):
-    from mdao.studies.review import run_review_cli
-    return run_review_cli(args)
-
-
-def _many(args):
-    from mdao.studies.scaleout import run_many_cli
-    return run_many_cli(args.case, args.kind, args.samples, args.seed, args.out, args.scheduler,
-                        args.workers)
-
-
-_COMMANDS = {"optimize": _optimize, "evaluate": lambda a: _optimize(a, optimized=False),
-             "calibrate": _calibrate, "review": _review, "many": _many}
-
-
-if __name__ == "__main__":
-    sys.exit(main())

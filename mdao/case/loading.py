@@ -1,4 +1,4 @@
-"""Case files: TOML with quantities carrying units, validated and converted to SI.
+"""Reading and validating a case file into a :class:`Case` (every value in SI).
 
 Every dimensional value is a string with its unit (``"0.55 m"``, ``"45 m/s"``, ``"1.5 h"``,
 ``"60000 rpm"``, ``"3 deg"``), read by pint. Any wrong dimension, missing or unknown key, value
@@ -7,7 +7,7 @@ is allowed. docs/case-files.md describes every key.
 """
 import copy
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 try:
@@ -17,161 +17,37 @@ except ModuleNotFoundError:  # Python 3.10
 
 import numpy as np
 
+from mdao.case.errors import CaseError
+from mdao.case.fragment import load_fragment
+from mdao.case.schema import DISTRIBUTIONS, REQUIRED, SCHEMA, SEGMENT, TOP_LEVEL, kind_of
+from mdao.parameters import RENAMED, chain_parameters
 from mdao.units import UnitError, read_table, to_si
 
-
-class CaseError(ValueError):
-    """Bad case input; the message names the key, the value and what is allowed."""
-
-
-# --- the schema --------------------------------------------------------------------------------
-# Each entry: kind, default (REQUIRED = must be given), check (lo, hi, lo_open, hi_open) or choices.
-REQUIRED = object()
-OPT = None  # optional, no default
-
-INF = math.inf
-
-
-def _q(kind, default=REQUIRED, lo=-INF, hi=INF, lo_open=False, hi_open=False):
-    return {"type": "quantity", "kind": kind, "default": default, "range": (lo, hi, lo_open, hi_open)}
-
-
-def _n(default=REQUIRED, lo=-INF, hi=INF, lo_open=False, hi_open=False):
-    return {"type": "number", "default": default, "range": (lo, hi, lo_open, hi_open)}
-
-
-def _pair(kind="dimensionless", default=REQUIRED, lo=-INF, hi=INF, lo_open=False):
-    return {"type": "pair", "kind": kind, "default": default, "range": (lo, hi, lo_open, False)}
-
-
-SCHEMA = {
-    "wing": {
-        "chord": _q("length", lo=0, lo_open=True),
-        "blown_span": _q("length", lo=0, lo_open=True),
-    },
-    "slot": {
-        "ratio": _n(lo=0, hi=0.2, lo_open=True),
-        "ratio_bounds": _pair(default=OPT, lo=0, hi=0.2, lo_open=True),
-        "min_height": _q("length", default=0.0, lo=0),
-        "suction_ratio": _n(default=OPT, lo=0, hi=0.3, lo_open=True),
-        "max_jet_mach": _n(default=0.5, lo=0, hi=1.0, lo_open=True),
-    },
-    "duct": {
-        "model": {"type": "choice", "choices": ("lumped", "geometric"), "default": "lumped"},
-        "jet_loss_factor": _n(default=OPT, lo=1.0, hi=20.0),
-        "freestream_assist": _n(lo=0.0, hi=5.0),
-        "fans": {"type": "int", "default": 1, "range": (1, 1000, False, False)},
-        "fan_diameter": _q("length", default=OPT, lo=0, lo_open=True),
-        "transition_length": _q("length", default=OPT, lo=0, lo_open=True),
-        "slot_exponent": _n(default=8.0, lo=2.0, hi=100.0),
-        "schedule": {"type": "choice", "choices": ("monotone-area", "linear"),
-                     "default": "monotone-area"},
-        "stations": {"type": "int", "default": 33, "range": (5, 401, False, False)},
-        "roughness": _q("length", default=1.5e-6, lo=0),
-        "bend_loss": _n(default=0.0, lo=0, hi=10),
-        "suction_inlet_loss": _n(default=0.5, lo=0, hi=10),
-        "extra_loss": _n(default=0.0, lo=0, hi=10),
-        "max_diffusion_half_angle": _q("angle", default=math.radians(3.5), lo=0, hi=math.pi / 4,
-                                       lo_open=True),
-    },
-    "fan": {
-        "model": {"type": "choice", "choices": ("constant", "map"), "default": "constant"},
-        "efficiency": _n(default=OPT, lo=0, hi=1, lo_open=True),
-        "motor_efficiency": _n(lo=0, hi=1, lo_open=True),
-        "min_pressure_rise": _q("pressure", default=50.0, lo=0, lo_open=True),
-        "max_pressure_rise": _q("pressure", default=30000.0, lo=0, lo_open=True),
-        "compressible": {"type": "bool", "default": False},
-        "pressure_coefficients": {"type": "list", "length": 3, "default": OPT},
-        "peak_efficiency": _n(default=OPT, lo=0, hi=1, lo_open=True),
-        "peak_flow_coefficient": _n(default=OPT, lo=0, lo_open=True),
-        "efficiency_falloff": _n(default=OPT, lo=0),
-        "flow_coefficient_range": _pair(default=OPT, lo=0, lo_open=True),
-        "max_speed": _q("rotational_speed", default=OPT, lo=0, lo_open=True),
-        "points_file": {"type": "str", "default": OPT},
-    },
-    "airfoil": {
-        "drag_clean": _n(lo=0, hi=1, lo_open=True),
-        "slot_drag": _n(default=0.0, lo=0, hi=1),
-        "slot_drag_per_ratio": _n(default=0.0, lo=0, hi=100),
-        "drag_per_momentum": _n(lo=-20, hi=0, hi_open=True),
-        "drag_per_momentum_per_ratio": _n(default=0.0, lo=-1000, hi=1000),
-        "drag_quadratic": _n(default=0.0, lo=0, hi=100),
-        "momentum_coefficient_range": _pair(lo=0, hi=2.0, lo_open=True),
-        "lift_per_momentum": _n(default=0.0, lo=-100, hi=100),
-    },
-    "propulsion": {
-        "chain_efficiency": _n(lo=0, hi=1, lo_open=True),
-    },
-    "optimize": {
-        "objective": {"type": "str", "default": "mission-energy"},
-        "max_iterations": {"type": "int", "default": 200, "range": (1, 100000, False, False)},
-        "tolerance": _n(default=1e-9, lo=0, hi=1e-2, lo_open=True),
-    },
-    "review": {
-        "samples": {"type": "int", "default": 2000, "range": (10, 10_000_000, False, False)},
-        "seed": {"type": "int", "default": 12345, "range": (0, 2**63 - 1, False, False)},
-        "band": _n(default=0.1, lo=0, hi=1, lo_open=True),
-        "fan_efficiencies": {"type": "list", "length": None, "default": OPT},
-    },
-    "mass": {
-        "fan_specific_power": _q("specific_power", default=2500.0, lo=0, lo_open=True),
-        "motor_specific_power": _q("specific_power", default=5000.0, lo=0, lo_open=True),
-        "duct_areal_density": _q("areal_density", default=1.2, lo=0),
-        "installation_factor": _n(default=1.2, lo=1, hi=3),
-        "power_margin": _n(default=1.25, lo=1, hi=3),
-        "duct_wetted_ratio": _n(default=1.5, lo=0, hi=10),
-    },
-}
-
-SEGMENT = {
-    "name": {"type": "str", "default": REQUIRED},
-    "altitude": _q("length", lo=0, hi=20000),
-    "speed": _q("speed", lo=0, lo_open=True, hi=400),
-    "duration": _q("time", lo=0, lo_open=True),
-    "blowing": {"type": "bool", "default": True},
-    "momentum_coefficient": _n(default=OPT, lo=0, hi=2.0, lo_open=True),
-}
-
-TOP_LEVEL = {"title", "segment", "calibration", "uncertainty"} | set(SCHEMA)
-
-#: Model constants a calibration may fill (case key paths).
-CALIBRATED = ("duct.jet_loss_factor", "duct.freestream_assist", "airfoil.drag_clean",
-              "airfoil.slot_drag", "airfoil.slot_drag_per_ratio", "airfoil.drag_per_momentum",
-              "airfoil.drag_per_momentum_per_ratio", "airfoil.lift_per_momentum",
-              "airfoil.momentum_coefficient_range")
-
-DISTRIBUTIONS = {"normal": ("sd",), "uniform": ("low", "high")}
-
-
-def _fmt_range(lo, hi, lo_open, hi_open):
-    left = "(" if lo_open else "["
-    right = ")" if hi_open else "]"
-    return f"{left}{lo:g}, {hi:g}{right}"
+#: Prefix of a one-segment objective, ``"segment:NAME"``.
+SEGMENT_OBJECTIVE = "segment:"
 
 
 def _check_range(key, value, spec, shown):
-    lo, hi, lo_open, hi_open = spec["range"]
+    lo, hi, lo_open, hi_open = spec.range
     bad = (value < lo or value > hi or (lo_open and value == lo) or (hi_open and value == hi)
            or (isinstance(value, float) and math.isnan(value)))
     if bad:
-        unit = spec.get("kind", "")
-        suffix = "" if unit in ("", "dimensionless", None) else f" (in SI, {unit})"
-        raise CaseError(f"{key} = {shown!r} is out of range: allowed "
-                        f"{_fmt_range(lo, hi, lo_open, hi_open)}{suffix}")
+        suffix = "" if spec.kind == "dimensionless" else f" (in SI, {spec.kind})"
+        raise CaseError(f"{key} = {shown!r} is out of range: allowed {spec.allowed()}{suffix}")
 
 
 def _read_value(key, raw, spec):
-    typ = spec["type"]
+    typ = spec.type
     if typ == "quantity":
         if not isinstance(raw, str):
             if isinstance(raw, (int, float)) and not isinstance(raw, bool) and raw == 0:
                 value = 0.0
             else:
                 raise CaseError(f"{key} = {raw!r}: give a quantity with units as a string, "
-                                f"e.g. \"{_example(spec['kind'])}\"")
+                                f"e.g. \"{_example(spec.kind)}\"")
         else:
             try:
-                value = to_si(raw, spec["kind"])
+                value = to_si(raw, spec.kind)
             except UnitError as exc:
                 raise CaseError(f"{key}: {exc}") from None
         _check_range(key, value, spec, raw)
@@ -203,13 +79,13 @@ def _read_value(key, raw, spec):
             raise CaseError(f"{key} = {raw!r}: a string is allowed")
         return raw
     if typ == "choice":
-        if raw not in spec["choices"]:
+        if raw not in spec.choices:
             raise CaseError(f"{key} = {raw!r}: allowed values are "
-                            + ", ".join(f'"{c}"' for c in spec["choices"]))
+                            + ", ".join(f'"{c}"' for c in spec.choices))
         return raw
     if typ == "list":
-        if not isinstance(raw, list) or (spec["length"] and len(raw) != spec["length"]):
-            raise CaseError(f"{key} = {raw!r}: a list of {spec['length'] or 'some'} numbers "
+        if not isinstance(raw, list) or (spec.length and len(raw) != spec.length):
+            raise CaseError(f"{key} = {raw!r}: a list of {spec.length or 'some'} numbers "
                             "is allowed")
         if not all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in raw):
             raise CaseError(f"{key} = {raw!r}: every entry must be a number")
@@ -217,7 +93,7 @@ def _read_value(key, raw, spec):
     if typ == "pair":
         if not isinstance(raw, list) or len(raw) != 2:
             raise CaseError(f"{key} = {raw!r}: a list of two values [low, high] is allowed")
-        sub = dict(spec, type="quantity" if spec["kind"] != "dimensionless" else "number")
+        sub = replace(spec, type="quantity" if spec.kind != "dimensionless" else "number")
         lo = _read_value(f"{key}[0]", raw[0], sub)
         hi = _read_value(f"{key}[1]", raw[1], sub)
         if not lo < hi:
@@ -235,6 +111,10 @@ def _example(kind):
 def _read_table(name, raw, schema):
     if not isinstance(raw, dict):
         raise CaseError(f"[{name}] must be a table, got {raw!r}")
+    for old in sorted(set(raw)):
+        if f"{name}.{old}" in RENAMED:
+            raise CaseError(f"{name}.{old} is no longer a case key: it is now "
+                            f"{RENAMED[name + '.' + old]} (same meaning and value)")
     unknown = sorted(set(raw) - set(schema))
     if unknown:
         raise CaseError(f"{name}.{unknown[0]}: unknown key; allowed keys in [{name}] are "
@@ -244,10 +124,10 @@ def _read_table(name, raw, schema):
         full = f"{name}.{key}"
         if key in raw:
             out[key] = _read_value(full, raw[key], spec)
-        elif spec["default"] is REQUIRED:
+        elif spec.default is REQUIRED:
             raise CaseError(f"{full} is missing (required)")
         else:
-            out[key] = spec["default"]
+            out[key] = spec.default
     return out
 
 
@@ -278,7 +158,17 @@ class Case:
 
     @property
     def segment_names(self):
+        """The segments' names, in case order."""
         return [s["name"] for s in self.segments]
+
+    @property
+    def objective_segment(self):
+        """The segment whose net power is the objective (``"segment:NAME"``), or None when the
+        objective is the mission energy."""
+        objective = self.optimize["objective"]
+        if objective.startswith(SEGMENT_OBJECTIVE):
+            return objective[len(SEGMENT_OBJECTIVE):]
+        return None
 
     def value(self, key):
         """Value at a case key path: ``"duct.jet_loss_factor"`` or ``"segment.cruise.speed"``."""
@@ -369,8 +259,6 @@ def parse_case(raw, base=Path("."), path=None, text=""):
 
 
 def _apply_calibration(raw, base):
-    from mdao.studies.calibration import load_fragment
-
     table = raw.pop("calibration")
     if not isinstance(table, dict) or set(table) != {"file"} or not isinstance(table["file"], str):
         raise CaseError(f"calibration = {table!r}: allowed is a table with one key, file = \"PATH\"")
@@ -426,6 +314,10 @@ def _check_consistency(case, base):
         if f["pressure_coefficients"][0] <= 0:
             raise CaseError(f"fan.pressure_coefficients = {f['pressure_coefficients']!r}: the "
                             "first coefficient (shut-off pressure coefficient) must be > 0")
+    for p in chain_parameters(d["model"], f["model"], per_segment=False):
+        if p.default is REQUIRED and case.value(p.key) is None:
+            raise CaseError(f"{p.key} is missing (required when duct.model = \"{d['model']}\" "
+                            f"and fan.model = \"{f['model']}\": {p.description})")
     if f["min_pressure_rise"] >= f["max_pressure_rise"]:
         raise CaseError(f"fan.min_pressure_rise = {f['min_pressure_rise']:g} Pa must be below "
                         f"fan.max_pressure_rise = {f['max_pressure_rise']:g} Pa")
@@ -463,10 +355,10 @@ def _check_consistency(case, base):
         raise CaseError("segment.blowing: no segment has blowing = true; nothing to optimize")
     obj = case.optimize["objective"]
     if obj != "mission-energy":
-        if not obj.startswith("segment:") or obj[8:] not in case.segment_names:
+        if not obj.startswith(SEGMENT_OBJECTIVE) or case.objective_segment not in case.segment_names:
             raise CaseError(f"optimize.objective = {obj!r}: allowed are \"mission-energy\" or "
                             f"\"segment:NAME\" with NAME one of " + ", ".join(case.segment_names))
-        if not case.segments[case.segment_names.index(obj[8:])]["blowing"]:
+        if not case.segments[case.segment_names.index(case.objective_segment)]["blowing"]:
             raise CaseError(f"optimize.objective = {obj!r}: that segment has blowing = false")
     if case.review["fan_efficiencies"] is not None:
         if not all(0 < e <= 1 for e in case.review["fan_efficiencies"]):
@@ -555,17 +447,6 @@ def _read_uncertainty(raw, case):
             raise CaseError(f"uncertainty.\"{key}\": low must be below high")
         out[key] = {"distribution": spec["distribution"], **vals}
     return out
-
-
-def spec_of(key):
-    """Schema entry of a case key path (``"wing.chord"``, ``"segment.NAME.speed"``)."""
-    parts = key.split(".")
-    return SEGMENT[parts[2]] if parts[0] == "segment" else SCHEMA[parts[0]][parts[1]]
-
-
-def kind_of(key):
-    """Dimension kind of a numeric case key path (``"wing.chord"`` -> ``"length"``)."""
-    return spec_of(key).get("kind", "dimensionless")
 
 
 def _quantity_like(key, sub, text):
