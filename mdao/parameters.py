@@ -119,7 +119,8 @@ CHAIN_PARAMETERS = (
     Parameter("wing.blown_span", "blown_span", "m", "length", example=1.0, low=0, low_open=True,
               description="span with blowing"),
     Parameter("slot.ratio", "slot_ratio", example=0.01, low=0, high=0.2, low_open=True,
-              description="injection slot height over chord"),
+              uncertain=False, description="injection slot height over chord (the start "
+                                           "value when the slot ratio is a design variable)"),
     Parameter("slot.suction_ratio", "suction_ratio", default=REQUIRED, example=0.02, low=0,
               high=0.3, low_open=True, duct_models=_GEO,
               description="suction slot height over chord"),

@@ -22,6 +22,10 @@ from mdao.components.jet import JetComp
 from mdao.components.power import SegmentPowerComp
 from mdao.components.transition import TransitionComp
 
+#: Promoted inputs that more than one component of the per-discipline group takes.
+SHARED_INPUTS = ("slot_ratio", "chord", "blown_span", "speed", "fan_diameter")
+
+
 class BlownWingGroup(om.Group):
     """Blown wing at ``num_nodes`` operating points: from flight condition to net power saved.
 
@@ -55,14 +59,9 @@ class BlownWingGroup(om.Group):
         o = self.options
         n = o["num_nodes"]
         if o["fused"]:
-            if o["duct_model"] != "lumped" or o["fan_model"] != "constant":
-                raise ValueError("BlownWingGroup: fused=True needs duct_model='lumped' and "
-                                 f"fan_model='constant', got {o['duct_model']!r} and "
-                                 f"{o['fan_model']!r}")
-            self.add_subsystem("chain", ChainComp(num_nodes=n, compressible=o["compressible"],
-                                                  blowing=o["blowing"],
-                                                  follow_requirement=o["follow_requirement"]),
-                               promotes=["*"])
+            self.add_subsystem("chain", ChainComp(**{k: o[k] for k in (
+                "num_nodes", "duct_model", "fan_model", "fans", "stations", "schedule",
+                "compressible", "blowing", "follow_requirement")}), promotes=["*"])
             return
         self.add_subsystem("atmosphere", AtmosphereComp(num_nodes=n), promotes=["*"])
         self.add_subsystem("jet", JetComp(num_nodes=n), promotes=["*"])
@@ -84,21 +83,20 @@ class BlownWingGroup(om.Group):
         self.add_subsystem("power", SegmentPowerComp(num_nodes=n, blowing=o["blowing"]),
                            promotes=["*"])
 
-        self.set_input_defaults("slot_ratio", 0.01)
-        self.set_input_defaults("chord", 0.5, units="m")
-        self.set_input_defaults("blown_span", 1.0, units="m")
-        self.set_input_defaults("speed", 40.0 * np.ones(n), units="m/s")
+        # inputs that several components share: one default each, from the declarations
+        for name in SHARED_INPUTS:
+            p = registry.BY_NAME[name]
+            if p.used_by(o["duct_model"], o["fan_model"]):
+                value = p.start_value * (np.ones(n) if p.per_segment else 1.0)
+                self.set_input_defaults(name, value, units=p.unit)
         self.set_input_defaults("momentum_coefficient", 0.03 * np.ones(n))
-        if o["duct_model"] == "geometric" and o["fan_model"] == "map":
-            self.set_input_defaults("fan_diameter", 0.08, units="m")
 
 
 def group_options(case, fused=None):
-    """BlownWingGroup options for a case; ``fused`` defaults to True where it applies
-    (lumped duct and constant fan)."""
-    lumped = case.duct["model"] == "lumped" and case.fan["model"] == "constant"
+    """BlownWingGroup options for a case; ``fused`` (one ChainComp) is the default for every
+    duct and fan model."""
     return dict(asdict(chain_options(case)), num_nodes=len(case.segments),
-                blowing=list(case.blowing), fused=lumped if fused is None else fused)
+                blowing=list(case.blowing), fused=True if fused is None else fused)
 
 
 def applicable_parameters(case):

@@ -93,13 +93,14 @@ def test_component_values():
                        vals['lift_per_momentum'] * vals['momentum_coefficient'], rtol=1e-15)
 
 
-def test_component_defaults_set_up_alone():
-    """Defaults: q 1000 Pa on 0.5 m x 1 m, C_D = 0.012 + 0.02 - 1.2*0.03 = -0.004 -> drag -2 N,
-    clean 6 N, saving 8 N (worked by hand)."""
+def test_component_start_values_set_up_alone():
+    """Unconnected, the component runs on the declared start values (mdao.parameters): q 1000
+    Pa on 0.5 m x 1 m, C_D = 0.012 + 0 (no slot penalty by default) - 1.2*0.03 = -0.024 ->
+    drag -12 N, clean 6 N, saving 18 N (worked by hand)."""
     prob = om.Problem(reports=False)
     prob.model.add_subsystem('c', AirfoilComp(), promotes=['*'])
     prob.setup()
     prob.run_model()
-    assert prob.get_val('section_drag')[0] == pytest.approx(-2.0, abs=1e-12)
+    assert prob.get_val('section_drag')[0] == pytest.approx(-12.0, abs=1e-12)
     assert prob.get_val('clean_section_drag')[0] == pytest.approx(6.0, abs=1e-12)
-    assert prob.get_val('drag_saving')[0] == pytest.approx(8.0, abs=1e-12)
+    assert prob.get_val('drag_saving')[0] == pytest.approx(18.0, abs=1e-12)

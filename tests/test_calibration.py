@@ -1,4 +1,4 @@
-"""Tests of the calibration from designer runs (mdao.studies.calibration, mdao.studies.runs).
+"""Tests of the calibration from designer runs (mdao.studies.calibration, mdao.report.calibration).
 
 Outside references: the NIST Statistical Reference Datasets' certified values for the Longley
 regression; statsmodels OLS (test-only) for every fit statistic on the demo runs; the ISA table of
@@ -16,10 +16,11 @@ import pytest
 
 from mdao.case.fragment import FragmentError
 
+from mdao.report.calibration import format_summary
 from mdao.studies.calibration import (CAUTION, CalibrationError, CalibrationWarning, calibrate,
-                                      calibrate_file, format_summary, fragment_text,
-                                      least_squares, load_fragment, read_runs)
-from mdao.studies.runs import derived
+                                      calibrate_file, fragment_text, least_squares, load_fragment,
+                                      read_runs)
+from mdao.studies.calibration.runs import derived
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO_CSV = ROOT / "cases" / "data" / "demo_runs.csv"
@@ -201,7 +202,7 @@ def test_plausibility_warnings_fire_far_off():
     with pytest.warns(CalibrationWarning) as record:
         result = calibrate(runs)
     text = " | ".join(result["warnings"])
-    for label in ("jet loss factor K_j", "freestream assist K_inf", "drag slope",
+    for label in ("jet loss factor K_j", "freestream assist K_inf", "drag per momentum coefficient",
                   "jet-off over clean"):
         assert label in text
     assert len(record) == len(result["warnings"])

@@ -80,11 +80,3 @@ def test_fused_group_matches_per_discipline_group(cases_dir):
     totals = [p.compute_totals() for p in probs]
     for key, value in totals[0].items():
         np.testing.assert_allclose(totals[1][key], value, rtol=1e-10, atol=1e-12)
-
-
-def test_fused_refuses_other_models():
-    from mdao.system import BlownWingGroup
-    prob = om.Problem(reports=False)
-    prob.model.add_subsystem("w", BlownWingGroup(duct_model="geometric", fused=True))
-    with pytest.raises(ValueError, match="fused=True needs duct_model='lumped'"):
-        prob.setup()

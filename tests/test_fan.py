@@ -52,9 +52,8 @@ def test_worked_numbers():
 def test_fan_curve_meets_system():
     """Fan curve dp = 1000 - 2e4 Q^2 against system 3e4 Q^2 meets at
     Q = sqrt(1000 / 5e4) = 0.141421 m3/s, dp = 600 Pa (by hand). Route: the dimensional curve is
-    written as a
-    characteristic psi(phi) at a chosen (rho, D, N0); the operating flow is where speed() for
-    the system's pressure rise equals N0."""
+    written as a characteristic psi(phi) at a chosen (rho, D, N0); the operating flow is where
+    speed() for the system's pressure rise equals N0."""
     p0, b, c, k_sys = 1000.0, 0.0, -2e4, 3e4
     rho, d, n0 = 1.2, 0.1, 120.0
     # dp = rho N^2 D^2 (c0 + c1 phi + c2 phi^2)  <=>  p0 + b Q + c Q^2 at N = N0
@@ -73,8 +72,7 @@ def test_fan_curve_meets_system():
                                        (5000.0, 0.982857), (20000.0, 0.936527)])
 def test_compression_power_ratio(dp, ratio):
     """Isentropic compression work (Dixon & Hall 2014): isentropic / (Q dp) at p 101325 Pa,
-    T 288.15 K,
-    gamma 1.4, cp 1004.69, to the printed digits; cross-checked with
+    T 288.15 K, gamma 1.4, cp 1004.69, to the printed digits; cross-checked with
     fluids.compressible.isentropic_work_compression (J/mol, converted with the molar mass that
     makes R = cp (gamma-1)/gamma)."""
     p, t, gamma, cp = 101325.0, 288.15, 1.4, 1004.69

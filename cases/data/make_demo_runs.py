@@ -85,7 +85,7 @@ def synthetic_runs(rng, truth=TRUTH, noise=NOISE, lift_jet_off=LIFT_JET_OFF, rep
         ``speed``, ``altitude``, ``chord``, ``span``, ``slot_height``, ``mass_flow``,
         ``fan_pressure_rise``, ``drag_coefficient``, ``lift_coefficient`` (SI).
     """
-    from mdao.studies.runs import atmosphere_state
+    from mdao.studies.calibration.runs import atmosphere_state
 
     height, speed, altitude, cmu = test_matrix()
     rho, _ = atmosphere_state(altitude)

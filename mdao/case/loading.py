@@ -20,7 +20,7 @@ import numpy as np
 from mdao.case.errors import CaseError
 from mdao.case.fragment import load_fragment
 from mdao.case.schema import DISTRIBUTIONS, REQUIRED, SCHEMA, SEGMENT, TOP_LEVEL, kind_of
-from mdao.parameters import RENAMED, chain_parameters
+from mdao.parameters import CHAIN_PARAMETERS, RENAMED, chain_parameters, parameter
 from mdao.units import UnitError, read_table, to_si
 
 #: Prefix of a one-segment objective, ``"segment:NAME"``.
@@ -423,8 +423,15 @@ def _read_uncertainty(raw, case):
         except (CaseError, KeyError, IndexError):
             raise CaseError(f"uncertainty.\"{key}\": not a case key path (e.g. "
                             "\"airfoil.drag_per_momentum\" or \"segment.NAME.speed\")") from None
-        if not isinstance(base, (int, float)) or isinstance(base, bool):
-            raise CaseError(f"uncertainty.\"{key}\": only numeric case values can be uncertain")
+        try:
+            declared = parameter(key)
+        except KeyError:
+            declared = None
+        if (declared is None or not declared.uncertain or base is None
+                or not declared.used_by(case.duct["model"], case.fan["model"])):
+            allowed = ", ".join(p.key for p in CHAIN_PARAMETERS if p.uncertain)
+            raise CaseError(f"uncertainty.\"{key}\": only model parameters the case uses can be "
+                            f"uncertain ({allowed}; per segment as \"segment.NAME.speed\")")
         if not isinstance(spec, dict) or spec.get("distribution") not in DISTRIBUTIONS:
             raise CaseError(f"uncertainty.\"{key}\" = {spec!r}: give distribution = "
                             + " or ".join(f'"{d}"' for d in DISTRIBUTIONS))

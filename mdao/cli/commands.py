@@ -9,7 +9,7 @@ from pathlib import Path
 from mdao import CAUTION, __version__
 from mdao.case import CaseError
 from mdao.cli.progress import OptimizationCounter, StepDisplay
-from mdao.studies.runs import CalibrationError
+from mdao.studies.calibration.runs import CalibrationError
 
 #: Exit codes: success (a converged optimum), bad input, the optimizer did not converge.
 EXIT_OK, EXIT_INPUT, EXIT_NOT_CONVERGED = 0, 2, 3
@@ -32,7 +32,7 @@ def _optimize(args, optimized=True):
     from mdao.case import load_case
     from mdao.files import write_json
     from mdao.optimum import evaluate, optimize
-    from mdao.report import summary
+    from mdao.report.console import summary
 
     case = load_case(args.case)
     outcome = optimize(case) if optimized else evaluate(case)
@@ -55,7 +55,8 @@ def _optimize(args, optimized=True):
 
 def _calibrate(args):
     """``blownwing calibrate RUNS [--out DIR] [--no-plots]``."""
-    from mdao.studies.calibration import calibrate_file, format_summary
+    from mdao.report.calibration import format_summary
+    from mdao.studies.calibration import calibrate_file
 
     result = calibrate_file(args.runs, args.out, plots=not args.no_plots)
     print(format_summary(result))
@@ -71,7 +72,7 @@ def _review(args):
     ``review.json`` records the failure and no optimum, no ``review.md``).
     """
     from mdao.case import load_case
-    from mdao.report_review import review_summary, write_review, write_review_failure
+    from mdao.report.review import review_summary, write_review, write_review_failure
     from mdao.studies.review import run_review
 
     case = load_case(args.case)
@@ -106,7 +107,7 @@ def _many(args):
     """
     from mdao.case import load_case
     from mdao.files import write_json
-    from mdao.report import many_summary
+    from mdao.report.console import many_summary
     from mdao.studies.scaleout import run_many
 
     case = load_case(args.case)

@@ -29,3 +29,17 @@ def blowing_flags(flags, n):
     if flags.shape != (n,):
         raise ValueError(f"blowing must have num_nodes={n} entries, got {flags.shape}")
     return flags
+
+
+def add_parameter_inputs(component, names, num_nodes=1):
+    """Add the inputs of declared model parameters (:mod:`mdao.parameters`) to a component:
+    the declared unit, start value and description; per-segment parameters get one value per
+    node. One declaration serves every component, so defaults cannot disagree."""
+    from mdao.parameters import BY_NAME
+
+    for name in names:
+        p = BY_NAME[name]
+        value = np.asarray(p.start_value, float)
+        if p.per_segment:
+            value = value * np.ones(num_nodes)
+        component.add_input(name, val=value, units=p.unit, desc=p.description)

@@ -3,6 +3,7 @@
 import numpy as np
 from mdao import om
 
+from mdao.components._sparsity import add_parameter_inputs
 from mdao.physics import airfoil as phys
 
 AIRFOIL_CITE = """@incollection{englar2001,
@@ -12,10 +13,9 @@ AIRFOIL_CITE = """@incollection{englar2001,
   booktitle = {Applications of Circulation Control Technology}, series = {AIAA Progress in
                Astronautics and Aeronautics}, volume = {192}, year = {2001}}"""
 
-# Scalar calibration inputs of the drag model, in the order of physics.airfoil.drag_coefficient.
-_CONSTANTS = {'slot_ratio': 0.01, 'drag_clean': 0.012, 'slot_drag': 0.02,
-              'slot_drag_per_ratio': 0.0, 'drag_per_momentum': -1.2,
-              'drag_per_momentum_per_ratio': 0.0, 'drag_quadratic': 0.0}
+#: Wing-level inputs of the drag model, in the order of physics.airfoil.drag_coefficient.
+_CONSTANTS = ('slot_ratio', 'drag_clean', 'slot_drag', 'slot_drag_per_ratio', 'drag_per_momentum',
+              'drag_per_momentum_per_ratio', 'drag_quadratic')
 
 
 class AirfoilComp(om.ExplicitComponent):
@@ -34,11 +34,7 @@ class AirfoilComp(om.ExplicitComponent):
         n = self.options['num_nodes']
         self.add_input('momentum_coefficient', 0.03 * np.ones(n), units=None, desc='C_mu')
         self.add_input('dynamic_pressure', 1000.0 * np.ones(n), units='Pa', desc='freestream q')
-        for name, value in _CONSTANTS.items():
-            self.add_input(name, value, units=None, desc=f'{name.replace("_", " ")} (calibration)')
-        self.add_input('chord', 0.5, units='m', desc='chord of the blown section')
-        self.add_input('blown_span', 1.0, units='m', desc='span with blowing')
-        self.add_input('lift_per_momentum', 0.0, units=None, desc='dC_L/dC_mu')
+        add_parameter_inputs(self, _CONSTANTS + ('chord', 'blown_span', 'lift_per_momentum'))
         self.add_output('drag_coefficient', 0.0 * np.ones(n), units=None, desc='blown C_D')
         self.add_output('section_drag', 0.0 * np.ones(n), units='N', desc='drag of the blown span')
         self.add_output('clean_section_drag', 0.0 * np.ones(n), units='N', desc='drag if clean')

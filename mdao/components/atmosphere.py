@@ -2,6 +2,7 @@
 import numpy as np
 from mdao import om
 
+from mdao.components._sparsity import add_parameter_inputs
 from mdao.physics.atmosphere import isa
 
 ISA_CITE = """@manual{icao7488,
@@ -30,7 +31,7 @@ class AtmosphereComp(om.ExplicitComponent):
 
     def setup(self):
         n = self.options["num_nodes"]
-        self.add_input("altitude", val=np.zeros(n), units="m", desc="geometric altitude")
+        add_parameter_inputs(self, ("altitude",), n)
         for name, units, value, desc in _OUTPUTS:
             self.add_output(name, val=value * np.ones(n), units=units, desc=desc)
 

@@ -6,7 +6,7 @@ each node from the transition stations, friction and form losses.
 import numpy as np
 from mdao import om
 
-from mdao.components._sparsity import broadcast, column, diagonal, full
+from mdao.components._sparsity import add_parameter_inputs, broadcast, column, diagonal, full
 from mdao.physics import duct
 
 SCALARS = ("slot_ratio", "suction_ratio", "suction_inlet_loss", "bend_loss", "extra_loss",
@@ -32,22 +32,17 @@ class DuctLossComp(om.ExplicitComponent):
     def setup(self):
         n = self.options["num_nodes"]
         m = self.options["stations"]
-        self.add_input("freestream_assist", val=1.0, desc="K_inf")
+        add_parameter_inputs(self, ("freestream_assist",))
         self.add_input("density", val=1.225 * np.ones(n), units="kg/m**3")
         self.add_input("jet_velocity", val=50.0 * np.ones(n), units="m/s")
         self.add_input("dynamic_pressure", val=1000.0 * np.ones(n), units="Pa")
         if self.options["duct_model"] == "lumped":
-            self.add_input("jet_loss_factor", val=1.3, desc="K_j")
+            add_parameter_inputs(self, ("jet_loss_factor",))
         else:
             self.add_input("volume_flow", val=0.12 * np.ones(n), units="m**3/s",
                            desc="jet volume flow, all fans")
             self.add_input("viscosity", val=1.79e-5 * np.ones(n), units="Pa*s")
-            self.add_input("slot_ratio", val=0.01)
-            self.add_input("suction_ratio", val=0.02)
-            self.add_input("suction_inlet_loss", val=0.5)
-            self.add_input("bend_loss", val=0.3)
-            self.add_input("extra_loss", val=0.0)
-            self.add_input("roughness", val=1.5e-6, units="m")
+            add_parameter_inputs(self, SCALARS)
             x = np.linspace(0.0, 0.3, m)
             self.add_input("station_position", val=x, units="m")
             self.add_input("station_area", val=np.linspace(0.005, 0.0025, m), units="m**2")

@@ -2,6 +2,7 @@
 import numpy as np
 from mdao import om
 
+from mdao.components._sparsity import add_parameter_inputs
 from mdao.physics import fan as phys
 
 FAN_CITE = """@book{dixon2014,
@@ -55,14 +56,10 @@ class FanComp(om.ExplicitComponent):
         self.add_output('fan_efficiency', 0.7 * ones, units=None, desc='fan efficiency')
         self.add_output('fan_shaft_power', 100.0 * ones, units='W', desc='shaft power of all fans')
         if self.options['fan_model'] == 'constant':
-            self.add_input('fan_rated_efficiency', 0.7, units=None, desc='constant fan efficiency')
+            add_parameter_inputs(self, ('fan_rated_efficiency',))
             return
-        self.add_input('fan_diameter', 0.08, units='m', desc='fan diameter')
-        self.add_input('pressure_coefficients', np.array([0.6, 0.5, -1.5]), units=None,
-                       desc='c0, c1, c2 of psi = c0 + c1 phi + c2 phi^2')
-        self.add_input('peak_efficiency', 0.75, units=None, desc='best fan efficiency')
-        self.add_input('peak_flow_coefficient', 0.3, units=None, desc='phi at best efficiency')
-        self.add_input('efficiency_falloff', 0.8, units=None, desc='efficiency parabola falloff')
+        add_parameter_inputs(self, ('fan_diameter', 'pressure_coefficients', 'peak_efficiency',
+                                    'peak_flow_coefficient', 'efficiency_falloff'))
         self.add_output('fan_speed', 450.0 * ones, units='rev/s', desc='shaft speed')
         self.add_output('flow_coefficient', 0.2 * ones, units=None, desc='Q_fan / (N D^3)')
         self.add_output('pressure_coefficient', 0.6 * ones, units=None, desc='dp / (rho N^2 D^2)')

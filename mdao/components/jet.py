@@ -2,7 +2,7 @@
 import numpy as np
 from mdao import om
 
-from mdao.components._sparsity import broadcast, column, diagonal
+from mdao.components._sparsity import add_parameter_inputs, broadcast, column, diagonal
 from mdao.physics import jet
 
 NODE_INPUTS = ("momentum_coefficient", "speed", "density", "speed_of_sound")
@@ -20,12 +20,10 @@ class JetComp(om.ExplicitComponent):
     def setup(self):
         n = self.options["num_nodes"]
         self.add_input("momentum_coefficient", val=0.03 * np.ones(n), desc="momentum coefficient")
-        self.add_input("speed", val=40.0 * np.ones(n), units="m/s", desc="flight speed")
+        add_parameter_inputs(self, ("speed",), n)
         self.add_input("density", val=1.225 * np.ones(n), units="kg/m**3", desc="air density")
         self.add_input("speed_of_sound", val=340.294 * np.ones(n), units="m/s")
-        self.add_input("slot_ratio", val=0.01, desc="injection slot height over chord")
-        self.add_input("chord", val=0.5, units="m")
-        self.add_input("blown_span", val=1.0, units="m")
+        add_parameter_inputs(self, WING_INPUTS)
         self.add_output("dynamic_pressure", val=1000.0 * np.ones(n), units="Pa")
         self.add_output("jet_velocity", val=50.0 * np.ones(n), units="m/s")
         self.add_output("mass_flow", val=0.3 * np.ones(n), units="kg/s")

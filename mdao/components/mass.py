@@ -9,7 +9,8 @@ aircraft's mass build-up charges.
 import numpy as np
 from mdao import om
 
-from mdao.components._sparsity import blowing_flags, broadcast, column
+from mdao.components._sparsity import add_parameter_inputs, blowing_flags, broadcast, column
+from mdao.parameters import MASS_PARAMETERS
 from mdao.physics import mass as phys
 
 MASS_CITE = """@book{raymer2018,
@@ -17,23 +18,13 @@ MASS_CITE = """@book{raymer2018,
   edition = {6th}, publisher = {AIAA}, year = {2018}, note = {weight build-up, chapter 15}
 }"""
 
-#: Case key path -> input name of BlowingSystemMassComp (``[mass]`` table of a case).
-MASS_PARAMETERS = {
-    "mass.fan_specific_power": "fan_specific_power",
-    "mass.motor_specific_power": "motor_specific_power",
-    "mass.duct_areal_density": "duct_areal_density",
-    "mass.installation_factor": "installation_factor",
-    "mass.power_margin": "power_margin",
-    "mass.duct_wetted_ratio": "duct_wetted_ratio",
-}
-
-_SCALARS = (("rated_shaft_power", "W", 500.0, "rated shaft power of all fans"),
-            ("fan_specific_power", "W/kg", 2500.0, "fan shaft power per fan mass"),
-            ("motor_specific_power", "W/kg", 5000.0, "motor shaft power per motor mass"),
-            ("duct_areal_density", "kg/m**2", 1.2, "duct wall mass per wetted area"),
-            ("installation_factor", None, 1.2, "installed over bare mass"),
-            ("power_margin", None, 1.25, "rating over the largest need"),
-            ("extra_wetted_area", "m**2", 0.0, "further duct wetted area (plenums, channels)"))
+#: Inputs that are not case parameters: the rating (a design variable of the host) and a
+#: further wetted area.
+_HOST_INPUTS = (("rated_shaft_power", "W", 500.0, "rated shaft power of all fans"),
+                ("extra_wetted_area", "m**2", 0.0, "further duct wetted area (plenums, channels)"))
+#: Case parameters of the mass model (declared in :mod:`mdao.parameters`).
+_MASS_INPUTS = ("fan_specific_power", "motor_specific_power", "duct_areal_density",
+                "installation_factor", "power_margin")
 
 
 class BlowingSystemMassComp(om.ExplicitComponent):
@@ -66,13 +57,12 @@ class BlowingSystemMassComp(om.ExplicitComponent):
 
     def setup(self):
         n = self.options["num_nodes"]
-        for name, units, value, desc in _SCALARS:
+        for name, units, value, desc in _HOST_INPUTS:
             self.add_input(name, val=value, units=units, desc=desc)
+        add_parameter_inputs(self, _MASS_INPUTS)
         self.add_input("fan_shaft_power", val=np.zeros(n), units="W", desc="fan shaft power per node")
         if self.options["duct_model"] == "lumped":
-            self.add_input("chord", val=0.5, units="m", desc="chord of the blown section")
-            self.add_input("blown_span", val=1.0, units="m", desc="span with blowing")
-            self.add_input("duct_wetted_ratio", val=1.5, desc="duct wetted area over planform")
+            add_parameter_inputs(self, ("chord", "blown_span", "duct_wetted_ratio"))
         else:
             m = self.options["stations"]
             self.add_input("station_position", val=np.linspace(0.0, 0.3, m), units="m",
@@ -202,12 +192,8 @@ def add_blowing_system_mass(model, case=None, name="blowing_mass", **options):
 
 def mass_values(case):
     """``{input name: SI value}`` of the case's ``[mass]`` table for the component."""
-    out = {}
-    for key, name in MASS_PARAMETERS.items():
-        if name == "duct_wetted_ratio" and case.duct["model"] != "lumped":
-            continue
-        out[name] = float(case.value(key))
-    return out
+    return {p.name: float(case.value(p.key)) for p in MASS_PARAMETERS
+            if p.used_by(case.duct["model"], case.fan["model"])}
 
 
 def set_mass_values(prob, case, prefix=""):

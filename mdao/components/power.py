@@ -3,7 +3,8 @@
 import numpy as np
 from mdao import om
 
-from mdao.components._sparsity import blowing_flags, broadcast, column, diagonal
+from mdao.components._sparsity import (add_parameter_inputs, blowing_flags, broadcast, column,
+                                      diagonal)
 from mdao.physics import power
 
 POWER_OUTPUTS = ("propulsion_power_saving", "fan_electric_power", "net_power_saving")
@@ -27,11 +28,10 @@ class SegmentPowerComp(om.ExplicitComponent):
     def setup(self):
         n = self.options["num_nodes"]
         self.add_input("drag_saving", val=np.ones(n), units="N", desc="clean minus blown drag")
-        self.add_input("speed", val=40.0 * np.ones(n), units="m/s")
+        add_parameter_inputs(self, ("speed",), n)
         self.add_input("fan_shaft_power", val=np.zeros(n), units="W", desc="fan shaft power")
-        self.add_input("duration", val=3600.0 * np.ones(n), units="s", desc="segment duration")
-        self.add_input("chain_efficiency", val=0.8, desc="source-to-thrust-power efficiency")
-        self.add_input("motor_efficiency", val=0.9, desc="fan motor and drive efficiency")
+        add_parameter_inputs(self, ("duration",), n)
+        add_parameter_inputs(self, WING_INPUTS)
         for name in POWER_OUTPUTS:
             self.add_output(name, val=np.zeros(n), units="W")
         self.add_output("energy_saving", val=np.zeros(n), units="J")

@@ -3,6 +3,7 @@
 import numpy as np
 from mdao import om
 
+from mdao.components._sparsity import add_parameter_inputs
 from mdao.physics.transition import SCHEDULES, stations
 
 TRANSITION_CITE = """@book{rennels2012,
@@ -13,12 +14,9 @@ TRANSITION_CITE = """@book{rennels2012,
   pour r\\'esoudre les probl\\`emes de g\\'eom\\'etrie}, year = {1818}, note = {super-ellipse}
 }"""
 
-_INPUTS = (("slot_ratio", "", 0.01, "injection slot height over chord"),
-           ("chord", "m", 0.5, "wing chord"),
-           ("blown_span", "m", 1.0, "span of the blown wing"),
-           ("fan_diameter", "m", 0.08, "fan (duct inlet) diameter"),
-           ("transition_length", "m", 0.3, "length of the fan-to-slot duct"),
-           ("slot_exponent", "", 8.0, "super-ellipse exponent of the slot section"))
+#: Wing-level inputs (declared in :mod:`mdao.parameters`).
+INPUTS = ("slot_ratio", "chord", "blown_span", "fan_diameter", "transition_length",
+          "slot_exponent")
 # station outputs: name, field of TransitionStations, units, description
 _OUTPUTS = (("station_position", "position", "m", "distance from the fan face"),
             ("station_area", "area", "m**2", "section area"),
@@ -43,8 +41,7 @@ class TransitionComp(om.ExplicitComponent):
 
     def setup(self):
         m = self.options["stations"]
-        for name, units, value, desc in _INPUTS:
-            self.add_input(name, val=value, units=units or None, desc=desc)
+        add_parameter_inputs(self, INPUTS)
         for name, field, units, desc in _OUTPUTS:
             size = m - 1 if field == "half_angle" else m
             self.add_output(name, val=np.ones(size), units=units, desc=desc)
@@ -53,7 +50,7 @@ class TransitionComp(om.ExplicitComponent):
         """Inputs each output depends on: the position on the length only, the sections on all
         but the length; with the monotone-area schedule the areas (hence the angles) not on the
         slot exponent (the outlet area is w h whatever the exponent)."""
-        names = [k for k, *_ in _INPUTS]
+        names = list(INPUTS)
         sections = [k for k in names if k != "transition_length"]
         area_wrt = sections
         if self.options["schedule"] == "monotone-area":

@@ -74,6 +74,9 @@ def isa(altitude, derivatives=False):
 
     Examples
     --------
+    The U.S. Standard Atmosphere 1976 tabulates 216.774 K and 22 699.96 Pa at 11 km geometric;
+    the 9e-7 relative difference in pressure is the gas constant's (see Notes).
+
     >>> s = isa(11000.0)
     >>> round(float(s.temperature), 3), round(float(s.pressure), 2)
     (216.774, 22699.94)

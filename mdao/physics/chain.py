@@ -17,7 +17,7 @@ References
 .. [1] docs/theory.md, sections "Atmosphere" to "Net power" (each discipline and its source);
    the derivatives are forward-mode tangents by the chain rule from the partials each physics
    function returns (Griewank, A. and Walther, A. *Evaluating Derivatives*, 2nd ed., SIAM, 2008,
-   ch. 3).
+   ch. 3, forward mode; from memory).
 """
 import functools
 from dataclasses import dataclass
@@ -30,6 +30,10 @@ from mdao.physics import airfoil, atmosphere, duct, fan, jet, power, transition
 #: Internal root names of the three fan-map pressure coefficients (stacked on a last axis of
 #: length 3 under ``"pressure_coefficients"`` in the returned partials).
 _COEFFICIENTS = tuple(("pressure_coefficients", i) for i in range(3))
+#: Arguments of :func:`mdao.physics.airfoil.drag_coefficient`, in order.
+_DRAG_INPUTS = ("momentum_coefficient", "slot_ratio", "drag_clean", "slot_drag",
+                "slot_drag_per_ratio", "drag_per_momentum", "drag_per_momentum_per_ratio",
+                "drag_quadratic")
 #: Station fields whose tangents the chain carries, and the wing-level inputs that shape them.
 STATION_FIELDS = ("position", "area", "perimeter", "hydraulic_diameter", "half_angle")
 STATION_ROOTS = ("fan_diameter", "blown_span", "slot_ratio", "chord", "transition_length",
@@ -107,7 +111,9 @@ def evaluate(params, options=ChainOptions(), blowing=True, derivatives=False):
         ``net_power_saving`` [W] and ``energy_saving`` [J] (SI).
     partials : dict of dict of ndarray
         Only with ``derivatives``: ``{output: {input: ndarray of the output's shape}}`` (last
-        axis 3 for ``pressure_coefficients``); ``ram_driven`` has none.
+        axis 3 for ``pressure_coefficients``; a larger shape where the partial varies along
+        an axis the value does not, e.g. a segment's propulsion power saving against sampled
+        constants that move only its partials); ``ram_driven`` has none.
 
     Notes
     -----
@@ -191,19 +197,24 @@ def evaluate(params, options=ChainOptions(), blowing=True, derivatives=False):
                 "air_power": np.where(on, 1.0 / eta, 0.0),
                 "fan_efficiency": np.where(on, -out["fan_shaft_power"] / eta, 0.0)}, tan)
 
-    # Airfoil: drag of the blown span against the clean section's.
-    drag_args = (p["slot_ratio"], p["drag_clean"], p["slot_drag"], p["slot_drag_per_ratio"],
-                 p["drag_per_momentum"], p["drag_per_momentum_per_ratio"], p["drag_quadratic"])
-    cd = airfoil.drag_coefficient(p["momentum_coefficient"], *drag_args)
+    # Airfoil: drag of the blown span against the clean section's. The saving comes from the
+    # blown increment (slot penalty plus blowing) alone, so that it does not depend on the
+    # clean drag even by round-off.
+    res = airfoil.drag_coefficient(p["momentum_coefficient"], p["slot_ratio"], 0.0,
+                                   *(p[k] for k in _DRAG_INPUTS[3:]), derivatives=d)
+    inc = res[0] if d else res
+    cd0 = np.asarray(p["drag_clean"], float)
     area = np.asarray(p["chord"], float) * np.asarray(p["blown_span"], float)
-    out["drag_coefficient"] = cd
-    out["section_drag"] = js.dynamic_pressure * area * cd
-    out["clean_section_drag"] = js.dynamic_pressure * area * np.asarray(p["drag_clean"], float)
-    out["drag_saving"] = out["clean_section_drag"] - out["section_drag"]
+    q_area = js.dynamic_pressure * area
+    out["drag_coefficient"] = cd0 + inc
+    out["section_drag"] = q_area * out["drag_coefficient"]
+    out["clean_section_drag"] = q_area * cd0
+    out["drag_saving"] = -q_area * inc
     out["lift_increment"] = airfoil.lift_increment(p["momentum_coefficient"],
                                                    p["lift_per_momentum"])
     if d:
-        _airfoil_tangents(p, js.dynamic_pressure, area, cd, tan)
+        _airfoil_tangents(p, js.dynamic_pressure, area, out["drag_coefficient"], inc, res[1],
+                          tan)
 
     # Segment power and energy.
     res = power.segment_power(out["drag_saving"], p["speed"], out["fan_shaft_power"],
@@ -372,15 +383,11 @@ def _fan_map(p, options, atm, js, dp, out, tan):
     return _step(tan, "fan_efficiency", res_eta, True)
 
 
-def _airfoil_tangents(p, q, area, cd, tan):
-    """Tangents of the drag outputs; the saving through the blown increment C_D - C_D,clean
-    alone, so that it does not depend on the clean drag."""
-    names = ("momentum_coefficient", "slot_ratio", "drag_clean", "slot_drag",
-             "slot_drag_per_ratio", "drag_per_momentum", "drag_per_momentum_per_ratio",
-             "drag_quadratic")
-    inc, dinc = airfoil.drag_coefficient(p["momentum_coefficient"], p["slot_ratio"], 0.0,
-                                         *(p[k] for k in names[3:]), derivatives=True)
-    tan["blown_increment"] = _chain({k: dinc[k] for k in names if k != "drag_clean"}, tan)
+def _airfoil_tangents(p, q, area, cd, inc, dinc, tan):
+    """Tangents of the drag outputs from the partials ``dinc`` of the blown increment ``inc``
+    (C_D - C_D,clean)."""
+    tan["blown_increment"] = _chain({k: dinc[k] for k in _DRAG_INPUTS if k != "drag_clean"},
+                                    tan)
     tan["drag_coefficient"] = _add(tan["blown_increment"], {"drag_clean": 1.0})
     tan["area"] = {"chord": p["blown_span"], "blown_span": p["chord"]}
     cd0 = np.asarray(p["drag_clean"], float)
@@ -410,12 +417,15 @@ def _chain(local, tan):
     """Chain rule, elementwise: d(out)/d(root) = sum over quantities x of d(out)/dx dx/d(root).
 
     ``local`` maps a quantity to the partial of the output; ``tan`` maps each quantity to its
-    tangents ``{root: derivative}``. Quantities without tangents (constants) are skipped.
+    tangents ``{root: derivative}``. Quantities without tangents (constants) are skipped. A
+    zero partial wins over a NaN tangent: no fan power where the fan does not run, whatever
+    the (undefined) speed of a fan map there.
     """
     out = {}
     for name, dx in local.items():
         for root, t in tan.get(name, {}).items():
-            term = dx * t
+            with np.errstate(invalid="ignore"):
+                term = np.where(dx == 0, 0.0, dx * t)
             out[root] = out[root] + term if root in out else term
     return out
 
@@ -430,24 +440,27 @@ def _add(*tangents):
 
 
 def _partials(out, tan):
-    """``{output: {input: tangent broadcast to the output}}``; the pressure coefficients
-    stacked on a last axis."""
+    """``{output: {input: tangent broadcast to the output}}`` (or to a larger shape where the
+    partials vary along an axis the value does not); the pressure coefficients stacked on a
+    last axis."""
     result = {}
     for name, value in out.items():
         if name == "ram_driven" or name not in tan:
             continue
-        shape = np.shape(value)
         row = {}
         coeffs = {}
         for root, t in tan[name].items():
+            t = np.asarray(t, float)
+            shape = np.broadcast_shapes(np.shape(value), t.shape)
             if root in _COEFFICIENTS:
                 coeffs[root[1]] = t
             else:
-                row[root] = np.broadcast_to(np.asarray(t, float), shape)
+                row[root] = np.broadcast_to(t, shape)
         if coeffs:
+            shape = np.broadcast_shapes(np.shape(value), *(t.shape for t in coeffs.values()))
             row["pressure_coefficients"] = np.stack(
-                [np.broadcast_to(np.asarray(coeffs.get(i, 0.0), float), shape)
-                 for i in range(3)], axis=-1)
+                [np.broadcast_to(coeffs.get(i, np.zeros(())), shape) for i in range(3)],
+                axis=-1)
         result[name] = row
     return result
 

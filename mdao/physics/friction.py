@@ -41,6 +41,8 @@ def churchill(reynolds, relative_roughness, derivatives=False):
 
     Examples
     --------
+    Smooth pipe at Re 1e5: 0.017875 (Colebrook-White gives 0.017990):
+
     >>> round(float(churchill(1e5, 0.0)), 6)
     0.017875
     """

@@ -63,6 +63,8 @@ def gradual_contraction(total_angle, area_ratio, derivatives=False):
 
     Examples
     --------
+    By hand: 0.8 sin(5 deg) (1 - 0.25) = 0.0523.
+
     >>> round(float(gradual_contraction(np.radians(10.0), 0.25)), 4)
     0.0523
     """
@@ -107,6 +109,8 @@ def gradual_expansion(total_angle, area_ratio, derivatives=False):
 
     Examples
     --------
+    By hand: 2.6 sin(5 deg) (1 - 0.25)**2 = 0.127465.
+
     >>> round(float(gradual_expansion(np.radians(10.0), 0.25)), 6)
     0.127465
     """
@@ -147,6 +151,8 @@ def sudden_expansion(area_ratio, derivatives=False):
 
     Examples
     --------
+    By hand: (1 - 0.25)**2 = 0.5625.
+
     >>> float(sudden_expansion(0.25))
     0.5625
     """

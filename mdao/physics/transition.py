@@ -217,6 +217,8 @@ def equivalent_cone_half_angle(area_in, area_out, length):
 
     Examples
     --------
+    A true cone of radii 1 -> 2 over length 10: atan(0.1) = 0.099668652491 (by hand).
+
     >>> round(float(equivalent_cone_half_angle(np.pi, 4.0 * np.pi, 10.0)), 12)
     0.099668652491
     """

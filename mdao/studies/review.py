@@ -1,7 +1,7 @@
 """The design review: optimum, sensitivities, sweeps, break-even maps, Monte Carlo.
 
 :func:`run_review` computes everything and returns one dict (the content of ``review.json``
-plus a few arrays for the figures); :func:`mdao.report_review.write_review` writes
+plus a few arrays for the figures); :func:`mdao.report.review.write_review` writes
 ``review.md``, ``review.json`` and the PNG figures; the command ``blownwing review`` is
 :mod:`mdao.cli`.
 """

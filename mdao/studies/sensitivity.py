@@ -40,8 +40,6 @@ from mdao.system import applicable_parameters, build_problem, chain_options, cha
 #: Inputs the geometric duct takes as one value for the wing (cannot vary along samples).
 WING_GEOMETRY = ("fan_diameter", "blown_span", "slot_ratio", "chord", "transition_length",
                  "slot_exponent", "roughness")
-#: Vector-valued or design inputs that are not reported as sensitivities.
-NOT_STUDIED = ("slot.ratio", "fan.pressure_coefficients")
 #: Order of each segment's inputs in the studies.
 SEGMENT_ORDER = ("speed", "altitude", "duration")
 #: Absolute step scale for inputs whose value is zero (post-optimal differences).
@@ -55,7 +53,7 @@ def sensitivity_keys(case):
     """Case key paths studied: the applicable model constants that may be uncertain and each
     segment's speed, altitude and duration (in that order)."""
     keys = [p.key for p in applicable_parameters(case) if not p.per_segment and p.uncertain
-            and p.key not in NOT_STUDIED and case.value(p.key) is not None]
+            and case.value(p.key) is not None]
     segment_inputs = [p for p in applicable_parameters(case) if p.per_segment]
     for seg in case.segment_names:
         keys += [f"segment.{seg}.{p.field}" for p in sorted(

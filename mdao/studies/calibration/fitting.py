@@ -1,4 +1,4 @@
-r"""Calibration of the reduced-order constants from the designer's own CFD or wind-tunnel runs.
+r"""Fitting the reduced-order constants to the designer's own CFD or wind-tunnel runs.
 
 Three linear least-squares fits, each solved by a QR factorisation of the column-equilibrated
 design matrix (never the normal equations) [1]_:
@@ -51,23 +51,17 @@ References
 .. [4] NIST Statistical Reference Datasets, linear least squares, Longley (1967): the check of the
    least-squares core in the tests.
 """
-import hashlib
-import json
 import math
-import os
 import warnings
 
 import numpy as np
 from scipy import linalg, stats
 
-from mdao.case.fragment import load_fragment
-from mdao.files import write_atomic
-from mdao.studies.runs import CalibrationError, check_runs, derived, fit_plan, read_runs
+from mdao.parameters import CHAIN_PARAMETERS
+from mdao.studies.calibration.runs import CalibrationError, check_runs, derived, fit_plan
 
-
-__all__ = ["CalibrationError", "CalibrationWarning", "PLAUSIBLE", "CAUTION", "read_runs",
-           "least_squares", "calibrate", "calibrate_file", "format_summary", "load_fragment",
-           "fragment_text"]
+__all__ = ["CalibrationWarning", "CAUTION", "PLAUSIBLE", "CONSTANT_ORDER", "OUTLIER_LIMIT",
+           "MIN_RELATIVE_SPREAD", "MAX_CONDITION", "least_squares", "calibrate"]
 
 CAUTION = ("Preliminary design estimates: not airworthiness evidence; regulations, the certifying "
            "authority and licensed engineering practice govern.")
@@ -76,14 +70,12 @@ CAUTION = ("Preliminary design estimates: not airworthiness evidence; regulation
 PLAUSIBLE = {
     "duct.jet_loss_factor": (1.3, 1.0, 2.5),
     "duct.freestream_assist": (1.0, 0.3, 2.0),
-    "drag_slope": (-1.5, -4.0, -0.3),
+    "airfoil.drag_per_momentum": (-1.5, -4.0, -0.3),
     "jet_off_to_clean": (3.0, 1.0, 8.0),
 }
 
-#: Order of the case constants in the outputs.
-CONSTANT_ORDER = ("duct.jet_loss_factor", "duct.freestream_assist", "airfoil.drag_clean",
-                  "airfoil.slot_drag", "airfoil.slot_drag_per_ratio", "airfoil.drag_per_momentum",
-                  "airfoil.drag_per_momentum_per_ratio", "airfoil.lift_per_momentum")
+#: The case constants a calibration gives, in declaration order (:mod:`mdao.parameters`).
+CONSTANT_ORDER = tuple(p.key for p in CHAIN_PARAMETERS if p.calibrated)
 
 #: Outlier threshold on the studentized residuals.
 OUTLIER_LIMIT = 3.0
@@ -332,9 +324,9 @@ def _plausibility(constants, ratio_range):
     value = {k: v["value"] for k, v in constants.items()}
     for r_s in sorted(set(ratio_range)):
         where = f" at slot ratio {r_s:.4g}"
-        check("drag_slope", "drag slope dC_D/dC_mu",
-              value["airfoil.drag_per_momentum"] + value.get("airfoil.drag_per_momentum_per_ratio", 0.0)
-              * r_s, where)
+        check("airfoil.drag_per_momentum", "drag per momentum coefficient dC_D/dC_mu",
+              value["airfoil.drag_per_momentum"]
+              + value.get("airfoil.drag_per_momentum_per_ratio", 0.0) * r_s, where)
         clean = value["airfoil.drag_clean"]
         jet_off = clean + value["airfoil.slot_drag"] + value.get("airfoil.slot_drag_per_ratio",
                                                                   0.0) * r_s
@@ -351,7 +343,8 @@ def calibrate(runs):
     Parameters
     ----------
     runs : dict of str to array_like
-        Columns in SI (see :data:`mdao.studies.runs.COLUMNS`), e.g. from :func:`read_runs`.
+        Columns in SI (see :data:`mdao.studies.calibration.runs.COLUMNS`), e.g. from
+        :func:`~mdao.studies.calibration.runs.read_runs`.
 
     Returns
     -------
@@ -425,228 +418,3 @@ def calibrate(runs):
                            for k, v in PLAUSIBLE.items()},
         "caution": CAUTION,
     }
-
-
-def _toml_value(value):
-    if isinstance(value, str):
-        return json.dumps(value)
-    if isinstance(value, (list, tuple)):
-        return "[" + ", ".join(_toml_value(v) for v in value) + "]"
-    value = float(value)
-    if not math.isfinite(value):
-        raise CalibrationError(f"cannot write the non-finite value {value} to TOML")
-    return repr(value)
-
-
-def fragment_text(result, source=None):
-    """The calibration fragment a case file reads (TOML text, written by hand).
-
-    Parameters
-    ----------
-    result : dict
-        From :func:`calibrate`.
-    source : dict, optional
-        ``{'csv': path, 'sha256': digest}``, written as comments.
-
-    Returns
-    -------
-    str
-        TOML with sections ``[duct]``, ``[airfoil]``, ``[validity]``, ``[uncertainty]``.
-    """
-    constants, validity = result["constants"], result["validity"]
-    lines = ["# blownwing calibration fragment (generated); preliminary design estimates"]
-    if source:
-        lines.append(f"# runs: {source['csv']} (sha256 {source['sha256']})")
-    for section in ("duct", "airfoil"):
-        lines.append(f"[{section}]")
-        for key, entry in constants.items():
-            if key.startswith(section + "."):
-                comment = "  # fixed: " + entry["source"] if entry.get("fixed") else ""
-                lines.append(f"{key.split('.', 1)[1]} = {_toml_value(entry['value'])}{comment}")
-        if section == "airfoil":
-            lines.append("momentum_coefficient_range = "
-                         + _toml_value(validity["momentum_coefficient"]))
-    lines += ["[validity]",
-              "slot_ratio_range = " + _toml_value(validity["slot_ratio"]),
-              "reynolds_range = " + _toml_value(validity["reynolds"]),
-              "speed_range = " + _toml_value([f"{float(v)!r} m/s" for v in validity["speed"]]),
-              "[uncertainty]",
-              "parameters = " + _toml_value(result["covariance"]["parameters"]),
-              "stderr = " + _toml_value([constants[k]["stderr"]
-                                         for k in result["covariance"]["parameters"]]),
-              "# covariance: full matrix over `parameters`, zero between separate fits",
-              "covariance = ["]
-    lines += ["  " + _toml_value(row) + "," for row in result["covariance"]["matrix"]]
-    lines.append("]")
-    return "\n".join(lines) + "\n"
-
-
-def _plots(runs, result, out_dir):
-    """PNG plots (duct collapse, drag against C_mu with 95 % band, residuals); [] without
-    matplotlib."""
-    try:
-        from matplotlib.figure import Figure
-    except ImportError:
-        return []
-    d = derived(runs)
-    written = []
-    fits = result["fits"]
-
-    def save(fig, name):
-        path = os.path.join(out_dir, name)
-        write_atomic(path, lambda handle: fig.savefig(handle, format="png", dpi=120))
-        written.append(path)
-
-    duct = fits["duct"]
-    rows = np.asarray(duct["rows"]) - 1
-    q = d["dynamic_pressure"][rows]
-    x = d["jet_dynamic_pressure"][rows] / q
-    k_j = duct["parameters"]["duct.jet_loss_factor"]["value"]
-    k_inf = duct["parameters"]["duct.freestream_assist"]["value"]
-    fig = Figure(figsize=(6.4, 4.8))
-    ax = fig.add_subplot()
-    points = ax.scatter(x, runs["fan_pressure_rise"][rows] / q, c=d["slot_ratio"][rows], s=18)
-    fig.colorbar(points, ax=ax, label="slot ratio [-]")
-    line = np.linspace(0.0, x.max() * 1.05, 50)
-    ax.plot(line, k_j * line - k_inf, "k-", label=f"fit: K_j = {k_j:.3f}, K_inf = {k_inf:.3f}")
-    ax.set_xlabel("jet over freestream dynamic pressure (V_j/V)^2 [-]")
-    ax.set_ylabel("fan pressure rise over q [-]")
-    ax.set_title("Duct runs collapsed on the fitted relation")
-    ax.legend()
-    ax.grid(alpha=0.3)
-    save(fig, "duct_collapse.png")
-
-    drag = fits["drag"]
-    names = drag["covariance"]["parameters"]
-    beta = np.array([drag["parameters"][n]["value"] for n in names])
-    cov = np.asarray(drag["covariance"]["matrix"])
-    cmu, ratio = d["momentum_coefficient"], d["slot_ratio"]
-    given = "drag_coefficient_clean" in runs
-    y = runs["drag_coefficient"] - (runs["drag_coefficient_clean"] if given else 0.0)
-    fig = Figure(figsize=(6.4, 4.8))
-    ax = fig.add_subplot()
-    values = np.sort(ratio)
-    groups = [values[0]] + [v for a, v in zip(values[:-1], values[1:]) if v > a * (1 + 1e-6)]
-    line = np.linspace(0.0, cmu.max() * 1.05, 60)
-    for r_s in groups:
-        near = np.abs(ratio - r_s) <= 1e-6 * r_s
-        color = ax.scatter(cmu[near], y[near], s=18).get_facecolor()[0]
-        design = (np.column_stack([np.ones_like(line), np.full_like(line, r_s), line, r_s * line])
-                  if len(names) == 4 else np.column_stack([np.ones_like(line), line]))
-        mean = design @ beta
-        half = drag["t95"] * np.sqrt(np.einsum("ij,jk,ik->i", design, cov, design))
-        ax.plot(line, mean, color=color, label=f"r_s = {r_s:.4g}")
-        ax.fill_between(line, mean - half, mean + half, color=color, alpha=0.2)
-    ax.set_xlabel("momentum coefficient C_mu [-]")
-    ax.set_ylabel("C_D - C_D,clean [-]" if given else "drag coefficient C_D [-]")
-    ax.set_title("Drag against momentum coefficient (fit, 95 % confidence band)")
-    ax.legend()
-    ax.grid(alpha=0.3)
-    save(fig, "drag_momentum.png")
-
-    fig = Figure(figsize=(6.4, 2.2 * len(fits) + 1.0))
-    for i, (name, fit) in enumerate(fits.items(), start=1):
-        ax = fig.add_subplot(len(fits), 1, i)
-        student = np.array([np.nan if v is None else v for v in fit["studentized_external"]])
-        ax.plot(fit["rows"], student, "o", ms=4)
-        for o in fit["outliers"]:
-            ax.annotate(f"row {o['row']}", (o["row"], o["studentized_external"] or 0.0))
-        ax.axhline(OUTLIER_LIMIT, color="r", lw=0.8)
-        ax.axhline(-OUTLIER_LIMIT, color="r", lw=0.8)
-        ax.axhline(0.0, color="k", lw=0.5)
-        ax.set_ylabel(f"{name}\nstudentized")
-        ax.grid(alpha=0.3)
-    ax.set_xlabel("run (data row)")
-    fig.suptitle("Externally studentized residuals (|value| > 3 flagged)")
-    fig.tight_layout()
-    save(fig, "residuals.png")
-    return written
-
-
-def calibrate_file(csv_path, out_dir, plots=True):
-    """Read runs, fit, and write ``calibration.json``, ``calibration.toml`` and the plots.
-
-    Parameters
-    ----------
-    csv_path : str or path-like
-        Table of runs (see :func:`read_runs`).
-    out_dir : str or path-like
-        Output folder (created if absent). Each file is written atomically.
-    plots : bool
-        Also write PNG plots when matplotlib is installed.
-
-    Returns
-    -------
-    dict
-        The result of :func:`calibrate` with ``source`` (``csv``, ``sha256``) and ``files``.
-    """
-    runs = read_runs(csv_path)
-    result = calibrate(runs)
-    with open(csv_path, "rb") as handle:
-        digest = hashlib.sha256(handle.read()).hexdigest()
-    result["source"] = {"csv": os.fspath(csv_path), "sha256": digest}
-    os.makedirs(out_dir, exist_ok=True)
-    json_path = os.path.join(out_dir, "calibration.json")
-    toml_path = os.path.join(out_dir, "calibration.toml")
-    files = [json_path, toml_path]
-    if plots:
-        files += _plots(runs, result, out_dir)
-    result["files"] = [os.fspath(f) for f in files]
-    text = fragment_text(result, result["source"])
-    write_atomic(toml_path, text)
-    blob = json.dumps(result, indent=2, allow_nan=False) + "\n"
-    write_atomic(json_path, blob)
-    return result
-
-
-def format_summary(result):
-    """Plain-text summary for the console.
-
-    Parameters
-    ----------
-    result : dict
-        From :func:`calibrate` or :func:`calibrate_file`.
-
-    Returns
-    -------
-    str
-        Constants with standard errors and 95 % intervals, fit statistics, warnings, outliers,
-        notes, and the closing caution line.
-    """
-    lines = []
-    if "source" in result:
-        lines.append(f"Calibration of {result['source']['csv']} ({result['runs']} runs)")
-    lines.append(f"{'constant':36s} {'value':>12s} {'stderr':>11s}   95 % interval")
-    for key, entry in result["constants"].items():
-        low, high = entry["ci95"]
-        tag = "  (fixed)" if entry.get("fixed") else (
-            "  (mean of given column)" if "source" in entry else "")
-        lines.append(f"{key:36s} {entry['value']:12.5g} {entry['stderr']:11.3g}   "
-                     f"[{low:.5g}, {high:.5g}]{tag}")
-    lines.append("")
-    lines.append(f"{'fit':6s} {'runs':>5s} {'dof':>4s} {'R^2':>9s} {'resid std':>11s}  "
-                 "C_mu range        slot ratio range")
-    for name, fit in result["fits"].items():
-        r = fit["ranges"]
-        r2 = "n/a" if fit["r2"] is None else f"{fit['r2']:.5f}"
-        lines.append(f"{name:6s} {fit['runs']:5d} {fit['dof']:4d} {r2:>9s} "
-                     f"{fit['residual_std']:11.4g}  [{r['momentum_coefficient'][0]:.4g}, "
-                     f"{r['momentum_coefficient'][1]:.4g}]  [{r['slot_ratio'][0]:.4g}, "
-                     f"{r['slot_ratio'][1]:.4g}]")
-    v = result["validity"]
-    lines.append(f"validity: Reynolds {v['reynolds'][0]:.3g} to {v['reynolds'][1]:.3g}, "
-                 f"speed {v['speed'][0]:.4g} to {v['speed'][1]:.4g} m/s")
-    lines.append("")
-    lines.append("Warnings: " + ("none" if not result["warnings"] else ""))
-    lines += [f"  - {w}" for w in result["warnings"]]
-    outliers = [(name, o) for name, fit in result["fits"].items() for o in fit["outliers"]]
-    lines.append("Outliers (|studentized residual| > 3, kept in the fit): "
-                 + ("none" if not outliers else ""))
-    lines += [f"  - {name} fit, row {o['row']}: residual {o['residual']:.4g}, studentized "
-              f"{o['studentized_external'] or o['studentized_internal']:.3g}"
-              for name, o in outliers]
-    if result["notes"]:
-        lines.append("Notes:")
-        lines += [f"  - {n}" for n in result["notes"]]
-    lines.append(CAUTION)
-    return "\n".join(lines)

@@ -1,0 +1,60 @@
+"""The calibration's console text: constants with standard errors and 95 % intervals, the fit
+statistics, warnings, outliers and notes of :func:`mdao.studies.calibration.calibrate`.
+"""
+from mdao.studies.calibration.fitting import CAUTION
+
+__all__ = ["format_summary"]
+
+
+def format_summary(result):
+    """Plain-text summary for the console.
+
+    Parameters
+    ----------
+    result : dict
+        From :func:`mdao.studies.calibration.calibrate` or
+        :func:`mdao.studies.calibration.calibrate_file`.
+
+    Returns
+    -------
+    str
+        Constants with standard errors and 95 % intervals, fit statistics, warnings, outliers,
+        notes, and the closing caution line.
+    """
+    lines = []
+    if "source" in result:
+        lines.append(f"Calibration of {result['source']['csv']} ({result['runs']} runs)")
+    lines.append(f"{'constant':36s} {'value':>12s} {'stderr':>11s}   95 % interval")
+    for key, entry in result["constants"].items():
+        low, high = entry["ci95"]
+        tag = "  (fixed)" if entry.get("fixed") else (
+            "  (mean of given column)" if "source" in entry else "")
+        lines.append(f"{key:36s} {entry['value']:12.5g} {entry['stderr']:11.3g}   "
+                     f"[{low:.5g}, {high:.5g}]{tag}")
+    lines.append("")
+    lines.append(f"{'fit':6s} {'runs':>5s} {'dof':>4s} {'R^2':>9s} {'resid std':>11s}  "
+                 "C_mu range        slot ratio range")
+    for name, fit in result["fits"].items():
+        r = fit["ranges"]
+        r2 = "n/a" if fit["r2"] is None else f"{fit['r2']:.5f}"
+        lines.append(f"{name:6s} {fit['runs']:5d} {fit['dof']:4d} {r2:>9s} "
+                     f"{fit['residual_std']:11.4g}  [{r['momentum_coefficient'][0]:.4g}, "
+                     f"{r['momentum_coefficient'][1]:.4g}]  [{r['slot_ratio'][0]:.4g}, "
+                     f"{r['slot_ratio'][1]:.4g}]")
+    v = result["validity"]
+    lines.append(f"validity: Reynolds {v['reynolds'][0]:.3g} to {v['reynolds'][1]:.3g}, "
+                 f"speed {v['speed'][0]:.4g} to {v['speed'][1]:.4g} m/s")
+    lines.append("")
+    lines.append("Warnings: " + ("none" if not result["warnings"] else ""))
+    lines += [f"  - {w}" for w in result["warnings"]]
+    outliers = [(name, o) for name, fit in result["fits"].items() for o in fit["outliers"]]
+    lines.append("Outliers (|studentized residual| > 3, kept in the fit): "
+                 + ("none" if not outliers else ""))
+    lines += [f"  - {name} fit, row {o['row']}: residual {o['residual']:.4g}, studentized "
+              f"{o['studentized_external'] or o['studentized_internal']:.3g}"
+              for name, o in outliers]
+    if result["notes"]:
+        lines.append("Notes:")
+        lines += [f"  - {n}" for n in result["notes"]]
+    lines.append(CAUTION)
+    return "\n".join(lines)

@@ -1,0 +1,169 @@
+"""The model's parameters and constraints are declared once, and everything reads them.
+
+These tests check the declarations against the places that use them: the case schema, the
+components' inputs, the problem builder and the names the project refuses.
+"""
+from pathlib import Path
+
+import numpy as np
+import pytest
+from openmdao.api import ExecComp, Group, Problem
+
+from mdao import constraints, parameters
+from mdao.case import CaseError, load_case, parse_case
+from mdao.case.schema import SCHEMA, SEGMENT
+from mdao.system import BlownWingGroup, build_problem
+
+ROOT = Path(__file__).resolve().parents[1]
+OLD_DRAG_KEY = "_".join(("thrust", "leverage"))   # refused; spelt in parts so that it appears
+                                                  # nowhere in the project's text
+
+
+def _raw(case_path):
+    try:
+        import tomllib
+    except ModuleNotFoundError:  # Python 3.10
+        import tomli as tomllib
+    return tomllib.loads(Path(case_path).read_text())
+
+
+def test_every_parameter_is_a_case_key_with_its_declared_range():
+    for p in parameters.PARAMETERS:
+        spec = SEGMENT[p.field] if p.per_segment else SCHEMA[p.table][p.field]
+        if spec.type in ("number", "quantity"):
+            assert (spec.low, spec.high, spec.low_open, spec.high_open) == \
+                (p.low, p.high, p.low_open, p.high_open), p.key
+            assert spec.kind == p.kind, p.key
+
+
+def test_one_default_per_parameter_in_every_component(cases_dir):
+    """Each input that a declared parameter feeds starts at the declared value, with the
+    declared unit, in both the per-discipline group and the fused chain, for every model."""
+    for duct in ("lumped", "geometric"):
+        for fan in ("constant", "map"):
+            for fused in (False, True):
+                prob = Problem(reports=False)
+                prob.model.add_subsystem("wing", BlownWingGroup(
+                    num_nodes=3, duct_model=duct, fan_model=fan, fused=fused), promotes=["*"])
+                prob.setup()
+                meta = prob.model.get_io_metadata(iotypes="input", metadata_keys=["units", "val"],
+                                                  return_rel_names=False)
+                seen = set()
+                for path, m in meta.items():
+                    name = path.rsplit(".", 1)[-1]
+                    if name not in parameters.BY_NAME:
+                        continue
+                    p = parameters.BY_NAME[name]
+                    assert m["units"] == p.unit, (path, m["units"], p.unit)
+                    np.testing.assert_array_equal(
+                        np.asarray(m["val"]).ravel()[:1],
+                        np.ravel(np.asarray(p.start_value, float))[:1], err_msg=path)
+                    seen.add(name)
+                used = {p.name for p in parameters.chain_parameters(duct, fan)}
+                assert used <= seen, (duct, fan, fused, used - seen)
+
+
+def test_case_defaults_come_from_the_declarations(cases_dir):
+    case = load_case(cases_dir / "coastal-patrol.toml")
+    raw = _raw(cases_dir / "coastal-patrol.toml")
+    for p in parameters.chain_parameters("geometric", "map", per_segment=False):
+        if p.field not in raw.get(p.table, {}) and p.default not in (parameters.REQUIRED, None):
+            assert case.value(p.key) == p.default, p.key
+
+
+def test_old_drag_key_is_refused_with_the_new_name(cases_dir):
+    raw = _raw(cases_dir / "survey-drone.toml")
+    raw["airfoil"][OLD_DRAG_KEY] = raw["airfoil"].pop("drag_per_momentum")
+    with pytest.raises(CaseError, match="airfoil.drag_per_momentum"):
+        parse_case(raw, base=cases_dir)
+
+
+def test_old_drag_name_appears_nowhere():
+    """Not in the package, tests, docs, cases or benchmarks (nor in any spelling with a
+    space)."""
+    hits = []
+    for path in ROOT.rglob("*"):
+        if any(part in (".git", ".ci-venv", "build") or part.endswith(".egg-info")
+               for part in path.parts) or not path.is_file():
+            continue
+        if path.suffix not in (".py", ".md", ".toml", ".csv", ".txt", ".cfg"):
+            continue
+        text = path.read_text(encoding="utf-8", errors="ignore").lower()
+        if OLD_DRAG_KEY in text or OLD_DRAG_KEY.replace("_", " ") in text:
+            hits.append(str(path.relative_to(ROOT)))
+    assert hits == []
+
+
+def test_fan_speed_connects_to_an_rpm_input():
+    """An aircraft model that wants shaft speed in rpm connects to the fan's output."""
+    prob = Problem(reports=False)
+    model = prob.model
+    model.add_subsystem("wing", BlownWingGroup(num_nodes=2, duct_model="geometric",
+                                               fan_model="map", fused=False))
+    model.add_subsystem("host", ExecComp("y = x", x={"units": "rpm", "shape": 2},
+                                         y={"units": "rpm", "shape": 2}))
+    model.connect("wing.fan_speed", "host.x")
+    prob.setup()
+    prob.run_model()
+    rev_s = prob.get_val("wing.fan_speed", units="rev/s")
+    np.testing.assert_allclose(prob.get_val("host.y"), 60.0 * rev_s, rtol=1e-14)
+
+
+@pytest.mark.parametrize("name", ["survey-drone.toml", "coastal-patrol.toml"])
+def test_problem_carries_exactly_the_declared_constraints(cases_dir, name):
+    case = load_case(cases_dir / name)
+    prob = build_problem(case)
+    cons = prob.model.get_constraints()
+    dvs = prob.model.get_design_vars()
+    declared = constraints.applicable(case)
+    want_cons = {c.quantity for c in declared if not c.design_variable}
+    want_dvs = {c.quantity for c in declared if c.design_variable}
+    assert {k.rsplit(".", 1)[-1] for k in cons} == want_cons
+    assert {k.rsplit(".", 1)[-1] for k in dvs} == want_dvs
+    for c in declared:
+        lower, upper = constraints.bounds(c, case)
+        meta = (dvs if c.design_variable else cons)[c.quantity]
+        scale = meta["scaler"] if meta["scaler"] is not None else 1.0
+        adder = meta["adder"] if meta["adder"] is not None else 0.0
+        if c.equals is not None:
+            assert meta["equals"] == pytest.approx((c.equals + adder) * scale)
+            continue
+        if lower is not None:
+            assert meta["lower"] == pytest.approx((lower + adder) * scale), c.name
+        if upper is not None:
+            assert meta["upper"] == pytest.approx((upper + adder) * scale), c.name
+
+
+def test_every_constraint_bound_is_a_case_key():
+    for c in constraints.CONSTRAINTS:
+        for spec in (c.lower, c.upper):
+            if spec is None:
+                continue
+            key = spec[:-3] if spec.endswith("]") else spec
+            table, field = key.split(".")
+            assert field in SCHEMA[table], (c.name, key)
+
+
+def test_margins_sign_and_activity(cases_dir):
+    """A jet Mach number exactly at the limit is active, above it broken, below it slack; a
+    non-blowing segment is not constrained."""
+    case = load_case(cases_dir / "coastal-patrol.toml")
+    limit = case.slot["max_jet_mach"]
+    n = len(case.segments)
+    jet = constraints.BY_NAME["jet Mach limit"]
+    mach = np.full(n, 0.5 * limit)
+    mach[0] = limit
+    mach[1] = 1.1 * limit
+    m = constraints.margin(jet, case, {"jet_mach": mach})
+    assert m[0] == 0.0 and m[1] == pytest.approx(-0.1) and m[2] == pytest.approx(0.5)
+    off = np.flatnonzero(~case.blowing)
+    assert off.size and np.all(np.isnan(m[off]))
+
+
+def test_case_file_page_lists_every_parameter_and_setting():
+    """docs/case-files.md has a row for every declared parameter and every setting."""
+    text = (ROOT / "docs" / "case-files.md").read_text(encoding="utf-8")
+    missing = [p.key for p in parameters.PARAMETERS if f"| `{p.field}` |" not in text]
+    for table, entries in SCHEMA.items():
+        missing += [f"{table}.{k}" for k in entries if f"| `{k}` |" not in text]
+    assert missing == []
