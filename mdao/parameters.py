@@ -32,8 +32,8 @@ class Parameter:
         :func:`mdao.physics.chain.evaluate`.
     unit : str or None
         SI unit in OpenMDAO's spelling (None: dimensionless).
-    kind : str
-        Dimension kind that the case reader checks (see :mod:`mdao.units`).
+    dimension : str
+        Dimension that the case reader checks (see :mod:`mdao.units`).
     default : float, list, str or None
         Value when the case omits it; :data:`REQUIRED` when it must be given (by the models that
         use it); None when it is optional and absent means "not used".
@@ -62,7 +62,7 @@ class Parameter:
     key: str
     name: str
     unit: str = None
-    kind: str = "dimensionless"
+    dimension: str = "dimensionless"
     default: object = REQUIRED
     example: object = None
     low: float = -INF

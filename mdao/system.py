@@ -51,9 +51,9 @@ class BlownWingGroup(om.Group):
                              desc="feed the required pressure rise to the fan (fixed-design "
                                   "studies) instead of taking fan_pressure_rise as an input")
         self.options.declare("fused", types=bool, default=False,
-                             desc="lumped duct and constant fan only: one ChainComp instead of "
-                                  "one component per discipline (the fast path for large "
-                                  "vectors; same names, values and derivatives)")
+                             desc="one ChainComp (the NumPy chain with its derivatives) instead "
+                                  "of one component per discipline: the fast path for large "
+                                  "vectors, any model; same names, values and derivatives")
 
     def setup(self):
         o = self.options
@@ -184,8 +184,8 @@ def build_problem(case, follow_requirement=False, driver=True, fused=None):
     driver : bool
         Attach the SLSQP driver and the design variables, constraints and objective.
     fused : bool, optional
-        Use the one-component chain (lumped duct and constant fan only); default: where it
-        applies.
+        Use the one-component chain (any model); default True. False wires one component per
+        discipline (same names, values and derivatives).
     """
     opts = group_options(case, fused)
     opts["follow_requirement"] = follow_requirement

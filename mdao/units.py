@@ -14,7 +14,7 @@ def registry():
     return pint.UnitRegistry()
 
 
-#: SI unit each dimension kind is converted to. Shaft speeds go to revolutions per second, so
+#: SI unit each dimension is converted to. Shaft speeds go to revolutions per second, so
 #: that "60000 rpm" reads as 1000 rev/s (pint counts a revolution as 2 pi radians).
 SI_UNITS = {
     "length": "m", "speed": "m/s", "time": "s", "pressure": "Pa", "density": "kg/m**3",
@@ -29,8 +29,8 @@ class UnitError(ValueError):
     """A quantity that cannot be read or has the wrong dimension."""
 
 
-def to_si(text, kind):
-    """Read ``text`` (e.g. ``"45 m/s"``) and return its magnitude in the SI unit of ``kind``.
+def to_si(text, dimension):
+    """Read ``text`` (e.g. ``"45 m/s"``) and return its magnitude in the SI unit of ``dimension``.
 
     Examples
     --------
@@ -40,18 +40,18 @@ def to_si(text, kind):
     5400.0
     """
     ureg = registry()
-    target = SI_UNITS[kind]
+    target = SI_UNITS[dimension]
     try:
         q = ureg.Quantity(text) if isinstance(text, str) else ureg.Quantity(text, "")
     except Exception as exc:  # pint raises several error types for bad text
         raise UnitError(f"cannot read {text!r} as a quantity ({exc})") from None
-    if kind == "angle" and q.dimensionless and not str(q.units) in ("radian", "degree"):
+    if dimension == "angle" and q.dimensionless and not str(q.units) in ("radian", "degree"):
         if isinstance(text, str) and q.units == ureg.dimensionless:
             raise UnitError(f"{text!r} has no angle unit; write e.g. \"3 deg\"")
     try:
         return float(q.to(target).magnitude) if target else float(q.to("").magnitude)
     except pint.DimensionalityError:
-        raise UnitError(f"{text!r} is not a {kind.replace('_', ' ')} "
+        raise UnitError(f"{text!r} is not a {dimension.replace('_', ' ')} "
                         f"(expected a unit convertible to {target or 'a pure number'})") from None
 
 

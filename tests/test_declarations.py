@@ -33,7 +33,7 @@ def test_every_parameter_is_a_case_key_with_its_declared_range():
         if spec.type in ("number", "quantity"):
             assert (spec.low, spec.high, spec.low_open, spec.high_open) == \
                 (p.low, p.high, p.low_open, p.high_open), p.key
-            assert spec.kind == p.kind, p.key
+            assert spec.dimension == p.dimension, p.key
 
 
 def test_one_default_per_parameter_in_every_component(cases_dir):

@@ -38,7 +38,7 @@ def test_worked_numbers():
     """Definitions of Dixon & Hall (2014), worked by hand: D 0.1 m, 20 000 rpm, Q 0.1 m3/s,
     dp 2000 Pa, rho 1.225, eta 0.8 -> phi 0.30000, psi 1.46939, lambda 0.55102, P 250 W."""
     n, d, q, dp, rho, eta = 20000 / 60, 0.1, 0.1, 2000.0, 1.225, 0.8
-    phi = fan.flow_coefficient(q, n, d)
+    phi = fan.flow_coefficient_of(q, n, d)
     psi = fan.pressure_coefficient(dp, rho, n, d)
     power = fan.shaft_power(q, dp, eta)
     lam = fan.power_coefficient(power, rho, n, d)
@@ -58,11 +58,11 @@ def test_fan_curve_meets_system():
     rho, d, n0 = 1.2, 0.1, 120.0
     # dp = rho N^2 D^2 (c0 + c1 phi + c2 phi^2)  <=>  p0 + b Q + c Q^2 at N = N0
     coef = (p0 / (rho * n0**2 * d**2), b * d / (rho * n0), c * d**4 / rho)
-    q = brentq(lambda q: fan.speed(q, k_sys * q**2, rho, d, coef) - n0, 1e-4, 0.2, xtol=1e-14)
+    q = brentq(lambda q: fan.shaft_speed(q, k_sys * q**2, rho, d, coef) - n0, 1e-4, 0.2, xtol=1e-14)
     dp = k_sys * q**2
     assert abs(q - 0.141421) < 5e-7
     assert abs(dp - 600.0) < 1e-6
-    phi = fan.flow_coefficient(q, n0, d)
+    phi = fan.flow_coefficient_of(q, n0, d)
     assert fan.characteristic(phi, coef) * rho * n0**2 * d**2 == pytest.approx(dp, rel=1e-12)
 
 
@@ -129,8 +129,8 @@ def test_fan_laws_round_trip_and_similarity():
     for a, b in zip(back, (q, dp, p)):
         assert np.allclose(a, b, rtol=1e-13, atol=0)
     n, d, rho = 300.0, 0.08, 1.225
-    assert np.allclose(fan.flow_coefficient(s.volume_flow, n * rn, d * rd),
-                       fan.flow_coefficient(q, n, d), rtol=1e-13)
+    assert np.allclose(fan.flow_coefficient_of(s.volume_flow, n * rn, d * rd),
+                       fan.flow_coefficient_of(q, n, d), rtol=1e-13)
     assert np.allclose(fan.pressure_coefficient(s.pressure_rise, rho * rr, n * rn, d * rd),
                        fan.pressure_coefficient(dp, rho, n, d), rtol=1e-13)
     assert np.allclose(fan.power_coefficient(s.power, rho * rr, n * rn, d * rd),
@@ -146,10 +146,10 @@ def test_speed_satisfies_characteristic_both_branches():
     q, dp = rng.uniform(0.0, 0.1, 50), rng.uniform(100, 4000, 50)
     rho, d = rng.uniform(0.4, 1.3, 50), 0.08
     for coef in ((0.6, 0.5, -1.5), (0.9, -0.8, -1.0), (0.5, 0.0, -2.0)):
-        n = fan.speed(q, dp, rho, d, coef)
+        n = fan.shaft_speed(q, dp, rho, d, coef)
         assert np.all(n > 0)
         psi = fan.pressure_coefficient(dp, rho, n, d)
-        phi = fan.flow_coefficient(q, n, d)
+        phi = fan.flow_coefficient_of(q, n, d)
         assert np.allclose(fan.characteristic(phi, coef), psi, rtol=1e-12, atol=0)
 
 
@@ -157,7 +157,7 @@ def test_speed_no_cancellation():
     """Large c1 k against a tiny pressure rise: naive (-b + sqrt(b^2 - 4ac)) / 2a loses the
     digits; the stable form keeps them (reference by mpmath at 50 digits)."""
     coef, q, dp, rho, d = (0.6, 50.0, 0.0), 0.1, 1e-3, 1.2, 0.1
-    n = float(fan.speed(q, dp, rho, d, coef))
+    n = float(fan.shaft_speed(q, dp, rho, d, coef))
     mpmath.mp.dps = 50
     a, b = mpmath.mpf(0.6), mpmath.mpf(50.0) * mpmath.mpf(q) / mpmath.mpf(d)**3
     c = -mpmath.mpf(dp) / (mpmath.mpf(rho) * mpmath.mpf(d)**2)
@@ -168,10 +168,10 @@ def test_speed_no_cancellation():
 def test_speed_no_root_is_nan_and_bad_c0_raises():
     # a characteristic rising with phi (c2 > 0) cannot reach a large negative pressure rise at
     # any speed: the discriminant is negative
-    n = fan.speed(0.05, -1e6, 1.2, 0.08, (0.5, -1.0, 2.0))
+    n = fan.shaft_speed(0.05, -1e6, 1.2, 0.08, (0.5, -1.0, 2.0))
     assert np.isnan(n)
     with pytest.raises(ValueError, match="coefficients"):
-        fan.speed(0.05, 1000.0, 1.2, 0.08, (0.0, 0.5, -1.5))
+        fan.shaft_speed(0.05, 1000.0, 1.2, 0.08, (0.0, 0.5, -1.5))
 
 
 def test_speed_derivatives():
@@ -179,30 +179,30 @@ def test_speed_derivatives():
     for coef in ((0.6, 0.5, -1.5), (0.9, -0.8, -1.0)):
         args = dict(volume_flow=rng.uniform(0.01, 0.1, 7), pressure_rise=rng.uniform(300, 3000, 7),
                     density=rng.uniform(0.5, 1.3, 7), diameter=rng.uniform(0.06, 0.12, 7))
-        n, d = fan.speed(**args, coefficients=coef, derivatives=True)
+        n, d = fan.shaft_speed(**args, coefficients=coef, derivatives=True)
         for name in args:
-            fd = central_fd(lambda **kw: fan.speed(**kw, coefficients=coef), args, name)
+            fd = central_fd(lambda **kw: fan.shaft_speed(**kw, coefficients=coef), args, name)
             assert np.allclose(d[name], fd, rtol=1e-6, atol=0), name
         for i, key in enumerate(('c0', 'c1', 'c2')):
             h = 1e-5
             up, dn = list(coef), list(coef)
             up[i] += h
             dn[i] -= h
-            fd = (fan.speed(**args, coefficients=up) - fan.speed(**args, coefficients=dn)) / (2 * h)
+            fd = (fan.shaft_speed(**args, coefficients=up) - fan.shaft_speed(**args, coefficients=dn)) / (2 * h)
             assert np.allclose(d[key], fd, rtol=1e-6, atol=0), key
 
 
 # --- efficiency, power, tip Mach ----------------------------------------------------------------
 
 def test_efficiency_values_and_derivatives():
-    assert fan.efficiency(0.3, 0.8, 0.3, 0.8) == pytest.approx(0.8, rel=1e-15)
+    assert fan.map_efficiency(0.3, 0.8, 0.3, 0.8) == pytest.approx(0.8, rel=1e-15)
     # phi = 0 -> peak (1 - falloff)
-    assert fan.efficiency(0.0, 0.8, 0.3, 0.5) == pytest.approx(0.4, rel=1e-15)
+    assert fan.map_efficiency(0.0, 0.8, 0.3, 0.5) == pytest.approx(0.4, rel=1e-15)
     rng = np.random.default_rng(RNG_SEED)
     args = dict(flow_coefficient=rng.uniform(0.1, 0.5, 6), peak_efficiency=rng.uniform(0.5, 0.9, 6),
                 peak_flow_coefficient=rng.uniform(0.2, 0.4, 6),
                 efficiency_falloff=rng.uniform(0.2, 1.5, 6))
-    assert_derivatives(fan.efficiency, args)
+    assert_derivatives(fan.map_efficiency, args)
 
 
 def test_power_and_coefficient_derivatives():
@@ -216,7 +216,7 @@ def test_power_and_coefficient_derivatives():
                             inlet_pressure=rng.uniform(5e4, 1.1e5, 5),
                             inlet_temperature=rng.uniform(216, 300, 5),
                             efficiency=rng.uniform(0.4, 0.9, 5)))
-    assert_derivatives(fan.flow_coefficient, dict(volume_flow=rng.uniform(0.01, 0.2, 5),
+    assert_derivatives(fan.flow_coefficient_of, dict(volume_flow=rng.uniform(0.01, 0.2, 5),
                                                   speed=rng.uniform(100, 600, 5),
                                                   diameter=rng.uniform(0.05, 0.15, 5)))
     assert_derivatives(fan.pressure_coefficient, dict(pressure_rise=rng.uniform(100, 5000, 5),
@@ -242,7 +242,7 @@ def test_tip_mach_and_margins():
 def _synthetic_points(coef, peak, phi_pk, falloff, phi, n, rho=1.2, d=0.09):
     q = phi * n * d**3
     dp = fan.characteristic(phi, coef) * rho * n**2 * d**2
-    eta = fan.efficiency(phi, peak, phi_pk, falloff)
+    eta = fan.map_efficiency(phi, peak, phi_pk, falloff)
     return q, dp, eta, rho, d
 
 
@@ -356,9 +356,9 @@ def test_component_matches_physics(model, compressible):
     if model == 'constant':
         eta = vals['fan_rated_efficiency'] * np.ones(5)
     else:
-        n = fan.speed(q / fans, dp, rho, vals['fan_diameter'], vals['pressure_coefficients'])
-        phi = fan.flow_coefficient(q / fans, n, vals['fan_diameter'])
-        eta = fan.efficiency(phi, vals['peak_efficiency'], vals['peak_flow_coefficient'],
+        n = fan.shaft_speed(q / fans, dp, rho, vals['fan_diameter'], vals['pressure_coefficients'])
+        phi = fan.flow_coefficient_of(q / fans, n, vals['fan_diameter'])
+        eta = fan.map_efficiency(phi, vals['peak_efficiency'], vals['peak_flow_coefficient'],
                              vals['efficiency_falloff'])
         assert np.allclose(prob.get_val('fan_speed'), n, rtol=1e-14)
         assert np.allclose(prob.get_val('flow_coefficient'), phi, rtol=1e-14)

@@ -95,7 +95,7 @@ def test_geometric_loss_factor_components():
     from mdao.physics import friction, losses
     st = _stations()
     q_f, rho, mu = np.array([0.05]), np.array([1.1]), np.array([1.75e-5])
-    kj = duct.jet_loss_factor(0.012, 0.03, 0.5, 0.3, 0.04, 2e-6, q_f, rho, mu,
+    kj = duct.geometric_jet_loss_factor(0.012, 0.03, 0.5, 0.3, 0.04, 2e-6, q_f, rho, mu,
                               st.position, st.area, st.perimeter)
     a0, a1, length = st.area[0], st.area[-1], st.position[-1]
     angle = 2 * np.arctan(abs(np.sqrt(a1 / np.pi) - np.sqrt(a0 / np.pi)) / length)

@@ -16,6 +16,7 @@ from openmdao.utils.assert_utils import assert_check_totals
 from mdao.case import load_case
 from mdao.components.mass import (BlowingSystemMassComp, add_blowing_system_mass, mass_values,
                                   set_mass_values)
+from mdao.parameters import MASS_PARAMETERS
 from mdao.physics import mass
 from mdao.system import BlownWingGroup, group_options, set_case_values
 from partials_check import assert_partials
@@ -150,14 +151,58 @@ def test_headroom_ignores_nodes_without_blowing():
     np.testing.assert_allclose(prob.get_val("power_headroom"), [275.0, 400.0, 25.0], rtol=1e-14)
 
 
-def test_case_values_and_schema_default():
-    case = load_case(ROOT / "cases" / "survey-drone.toml")
-    vals = mass_values(case)
-    assert vals == {"fan_specific_power": 2500.0, "motor_specific_power": 5000.0,
-                    "duct_areal_density": 1.2, "installation_factor": 1.2, "power_margin": 1.25,
-                    "duct_wetted_ratio": 1.5}
-    geo = load_case(ROOT / "cases" / "coastal-patrol.toml")
-    assert "duct_wetted_ratio" not in mass_values(geo)
+MASS_TABLE = """
+[mass]
+fan_specific_power = "1.8 kW/kg"
+motor_specific_power = "4000 W/kg"
+duct_areal_density = "900 g/m**2"
+installation_factor = 1.3
+power_margin = 1.4
+duct_wetted_ratio = 2.0
+"""
+
+
+def _mass_beside_group(case, rated=800.0):
+    """The case's BlownWingGroup with the mass component beside it, the case's values set, run."""
+    prob = om.Problem(reports=False)
+    prob.model.add_subsystem("wing", BlownWingGroup(**group_options(case)), promotes=["*"])
+    add_blowing_system_mass(prob.model, case)
+    prob.setup()
+    set_case_values(prob, case)
+    set_mass_values(prob, case)
+    prob.set_val("rated_shaft_power", rated, units="W")
+    prob.run_model()
+    return prob
+
+
+def test_case_mass_table_reaches_the_component(tmp_path):
+    """A [mass] table in the case file, in its own units, reaches the component: the installed
+    mass and the headroom are those of the formula with the table's values (converted to SI), not
+    with the defaults, which the same case without the table gets."""
+    text = (ROOT / "cases" / "survey-drone.toml").read_text()
+    assert "[mass]" not in text
+    path = tmp_path / "with-mass.toml"
+    path.write_text(text + MASS_TABLE)
+    case = load_case(path)
+    assert mass_values(case) == pytest.approx({
+        "fan_specific_power": 1800.0, "motor_specific_power": 4000.0, "duct_areal_density": 0.9,
+        "installation_factor": 1.3, "power_margin": 1.4, "duct_wetted_ratio": 2.0}, rel=1e-15)
+    prob = _mass_beside_group(case)
+    planform = case.value("wing.chord") * case.value("wing.blown_span")
+    expected = 1.3 * (800.0 * (1 / 1800.0 + 1 / 4000.0) + 0.9 * 2.0 * planform)
+    assert prob.get_val("blowing_system_mass")[0] == pytest.approx(expected, rel=1e-13)
+    shaft = prob.get_val("fan_shaft_power", units="W")
+    blow = np.array(case.blowing)
+    np.testing.assert_allclose(prob.get_val("power_headroom", units="W")[blow],
+                               800.0 - 1.4 * shaft[blow], rtol=1e-13)
+
+    plain = _mass_beside_group(load_case(ROOT / "cases" / "survey-drone.toml"))
+    d = {p.name: p.default for p in MASS_PARAMETERS}
+    default = d["installation_factor"] * (
+        800.0 * (1 / d["fan_specific_power"] + 1 / d["motor_specific_power"])
+        + d["duct_areal_density"] * d["duct_wetted_ratio"] * planform)
+    assert plain.get_val("blowing_system_mass")[0] == pytest.approx(default, rel=1e-13)
+    assert abs(prob.get_val("blowing_system_mass")[0] / default - 1) > 0.1
 
 
 def test_beside_geometric_group_totals():

@@ -5,12 +5,17 @@ import mpmath as mp
 import numpy as np
 import pytest
 
-from mdao.physics.superellipse import area, perimeter, semi_axes
+from mdao.physics.superellipse import enclosed_area, perimeter, semi_axes
 
 
 def _perimeter_mpmath(a, b, n, digits=30):
     """Reference perimeter by mpmath (tanh-sinh, 30 digits) on the same graph form, the interval
-    cut at points graded towards both ends so that the quadrature meets every feature."""
+    cut at the corner parameter tau = 2**(-1/n) and at two points graded towards each end.
+
+    Measured: over the grid of test_perimeter_against_mpmath_grid this agrees to 1.3e-31 with a
+    40-digit quadrature cut at 49 points (24 graded towards each end), far inside the 1e-12
+    asserted.
+    """
     with mp.workdps(digits):
         a, b, n = mp.mpf(a), mp.mpf(b), mp.mpf(n)
         tau = mp.mpf(2) ** (-1 / n)
@@ -19,8 +24,8 @@ def _perimeter_mpmath(a, b, n, digits=30):
             u = t ** (n - 1) * (1 - t ** n) ** (1 / n - 1)
             return mp.sqrt(a * a + (b * u) ** 2) + mp.sqrt(b * b + (a * u) ** 2)
 
-        cuts = sorted({mp.mpf(0), tau} | {tau * mp.mpf(2) ** -k for k in range(1, 25)}
-                      | {tau * (1 - mp.mpf(2) ** -k) for k in range(1, 25)})
+        cuts = sorted({mp.mpf(0), tau} | {tau * mp.mpf(2) ** -k for k in range(1, 3)}
+                      | {tau * (1 - mp.mpf(2) ** -k) for k in range(1, 3)})
         return float(4 * mp.quad(integrand, cuts))
 
 
@@ -35,7 +40,7 @@ PERIMETERS = [(1, 1, 2, 2 * np.pi), (1, 1, 4, 7.017697943564042), (1, 1, 10, 7.5
 @pytest.mark.parametrize("a, b, n, expected", AREAS)
 def test_area_reference(a, b, n, expected):
     """Exact Gamma-function areas; agreement to 2 ulp."""
-    assert area(a, b, n) == pytest.approx(expected, rel=5e-16)
+    assert enclosed_area(a, b, n) == pytest.approx(expected, rel=5e-16)
 
 
 @pytest.mark.parametrize("a, b, n, expected", PERIMETERS)
@@ -53,17 +58,19 @@ def test_ellipse_perimeter_is_elliptic_integral():
 
 
 def test_perimeter_against_mpmath_grid():
-    """Aspect 1/200 to 200, n 2 to 100 (non-integer n too), vs 30-digit mpmath.
+    """Aspect 1/200 to 200 (both sides of the circle), n 2 to 100 (non-integer n too), vs 30-digit
+    mpmath: both ends of each range, the circle, a mid aspect; n at 2, near 2, 4, a mid-range
+    non-integer value and 100. (The elliptic-integral test covers n = 2 at more aspects.)
 
-    Measured worst relative error 6e-14 (required 1e-9).
+    Measured worst relative error 3.5e-13 (required 1e-12).
     """
-    aspects = (1 / 200, 1.0, 7.5, 50.0, 200.0)
-    exponents = (2.0, 2.3, 4.0, 8.0, 13.7, 30.0, 100.0)
+    aspects = (1 / 200, 1.0, 7.5, 200.0)
+    exponents = (2.0, 2.3, 4.0, 13.7, 100.0)
     pairs = list(itertools.product(aspects, exponents))
     a = np.array([p[0] for p in pairs])
     n = np.array([p[1] for p in pairs])
     got = perimeter(a, 1.0, n)              # one vectorized call
-    ref = np.array([_perimeter_mpmath(*p[:1], 1.0, p[1]) for p in pairs])
+    ref = np.array([_perimeter_mpmath(p[0], 1.0, p[1]) for p in pairs])
     np.testing.assert_allclose(got, ref, rtol=1e-12, atol=0)
 
 
@@ -85,9 +92,9 @@ def _central(f, x, h):
 def test_area_derivatives():
     """dA/da, dA/db by central FD; dA/dn against mpmath.diff of the Gamma form (30 digits)."""
     a, b, n = np.array([1.0, 20.0, 0.3]), np.array([1.0, 1.0, 2.0]), np.array([2.0, 10.0, 100.0])
-    _, d_a, d_b, d_n = area(a, b, n, derivatives=True)
-    np.testing.assert_allclose(d_a, _central(lambda x: area(x, b, n), a, 1e-6 * a), rtol=1e-8)
-    np.testing.assert_allclose(d_b, _central(lambda x: area(a, x, n), b, 1e-6 * b), rtol=1e-8)
+    _, d_a, d_b, d_n = enclosed_area(a, b, n, derivatives=True)
+    np.testing.assert_allclose(d_a, _central(lambda x: enclosed_area(x, b, n), a, 1e-6 * a), rtol=1e-8)
+    np.testing.assert_allclose(d_b, _central(lambda x: enclosed_area(a, x, n), b, 1e-6 * b), rtol=1e-8)
     with mp.workdps(30):
         ref = [float(mp.diff(lambda m: 4 * ai * bi * mp.gamma(1 + 1 / m) ** 2 / mp.gamma(1 + 2 / m),
                              mp.mpf(ni))) for ai, bi, ni in zip(a, b, n)]
@@ -116,7 +123,7 @@ def test_perimeter_broadcasts():
 def test_semi_axes_roundtrip_and_derivatives():
     target, aspect, n = np.array([2.5e-3, 1.0, 7.0]), np.array([100.0, 1.0, 0.2]), np.array([8.0, 2.5, 30.0])
     a, b, da, db = semi_axes(target, aspect, n, derivatives=True)
-    np.testing.assert_allclose(area(a, b, n), target, rtol=1e-14)
+    np.testing.assert_allclose(enclosed_area(a, b, n), target, rtol=1e-14)
     np.testing.assert_allclose(a / b, aspect, rtol=1e-14)
     args = {"area": target, "aspect": aspect, "n": n}
     for key, x in args.items():
@@ -133,8 +140,8 @@ def test_semi_axes_circle():
 
 
 @pytest.mark.parametrize("call, name", [
-    (lambda: area(-1.0, 1.0, 2.0), "a"),
-    (lambda: area(1.0, 0.0, 2.0), "b"),
+    (lambda: enclosed_area(-1.0, 1.0, 2.0), "a"),
+    (lambda: enclosed_area(1.0, 0.0, 2.0), "b"),
     (lambda: perimeter(1.0, 1.0, 1.5), "n"),
     (lambda: perimeter(1.0, 1.0, np.nan), "n"),
     (lambda: semi_axes(1.0, -2.0, 4.0), "aspect"),

@@ -30,7 +30,7 @@ def test_ends_exact():
 def test_sections_consistent():
     """Every station's area and perimeter are those of its own semi-axes and exponent."""
     s = stations(**BASE, count=9)
-    np.testing.assert_allclose(superellipse.area(s.semi_axis_y, s.semi_axis_z, s.exponent), s.area,
+    np.testing.assert_allclose(superellipse.enclosed_area(s.semi_axis_y, s.semi_axis_z, s.exponent), s.area,
                                rtol=1e-13)
     np.testing.assert_allclose(superellipse.perimeter(s.semi_axis_y, s.semi_axis_z, s.exponent),
                                s.perimeter, rtol=1e-14)

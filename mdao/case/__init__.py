@@ -1,6 +1,6 @@
 """Case files: TOML with quantities carrying units, validated and converted to SI.
 
-- :mod:`mdao.case.schema`: every key, its type, unit kind, default and range (model parameters
+- :mod:`mdao.case.schema`: every key, its type, dimension, default and range (model parameters
   from :mod:`mdao.parameters`);
 - :mod:`mdao.case.loading`: reading, validation and the :class:`Case` it returns;
 - :mod:`mdao.case.fragment`: the calibration fragments a case includes;
@@ -10,7 +10,7 @@ docs/case-files.md describes every key.
 """
 from mdao.case.errors import CaseError
 from mdao.case.loading import FAN_POINT_COLUMNS, Case, load_case, parse_case
-from mdao.case.schema import SCHEMA, SEGMENT, kind_of, spec_of
+from mdao.case.schema import SCHEMA, SEGMENT, dimension_of, spec_of
 
-__all__ = ["Case", "CaseError", "FAN_POINT_COLUMNS", "SCHEMA", "SEGMENT", "kind_of",
+__all__ = ["Case", "CaseError", "FAN_POINT_COLUMNS", "SCHEMA", "SEGMENT", "dimension_of",
            "load_case", "parse_case", "spec_of"]

@@ -19,7 +19,7 @@ import numpy as np
 
 from mdao.case.errors import CaseError
 from mdao.case.fragment import load_fragment
-from mdao.case.schema import DISTRIBUTIONS, REQUIRED, SCHEMA, SEGMENT, TOP_LEVEL, kind_of
+from mdao.case.schema import DISTRIBUTIONS, REQUIRED, SCHEMA, SEGMENT, TOP_LEVEL, dimension_of
 from mdao.parameters import CHAIN_PARAMETERS, RENAMED, chain_parameters, parameter
 from mdao.units import UnitError, read_table, to_si
 
@@ -32,7 +32,7 @@ def _check_range(key, value, spec, shown):
     bad = (value < lo or value > hi or (lo_open and value == lo) or (hi_open and value == hi)
            or (isinstance(value, float) and math.isnan(value)))
     if bad:
-        suffix = "" if spec.kind == "dimensionless" else f" (in SI, {spec.kind})"
+        suffix = "" if spec.dimension == "dimensionless" else f" (in SI, {spec.dimension})"
         raise CaseError(f"{key} = {shown!r} is out of range: allowed {spec.allowed()}{suffix}")
 
 
@@ -44,10 +44,10 @@ def _read_value(key, raw, spec):
                 value = 0.0
             else:
                 raise CaseError(f"{key} = {raw!r}: give a quantity with units as a string, "
-                                f"e.g. \"{_example(spec.kind)}\"")
+                                f"e.g. \"{_example(spec.dimension)}\"")
         else:
             try:
-                value = to_si(raw, spec.kind)
+                value = to_si(raw, spec.dimension)
             except UnitError as exc:
                 raise CaseError(f"{key}: {exc}") from None
         _check_range(key, value, spec, raw)
@@ -93,7 +93,7 @@ def _read_value(key, raw, spec):
     if typ == "pair":
         if not isinstance(raw, list) or len(raw) != 2:
             raise CaseError(f"{key} = {raw!r}: a list of two values [low, high] is allowed")
-        sub = replace(spec, type="quantity" if spec.kind != "dimensionless" else "number")
+        sub = replace(spec, type="quantity" if spec.dimension != "dimensionless" else "number")
         lo = _read_value(f"{key}[0]", raw[0], sub)
         hi = _read_value(f"{key}[1]", raw[1], sub)
         if not lo < hi:
@@ -102,10 +102,10 @@ def _read_value(key, raw, spec):
     raise AssertionError(typ)
 
 
-def _example(kind):
+def _example(dimension):
     return {"length": "0.5 m", "speed": "40 m/s", "time": "1 h", "pressure": "500 Pa",
             "angle": "3 deg", "rotational_speed": "30000 rpm", "specific_power": "2 kW/kg",
-            "areal_density": "1.5 kg/m**2"}.get(kind, "1")
+            "areal_density": "1.5 kg/m**2"}.get(dimension, "1")
 
 
 def _read_table(name, raw, schema):
@@ -457,8 +457,8 @@ def _read_uncertainty(raw, case):
 
 
 def _quantity_like(key, sub, text):
-    kind = kind_of(key)
+    dimension = dimension_of(key)
     try:
-        return to_si(text, kind)
+        return to_si(text, dimension)
     except UnitError as exc:
         raise CaseError(f"uncertainty.\"{key}\".{sub}: {exc}") from None

@@ -1,4 +1,4 @@
-"""The case file's schema: every key, its type, dimension kind, default and allowed range.
+"""The case file's schema: every key, its type, dimension, default and allowed range.
 
 The model parameters' entries are built from their declarations in :mod:`mdao.parameters` (one
 default and one range per parameter, everywhere); the entries here are the case's settings:
@@ -20,14 +20,14 @@ REQUIRED = registry.REQUIRED
 class Spec:
     """How one case key is read and checked.
 
-    ``type`` is one of ``quantity`` (a string with a unit of dimension ``kind``), ``number``,
+    ``type`` is one of ``quantity`` (a string with a unit of ``dimension``), ``number``,
     ``int``, ``bool``, ``str``, ``choice`` (one of ``choices``), ``list`` (``length`` numbers,
-    any length when None) or ``pair`` (``[low, high]`` of ``kind``). ``default`` is the value
+    any length when None) or ``pair`` (``[low, high]`` of ``dimension``). ``default`` is the value
     when the key is absent (:data:`REQUIRED`: it must be given; None: optional).
     """
 
     type: str
-    kind: str = "dimensionless"
+    dimension: str = "dimensionless"
     default: object = REQUIRED
     low: float = -INF
     high: float = INF
@@ -48,9 +48,9 @@ class Spec:
         return f"{left}{self.low:g}, {self.high:g}{right}"
 
 
-def quantity(kind, default=REQUIRED, **bounds):
+def quantity(dimension, default=REQUIRED, **bounds):
     """A quantity with a unit."""
-    return Spec("quantity", kind, default, **bounds)
+    return Spec("quantity", dimension, default, **bounds)
 
 
 def number(default=REQUIRED, **bounds):
@@ -58,9 +58,9 @@ def number(default=REQUIRED, **bounds):
     return Spec("number", default=default, **bounds)
 
 
-def pair(kind="dimensionless", default=REQUIRED, **bounds):
+def pair(dimension="dimensionless", default=REQUIRED, **bounds):
     """A ``[low, high]`` pair."""
-    return Spec("pair", kind, default, **bounds)
+    return Spec("pair", dimension, default, **bounds)
 
 
 def integer(default, low, high):
@@ -82,8 +82,8 @@ def _from_parameter(p):
     if default is REQUIRED and (p.duct_models != ("lumped", "geometric")
                                 or p.fan_models != ("constant", "map")):
         default = None
-    typ = "number" if p.kind == "dimensionless" else "quantity"
-    return Spec(typ, p.kind, default, p.low, p.high, p.low_open, p.high_open)
+    typ = "number" if p.dimension == "dimensionless" else "quantity"
+    return Spec(typ, p.dimension, default, p.low, p.high, p.low_open, p.high_open)
 
 
 #: Settings of each case table (not model parameters).
@@ -167,6 +167,6 @@ def spec_of(key):
     return SCHEMA[parts[0]][parts[1]]
 
 
-def kind_of(key):
-    """Dimension kind of a numeric case key path (``"wing.chord"`` -> ``"length"``)."""
-    return spec_of(key).kind
+def dimension_of(key):
+    """Dimension of a numeric case key path (``"wing.chord"`` -> ``"length"``)."""
+    return spec_of(key).dimension

@@ -31,11 +31,11 @@ def _optimize(args, optimized=True):
     """``blownwing optimize|evaluate CASE [--out DIR]``."""
     from mdao.case import load_case
     from mdao.files import write_json
-    from mdao.optimum import evaluate, optimize
+    from mdao.optimum import evaluate_start_point, optimize
     from mdao.report.console import summary
 
     case = load_case(args.case)
-    outcome = optimize(case) if optimized else evaluate(case)
+    outcome = optimize(case) if optimized else evaluate_start_point(case)
     if optimized and not outcome.converged:
         print(f"blownwing: {case.title}\nNOT CONVERGED: {outcome.message} after "
               f"{outcome.iterations} iterations ({outcome.model_evaluations} model evaluations). "

@@ -75,7 +75,7 @@ class DuctLossComp(om.ExplicitComponent):
 
     def _loss_factor(self, inputs, derivatives=False):
         fans = self.options["fans"]
-        return duct.jet_loss_factor(
+        return duct.geometric_jet_loss_factor(
             inputs["slot_ratio"][0], inputs["suction_ratio"][0], inputs["suction_inlet_loss"][0],
             inputs["bend_loss"][0], inputs["extra_loss"][0], inputs["roughness"][0],
             inputs["volume_flow"] / fans, inputs["density"], inputs["viscosity"],

@@ -26,7 +26,7 @@ class FanComp(om.ExplicitComponent):
     common ``fan_pressure_rise``. Where the pressure rise is <= 0 (ram-driven jet) the shaft power
     is zero, never negative (see :func:`mdao.physics.fan.shaft_power`). With the map model, a
     pressure rise the characteristic cannot reach gives NaN speed (see
-    :func:`mdao.physics.fan.speed`). ``pressure`` and ``temperature`` are used only when
+    :func:`mdao.physics.fan.shaft_speed`). ``pressure`` and ``temperature`` are used only when
     ``compressible``; ``speed_of_sound`` only by the map model; ``density`` by the map model and
     the compressible power (mass flow = density * volume_flow). All inputs exist in every mode so
     that the wiring does not change with the options.
@@ -111,11 +111,11 @@ class FanComp(om.ExplicitComponent):
             fans, d, a = self.options['fans'], inputs['fan_diameter'][0], inputs['speed_of_sound']
             coef = inputs['pressure_coefficients']
             qf = q / fans
-            speed, ds = phys.speed(qf, dp, rho, d, coef, derivatives=True)
+            speed, ds = phys.shaft_speed(qf, dp, rho, d, coef, derivatives=True)
             dspeed = {'volume_flow': ds['volume_flow'] / fans, 'fan_pressure_rise': ds['pressure_rise'],
                       'density': ds['density'], 'fan_diameter': ds['diameter'],
                       'pressure_coefficients': np.column_stack([ds['c0'], ds['c1'], ds['c2']])}
-            phi, dphi_ = phys.flow_coefficient(qf, speed, d, derivatives=True)
+            phi, dphi_ = phys.flow_coefficient_of(qf, speed, d, derivatives=True)
             dphi = _chain(dspeed, dphi_['speed'], {'volume_flow': dphi_['volume_flow'] / fans,
                                                    'fan_diameter': dphi_['diameter']})
             psi, dpsi_ = phys.pressure_coefficient(dp, rho, speed, d, derivatives=True)
@@ -125,7 +125,7 @@ class FanComp(om.ExplicitComponent):
             mach, dm_ = phys.tip_mach(speed, d, a, derivatives=True)
             dmach = _chain(dspeed, dm_['speed'], {'fan_diameter': dm_['diameter'],
                                                   'speed_of_sound': dm_['speed_of_sound']})
-            eta, de_ = phys.efficiency(phi, inputs['peak_efficiency'][0],
+            eta, de_ = phys.map_efficiency(phi, inputs['peak_efficiency'][0],
                                        inputs['peak_flow_coefficient'][0],
                                        inputs['efficiency_falloff'][0], derivatives=True)
             deta = _chain(dphi, de_['flow_coefficient'], {k: de_[k] for k in _EFFICIENCY_INPUTS})

@@ -52,7 +52,7 @@ def _admissible_constraints(case):
             if c.per_segment and c.name not in constraints.FAN_MAP_LIMITS]
 
 
-def _ratio(case, params, cmu):
+def _air_power_per_saving(case, params, cmu):
     """P_ideal / (eta_motor P_prop) at momentum coefficients ``cmu``; +inf where inadmissible."""
     out = chain.evaluate(dict(params, momentum_coefficient=cmu), chain_options(case), blowing=True)
     prop = out["propulsion_power_saving"]
@@ -115,7 +115,7 @@ def _search(case, p, lo, hi):
     grid = np.exp(llo + (lhi - llo) * t)
     pe = {k: (np.asarray(v)[..., None] if k != "pressure_coefficients" else v)
           for k, v in p.items()}
-    vals = _ratio(case, pe, grid)
+    vals = _air_power_per_saving(case, pe, grid)
     k = np.argmin(vals, axis=-1)
     a = np.take_along_axis(grid, np.maximum(k - 1, 0)[..., None], -1)[..., 0]
     b = np.take_along_axis(grid, np.minimum(k + 1, GRID - 1)[..., None], -1)[..., 0]
@@ -123,7 +123,7 @@ def _search(case, p, lo, hi):
     g = (np.sqrt(5.0) - 1.0) / 2.0
     for _ in range(GOLDEN_STEPS):
         c, d = b - g * (b - a), a + g * (b - a)
-        left = _ratio(case, p, c) < _ratio(case, p, d)
+        left = _air_power_per_saving(case, p, c) < _air_power_per_saving(case, p, d)
         a, b = np.where(left, a, c), np.where(left, d, b)
     mid = 0.5 * (a + b)
-    return np.minimum(best, _ratio(case, p, mid))
+    return np.minimum(best, _air_power_per_saving(case, p, mid))

@@ -2,7 +2,7 @@
 
 :func:`optimize` runs SLSQP on :func:`mdao.system.build_problem`, checks that it converged (the
 driver's own flag *and* the constraints at the returned point), and collects per-segment
-results, active constraints and the break-even fan efficiency. :func:`evaluate` does the same
+results, active constraints and the break-even fan efficiency. :func:`evaluate_start_point` does the same
 at the case's start point without optimizing.
 """
 import time
@@ -17,7 +17,7 @@ from mdao.system import build_problem
 
 @dataclass
 class Outcome:
-    """Result of :func:`optimize` or :func:`evaluate` (SI units)."""
+    """Result of :func:`optimize` or :func:`evaluate_start_point` (SI units)."""
 
     converged: bool
     message: str
@@ -171,7 +171,7 @@ def optimize(case, problem=None, warm_start=None):
                     int(result.model_evals), devals, wall)
 
 
-def evaluate(case):
+def evaluate_start_point(case):
     """Evaluate the case's start point without optimizing (fan rise = the requirement)."""
     t0 = time.perf_counter()
     prob = build_problem(case, driver=False)

@@ -309,7 +309,7 @@ def _geometric_loss_factor(p, options, atm, js, tan):
     shape = np.broadcast(js.volume_flow, atm.density, atm.viscosity).shape
     flow = [np.broadcast_to(v, shape).ravel()
             for v in (js.volume_flow / options.fans, atm.density, atm.viscosity)]
-    res = duct.jet_loss_factor(r_s, 1.0, 0.0, 0.0, 0.0, _scalar("roughness", p["roughness"]),
+    res = duct.geometric_jet_loss_factor(r_s, 1.0, 0.0, 0.0, 0.0, _scalar("roughness", p["roughness"]),
                                *flow, st.position, st.area, st.perimeter,
                                derivatives=tan is not None)
     base = (res[0] if tan is not None else res).reshape(shape)
@@ -349,11 +349,11 @@ def _fan_map(p, options, atm, js, dp, out, tan):
     q_f = js.volume_flow / options.fans
     d = tan is not None
     with np.errstate(invalid="ignore"):
-        res = fan.speed(q_f, np.maximum(dp, 0.0), atm.density, diameter, coeffs, derivatives=d)
+        res = fan.shaft_speed(q_f, np.maximum(dp, 0.0), atm.density, diameter, coeffs, derivatives=d)
     n_rev = res[0] if d else res
-    res_phi = fan.flow_coefficient(q_f, n_rev, diameter, derivatives=d)
+    res_phi = fan.flow_coefficient_of(q_f, n_rev, diameter, derivatives=d)
     phi = res_phi[0] if d else res_phi
-    res_eta = fan.efficiency(phi, p["peak_efficiency"], p["peak_flow_coefficient"],
+    res_eta = fan.map_efficiency(phi, p["peak_efficiency"], p["peak_flow_coefficient"],
                              p["efficiency_falloff"], derivatives=d)
     res_tip = fan.tip_mach(n_rev, diameter, atm.speed_of_sound, derivatives=d)
     res_psi = fan.pressure_coefficient(dp, atm.density, n_rev, diameter, derivatives=d)

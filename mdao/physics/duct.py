@@ -12,7 +12,7 @@ the jet's, and :math:`K_\infty` is the help of the flow around the airfoil (suct
 region of high static pressure, injection slot in a region of low pressure).
 
 *Lumped*: the user gives :math:`K_j` and :math:`K_\infty`. *Geometric*: :math:`K_j` is built by
-:func:`jet_loss_factor` from the suction inlet, the bend ahead of the fan, the fan-to-slot
+:func:`geometric_jet_loss_factor` from the suction inlet, the bend ahead of the fan, the fan-to-slot
 transition (contraction or diffusion, Crane TP-410) and its wall friction (Churchill 1977), plus a
 calibration adder.
 
@@ -173,7 +173,7 @@ def lumped_coefficients(jet_loss_factor, freestream_assist, slot_ratio):
 #: Reynolds number below which the duct is taken as stagnant (jet off).
 RE_FLOOR = 1.0
 
-#: Inputs of :func:`jet_loss_factor` whose partials are returned.
+#: Inputs of :func:`geometric_jet_loss_factor` whose partials are returned.
 GEOMETRIC_INPUTS = ("slot_ratio", "suction_ratio", "suction_inlet_loss", "bend_loss", "extra_loss",
                     "roughness", "volume_flow", "density", "viscosity",
                     "position", "area", "perimeter")
@@ -264,7 +264,7 @@ def coefficient_losses(slot_ratio, suction_ratio, suction_inlet_loss, bend_loss,
     return k_in, k_bend
 
 
-def jet_loss_factor(slot_ratio, suction_ratio, suction_inlet_loss, bend_loss, extra_loss,
+def geometric_jet_loss_factor(slot_ratio, suction_ratio, suction_inlet_loss, bend_loss, extra_loss,
                     roughness, volume_flow, density, viscosity, position, area, perimeter,
                     derivatives=False):
     r"""Geometric jet loss factor :math:`K_j` at each operating point.
@@ -336,7 +336,7 @@ def jet_loss_factor(slot_ratio, suction_ratio, suction_inlet_loss, bend_loss, ex
     over the same stations.
 
     >>> st = transition.stations(0.08, 0.5, 0.005, 0.3, 8.0)
-    >>> kj = jet_loss_factor(0.01, 0.02, 0.5, 0.3, 0.0, 1e-5, [0.06], [1.225], [1.79e-5],
+    >>> kj = geometric_jet_loss_factor(0.01, 0.02, 0.5, 0.3, 0.0, 1e-5, [0.06], [1.225], [1.79e-5],
     ...                      st.position, st.area, st.perimeter)
     >>> round(float(kj[0]), 6)
     1.42122

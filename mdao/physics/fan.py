@@ -22,7 +22,7 @@ import numpy as np
 
 FanMap = namedtuple('FanMap', ['pressure_coefficients', 'peak_efficiency', 'peak_flow_coefficient',
                                'efficiency_falloff', 'flow_coefficient_range'])
-FanMap.__doc__ = """A fitted or given fan map (see :func:`characteristic` and :func:`efficiency`).
+FanMap.__doc__ = """A fitted or given fan map (see :func:`characteristic` and :func:`map_efficiency`).
 
 pressure_coefficients : (c0, c1, c2) of psi = c0 + c1 phi + c2 phi^2, [-].
 peak_efficiency, peak_flow_coefficient, efficiency_falloff : efficiency parabola, [-].
@@ -33,7 +33,7 @@ Margins = namedtuple('Margins', ['speed_margin', 'stall_margin', 'choke_margin']
 ScaledFan = namedtuple('ScaledFan', ['volume_flow', 'pressure_rise', 'power'])
 
 
-def flow_coefficient(volume_flow, speed, diameter, derivatives=False):
+def flow_coefficient_of(volume_flow, speed, diameter, derivatives=False):
     r"""Flow coefficient :math:`\phi = Q / (N D^3)`.
 
     Parameters
@@ -60,7 +60,7 @@ def flow_coefficient(volume_flow, speed, diameter, derivatives=False):
     --------
     D = 0.1 m, 20 000 rpm, Q = 0.1 m^3/s: phi = 0.1 / (333.33 * 0.001) = 0.3 (by hand).
 
-    >>> round(float(flow_coefficient(0.1, 20000 / 60, 0.1)), 5)
+    >>> round(float(flow_coefficient_of(0.1, 20000 / 60, 0.1)), 5)
     0.3
     """
     q, n, d = np.asarray(volume_flow, float), np.asarray(speed, float), np.asarray(diameter, float)
@@ -211,7 +211,7 @@ def characteristic(flow_coefficient, coefficients):
     return c0 + phi * (c1 + c2 * phi)
 
 
-def speed(volume_flow, pressure_rise, density, diameter, coefficients, derivatives=False):
+def shaft_speed(volume_flow, pressure_rise, density, diameter, coefficients, derivatives=False):
     r"""Shaft speed at which the quadratic characteristic passes through (Q, dp).
 
     Multiplying :math:`\psi(\phi)` by :math:`N^2` with :math:`k = Q/D^3`,
@@ -259,7 +259,7 @@ def speed(volume_flow, pressure_rise, density, diameter, coefficients, derivativ
     --------
     With k = 100 and g = 20000 the quadratic is N^2 + 100 N - 20000 = (N - 100)(N + 200):
 
-    >>> round(float(speed(0.1, 200.0, 1.0, 0.1, (1.0, 1.0, 0.0))), 9)
+    >>> round(float(shaft_speed(0.1, 200.0, 1.0, 0.1, (1.0, 1.0, 0.0))), 9)
     100.0
     """
     c0, c1, c2 = (np.asarray(c, float) for c in coefficients)
@@ -294,7 +294,7 @@ def speed(volume_flow, pressure_rise, density, diameter, coefficients, derivativ
     return n, {key: np.broadcast_to(val, shape).copy() for key, val in d_out.items()}
 
 
-def efficiency(flow_coefficient, peak_efficiency, peak_flow_coefficient, efficiency_falloff,
+def map_efficiency(flow_coefficient, peak_efficiency, peak_flow_coefficient, efficiency_falloff,
                derivatives=False):
     r"""Fan efficiency as a parabola about its peak.
 
@@ -330,7 +330,7 @@ def efficiency(flow_coefficient, peak_efficiency, peak_flow_coefficient, efficie
     --------
     At half the peak flow: 0.8 (1 - 0.8 * 0.25) = 0.64 (by hand).
 
-    >>> round(float(efficiency(0.15, 0.8, 0.3, 0.8)), 12)
+    >>> round(float(map_efficiency(0.15, 0.8, 0.3, 0.8)), 12)
     0.64
     """
     phi, pk = np.asarray(flow_coefficient, float), np.asarray(peak_efficiency, float)
@@ -565,7 +565,7 @@ def fit_points(volume_flow, pressure_rise, speed, density, diameter, efficiency=
         \min_{c}\sum_i\left(\psi_i - c_0 - c_1\phi_i - c_2\phi_i^2\right)^2,\qquad
         \min_{e}\sum_i\left(\eta_i - e_0 - e_1\phi_i - e_2\phi_i^2\right)^2 .
 
-    The efficiency quadratic is converted to the peak form of :func:`efficiency`:
+    The efficiency quadratic is converted to the peak form of :func:`map_efficiency`:
     :math:`\phi_{pk} = -e_1/(2 e_2)`, :math:`\eta_{pk} = e_0 - e_1^2/(4 e_2)`,
     :math:`f = -e_2\phi_{pk}^2/\eta_{pk}`.
 
@@ -644,7 +644,7 @@ def fit_points(volume_flow, pressure_rise, speed, density, diameter, efficiency=
         if arr.size not in (1, q.size):
             raise ValueError(f"{name}: has {arr.size} values, expected 1 or {q.size} (one per point)")
     a = {name: np.broadcast_to(arr, q.shape) for name, arr in arrays.items()}
-    phi = flow_coefficient(a['volume_flow'], a['speed'], a['diameter'])
+    phi = flow_coefficient_of(a['volume_flow'], a['speed'], a['diameter'])
     psi = pressure_coefficient(a['pressure_rise'], a['density'], a['speed'], a['diameter'])
     if efficiency is not None:
         eta = a['efficiency']

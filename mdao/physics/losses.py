@@ -20,7 +20,7 @@ def _angle(value):
     return value
 
 
-def _ratio(name, value):
+def _fraction(name, value):
     value = np.asarray(value, dtype=float)
     bad = ~((value > 0.0) & (value <= 1.0))
     if np.any(bad):
@@ -68,7 +68,7 @@ def gradual_contraction(total_angle, area_ratio, derivatives=False):
     >>> round(float(gradual_contraction(np.radians(10.0), 0.25)), 4)
     0.0523
     """
-    theta, r = _angle(total_angle), _ratio("area_ratio", area_ratio)
+    theta, r = _angle(total_angle), _fraction("area_ratio", area_ratio)
     half_sin = np.sin(0.5 * theta)
     narrow = theta <= _SWITCH
     shape = np.where(narrow, 0.8 * half_sin, 0.5 * np.sqrt(half_sin))
@@ -114,7 +114,7 @@ def gradual_expansion(total_angle, area_ratio, derivatives=False):
     >>> round(float(gradual_expansion(np.radians(10.0), 0.25)), 6)
     0.127465
     """
-    theta, r = _angle(total_angle), _ratio("area_ratio", area_ratio)
+    theta, r = _angle(total_angle), _fraction("area_ratio", area_ratio)
     half_sin = np.sin(0.5 * theta)
     narrow = theta <= _SWITCH
     shape = np.where(narrow, 2.6 * half_sin, 1.0)
@@ -156,7 +156,7 @@ def sudden_expansion(area_ratio, derivatives=False):
     >>> float(sudden_expansion(0.25))
     0.5625
     """
-    r = _ratio("area_ratio", area_ratio)
+    r = _fraction("area_ratio", area_ratio)
     k = (1.0 - r) ** 2
     if not derivatives:
         return k

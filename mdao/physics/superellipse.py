@@ -28,7 +28,7 @@ def _shape_factor(n, derivatives=False):
     return g, 2.0 / n**2 * (digamma(1.0 + 2.0 / n) - digamma(1.0 + 1.0 / n))
 
 
-def area(a, b, n, derivatives=False):
+def enclosed_area(a, b, n, derivatives=False):
     r"""Area enclosed by the super-ellipse, exactly.
 
     .. math:: A = 4ab\,\frac{\Gamma(1 + 1/n)^2}{\Gamma(1 + 2/n)}
@@ -60,7 +60,7 @@ def area(a, b, n, derivatives=False):
     --------
     A 20:1 slot with n = 10; 80 Gamma(1.1)**2 / Gamma(1.2) = 78.85855795620065:
 
-    >>> round(float(area(20.0, 1.0, 10.0)), 12)
+    >>> round(float(enclosed_area(20.0, 1.0, 10.0)), 12)
     78.858557956201
     """
     a, b = _check("a", a, 0.0), _check("b", b, 0.0)

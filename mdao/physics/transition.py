@@ -150,7 +150,7 @@ def stations(fan_diameter, slot_width, slot_height, length, slot_exponent,
         a1, b1, da1, db1 = superellipse.semi_axes(area1, aspect1, n1, derivatives=True)
         a = np.broadcast_to(0.5 * d * (1.0 - t) + a1 * t, shape)
         b = np.broadcast_to(0.5 * d * (1.0 - t) + b1 * t, shape)
-        area, area_a, area_b, area_n = superellipse.area(a, b, n, derivatives=True)
+        area, area_a, area_b, area_n = superellipse.enclosed_area(a, b, n, derivatives=True)
         # outlet semi-axes against the inputs: through area1 = w h and aspect1 = w / h
         d1 = {"slot_width": (h, 1.0 / h), "slot_height": (w, -w / h**2)}
         d_a, d_b = {}, {}

@@ -31,7 +31,7 @@ References
 import numpy as np
 
 from mdao import constraints, parameters
-from mdao.case.schema import kind_of
+from mdao.case.schema import dimension_of
 from mdao.optimum.solve import feasibility, read_values
 from mdao.physics import chain
 from mdao.units import SI_UNITS
@@ -84,7 +84,7 @@ def unit_label(key):
     try:
         unit = parameters.parameter(key).unit
     except KeyError:
-        unit = SI_UNITS[kind_of(key)]
+        unit = SI_UNITS[dimension_of(key)]
     return (unit or "-").replace("revolution/s", "rev/s")
 
 
@@ -297,12 +297,12 @@ def post_optimal_derivatives(case, outcome, keys=None, step=POST_OPTIMAL_STEP, p
 
 # --- post-optimal derivatives from the multipliers ----------------------------------------------
 def _active_rows(case, outcome):
-    """Active constraints as (quantity, index, kind) with kind 'eq' (the pressure balance),
+    """Active constraints as (quantity, index, role) with role 'eq' (the pressure balance),
     'dv' (a design-variable bound) or 'out' (an output constraint)."""
     rows = []
     for con, i in constraints.active_rows(case, outcome.values):
-        kind = "eq" if con.equals is not None else ("dv" if con.design_variable else "out")
-        rows.append((con.quantity, i, kind))
+        role = "eq" if con.equals is not None else ("dv" if con.design_variable else "out")
+        rows.append((con.quantity, i, role))
     return rows
 
 
@@ -350,12 +350,12 @@ def multiplier_derivatives(case, outcome, keys=None):
     nx = (1 if slot_free else 0) + 2 * len(blow)
     grad = xrow("mission_energy_saving", 0)
     a_rows, p_rows = [], []
-    for name, i, kind in rows:
-        if kind == "eq":  # g = dp_fan - dp_required
+    for name, i, role in rows:
+        if role == "eq":  # g = dp_fan - dp_required
             r = -xrow("required_pressure_rise", i)
             r[(1 if slot_free else 0) + len(blow) + list(blow).index(i)] += 1.0
             p_rows.append({n: -block("required_pressure_rise", n)[i] for n in pnames})
-        elif kind == "dv":
+        elif role == "dv":
             r = np.zeros(nx)
             if name == "slot_ratio":
                 r[0] = 1.0
