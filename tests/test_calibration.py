@@ -7,12 +7,16 @@ ICAO Doc 7488 / U.S. Standard Atmosphere 1976 for the viscosity behind the Reyno
 import importlib.util
 import json
 import os
-import tomllib
 import warnings
 from pathlib import Path
 
 import numpy as np
 import pytest
+
+try:
+    import tomllib
+except ModuleNotFoundError:  # Python 3.10
+    import tomli as tomllib
 
 from mdao.case.fragment import FragmentError
 
@@ -391,7 +395,29 @@ def test_load_fragment_rejects_inconsistent_uncertainty(tmp_path):
 def test_summary_table():
     result = calibrate(read_runs(DEMO_CSV))
     text = format_summary(result)
-    assert "duct.jet_loss_factor" in text and "95 % interval" in text
-    assert text.splitlines()[-1] == CAUTION
-    assert CAUTION == ("Preliminary design estimates: not airworthiness evidence; regulations, "
-                       "the certifying authority and licensed engineering practice govern.")
+    lines = text.splitlines()
+    assert lines[-1] == CAUTION
+    # each fitted constant's row: the fit's value and standard error, and the 95 % interval
+    # value -/+ t(0.975, dof of its fit) * stderr (Student's t quantile from scipy)
+    from scipy import stats
+    fitted = 0
+    for fit in result["fits"].values():
+        t = stats.t.ppf(0.975, fit["dof"])
+        for key, entry in fit["parameters"].items():
+            if key not in result["constants"] or entry.get("fixed"):
+                continue        # the lift fit's intercept is not a model constant
+            row = next(line for line in lines if line.split()[:1] == [key])
+            value, stderr, low, high = (float(x) for x in
+                                        row.replace("[", " ").replace(",", " ")
+                                        .replace("]", " ").split()[1:5])
+            assert value == pytest.approx(entry["value"], rel=1e-4)
+            assert stderr == pytest.approx(entry["stderr"], rel=1e-2)
+            assert low == pytest.approx(entry["value"] - t * entry["stderr"], rel=1e-4)
+            assert high == pytest.approx(entry["value"] + t * entry["stderr"], rel=1e-4)
+            fitted += 1
+    assert fitted == sum(not e.get("fixed") for e in result["constants"].values()) >= 6
+    # each fit's row: runs, degrees of freedom and R^2 as computed
+    for name, fit in result["fits"].items():
+        row = next(line for line in lines if line.split()[:1] == [name]).split()
+        assert (int(row[1]), int(row[2])) == (fit["runs"], fit["dof"])
+        assert float(row[3]) == pytest.approx(fit["r2"], abs=6e-6)

@@ -3,7 +3,7 @@
 import numpy as np
 from mdao import om
 
-from mdao.components._sparsity import add_parameter_inputs
+from mdao.components.common import add_parameter_inputs
 from mdao.physics import airfoil as phys
 
 AIRFOIL_CITE = """@incollection{englar2001,

@@ -2,7 +2,7 @@
 import numpy as np
 from mdao import om
 
-from mdao.components._sparsity import add_parameter_inputs
+from mdao.components.common import add_parameter_inputs
 from mdao.physics.atmosphere import isa
 
 ISA_CITE = """@manual{icao7488,

@@ -11,7 +11,7 @@ import numpy as np
 from mdao import om
 
 from mdao import parameters as registry
-from mdao.components._sparsity import blowing_flags, column, diagonal
+from mdao.components.common import blowing_flags, column, diagonal
 from mdao.physics import chain
 
 #: Node inputs that are design variables rather than model parameters: start values.

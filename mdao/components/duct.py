@@ -6,7 +6,7 @@ each node from the transition stations, friction and form losses.
 import numpy as np
 from mdao import om
 
-from mdao.components._sparsity import add_parameter_inputs, broadcast, column, diagonal, full
+from mdao.components.common import add_parameter_inputs, broadcast, column, diagonal, full
 from mdao.physics import duct
 
 SCALARS = ("slot_ratio", "suction_ratio", "suction_inlet_loss", "bend_loss", "extra_loss",

@@ -2,7 +2,7 @@
 import numpy as np
 from mdao import om
 
-from mdao.components._sparsity import add_parameter_inputs, broadcast, column, diagonal
+from mdao.components.common import add_parameter_inputs, broadcast, column, diagonal
 from mdao.physics import jet
 
 NODE_INPUTS = ("momentum_coefficient", "speed", "density", "speed_of_sound")

@@ -9,7 +9,7 @@ aircraft's mass build-up charges.
 import numpy as np
 from mdao import om
 
-from mdao.components._sparsity import add_parameter_inputs, blowing_flags, broadcast, column
+from mdao.components.common import add_parameter_inputs, blowing_flags, broadcast, column
 from mdao.parameters import MASS_PARAMETERS
 from mdao.physics import mass as phys
 

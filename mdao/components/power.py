@@ -3,7 +3,7 @@
 import numpy as np
 from mdao import om
 
-from mdao.components._sparsity import (add_parameter_inputs, blowing_flags, broadcast, column,
+from mdao.components.common import (add_parameter_inputs, blowing_flags, broadcast, column,
                                       diagonal)
 from mdao.physics import power
 

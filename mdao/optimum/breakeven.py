@@ -29,19 +29,23 @@ def admissible_range(case, params):
 
     Lower: the calibrated minimum, raised to where the required rise reaches the fan's minimum
     (lumped model only; other models filter on the evaluated rise). Upper: the calibrated maximum,
-    lowered to the jet Mach limit and to the fan's maximum pressure rise (lumped).
+    lowered to the jet Mach limit and to the fan's maximum pressure rise (lumped). The bounds are
+    those of the declared constraints (:mod:`mdao.constraints`), solved for the momentum
+    coefficient.
     """
-    lo, hi = case.airfoil["momentum_coefficient_range"]
+    lo, hi = constraints.bounds(constraints.BY_NAME["calibrated momentum coefficient range"], case)
+    _, max_jet_mach = constraints.bounds(constraints.BY_NAME["jet Mach limit"], case)
+    min_rise, max_rise = constraints.bounds(constraints.BY_NAME["fan pressure rise limits"], case)
     atm = atmosphere.isa(params["altitude"])
     q = 0.5 * atm.density * params["speed"] ** 2
     r = params["slot_ratio"]
-    mach_cap = 2 * r * (case.slot["max_jet_mach"] * atm.speed_of_sound / params["speed"]) ** 2
+    mach_cap = 2 * r * (max_jet_mach * atm.speed_of_sound / params["speed"]) ** 2
     low = np.full(np.shape(q), lo)
     high = np.minimum(hi, mach_cap)
     if case.duct["model"] == "lumped":
         kj, ki = params["jet_loss_factor"], params["freestream_assist"]
-        low = np.maximum(low, 2 * r * (ki + case.fan["min_pressure_rise"] / q) / kj)
-        high = np.minimum(high, 2 * r * (ki + case.fan["max_pressure_rise"] / q) / kj)
+        low = np.maximum(low, 2 * r * (ki + min_rise / q) / kj)
+        high = np.minimum(high, 2 * r * (ki + max_rise / q) / kj)
     return low, high
 
 

@@ -38,7 +38,7 @@ from pathlib import Path
 
 import numpy as np
 
-from mdao import CAUTION, __version__
+from mdao import CAUTION, __version__, constraints
 
 __all__ = ["optimize_many", "solve_one", "monte_carlo_overrides", "multistart_overrides",
            "optimum_per_sample", "run_many", "summarize", "KINDS"]
@@ -251,7 +251,7 @@ def multistart_overrides(case, starts, seed):
     rng = np.random.default_rng(seed)
     lo, hi = case.airfoil["momentum_coefficient_range"]
     bounds = case.slot["ratio_bounds"]
-    vary = bounds is not None and bounds[1] > bounds[0]
+    vary = constraints.slot_ratio_free(case)
     names = [s["name"] for s in case.segments if s["blowing"]]
     out = []
     for _ in range(starts):

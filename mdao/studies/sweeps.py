@@ -190,7 +190,7 @@ def review_maps(case, outcome, points=31):
         raise ValueError(f"points = {points!r}: allowed >= 2")
     r = case.slot["ratio"]
     bounds = case.slot["ratio_bounds"]
-    rs = np.linspace(*(bounds if bounds is not None and bounds[1] > bounds[0]
+    rs = np.linspace(*(bounds if constraints.slot_ratio_free(case)
                        else (0.5 * r, min(2 * r, 0.2))), points)
     if case.duct["model"] == "lumped":
         kj = case.duct["jet_loss_factor"]

@@ -1,4 +1,5 @@
-"""Helpers shared by node-wise components: sparsity patterns and per-node flags."""
+"""Helpers shared by the components: sparsity patterns, per-node flags and the inputs of
+declared model parameters."""
 import numpy as np
 
 
