@@ -1,7 +1,6 @@
-"""The command line end to end: bundled cases, bad input (exit 2), no convergence (exit 3)."""
+"""The command line in-process (mdao.cli.main): bundled cases, bad input (exit 2), no convergence
+(exit 3). Through the installed console script and ``python -m mdao``: tests/test_commands.py."""
 import json
-import subprocess
-import sys
 from pathlib import Path
 
 import pytest
@@ -37,14 +36,6 @@ def test_optimize_bundled_case(name, tmp_path, capsys):
 def test_evaluate_start_point(capsys):
     assert main(["evaluate", str(CASES / "survey-drone.toml")]) == 0
     assert "start point (not optimized)" in capsys.readouterr().out
-
-
-def test_python_dash_m_entry_point(tmp_path):
-    done = subprocess.run([sys.executable, "-m", "mdao", "optimize", str(CASES / "survey-drone.toml")],
-                          capture_output=True, text=True, cwd=tmp_path,
-                          env={"OPENMDAO_REPORTS": "0", "PATH": "/usr/bin:/bin"})
-    assert done.returncode == 0, done.stderr
-    assert "optimum" in done.stdout
 
 
 def test_not_converged_exits_3(tmp_path, capsys):

@@ -55,39 +55,31 @@ COMMANDS = {
     **{f"bad: {label}": (["optimize", f"bad-{i}.toml"], f"bad-{i}")
        for i, label in enumerate(BAD_CASES)},
     "version": (["--version"], None),
+    "python -m mdao": (["optimize", "missing.toml"], None),
     **{f"help {sub}": ([sub, "--help"], None) for sub in ("",) + SUBCOMMANDS},
 }
 
 
 @pytest.fixture(scope="module")
 def ran(tmp_path_factory):
-    """``{name: (completed process, output folder)}``, every command started at once on a pool of
-    two; a test waits only for its own command."""
+    """``ran(name)`` -> (completed process, output folder or None): every command is queued at
+    once on a pool of two; a test waits only for its own."""
     work = tmp_path_factory.mktemp("commands")
     (work / "not-converging.toml").write_text(NOT_CONVERGING)
     for i, (text, _) in enumerate(BAD_CASES.values()):
         (work / f"bad-{i}.toml").write_text(text)
     env = dict(os.environ, OPENMDAO_REPORTS="0", OPENMDAO_WORKDIR=str(work), MPLBACKEND="Agg")
 
-    def one(args, out):
+    def one(name, args, out):
         extra = ["--out", str(work / out)] if out else []
-        argv = [str(BLOWNWING)] + [a for a in args if a] + extra
+        script = [sys.executable, "-m", "mdao"] if name == "python -m mdao" else [str(BLOWNWING)]
+        argv = script + [a for a in args if a] + extra
         return run(argv, capture_output=True, text=True, cwd=work, env=env, timeout=300), \
             (work / out if out else None)
 
     with ThreadPoolExecutor(max_workers=2) as pool:
-        futures = {name: pool.submit(one, *spec) for name, spec in COMMANDS.items()}
-        yield {name: _Waiting(f) for name, f in futures.items()}
-
-
-class _Waiting:
-    """One command's outcome, waited for on first use."""
-
-    def __init__(self, future):
-        self._future = future
-
-    def __iter__(self):
-        return iter(self._future.result())
+        futures = {name: pool.submit(one, name, *spec) for name, spec in COMMANDS.items()}
+        yield lambda name: futures[name].result()
 
 
 @pytest.fixture(scope="module")
@@ -105,7 +97,7 @@ def _ok(done):
 
 
 def test_optimize(ran, survey_optimum):
-    done, out = ran["optimize"]
+    done, out = ran("optimize")
     _ok(done)
     assert "optimum" in done.stdout and "mission energy saved" in done.stdout
     data = json.loads((out / "results.json").read_text())
@@ -120,7 +112,7 @@ def test_evaluate(ran):
     from mdao.case import load_case
     from mdao.optimum import evaluate_start_point
 
-    done, out = ran["evaluate"]
+    done, out = ran("evaluate")
     _ok(done)
     assert "start point (not optimized)" in done.stdout
     data = json.loads((out / "results.json").read_text())
@@ -133,7 +125,7 @@ def test_evaluate(ran):
 def test_calibrate(ran):
     from mdao.studies.calibration import calibrate, read_runs
 
-    done, out = ran["calibrate"]
+    done, out = ran("calibrate")
     _ok(done)
     assert {p.name for p in out.iterdir()} == {"calibration.json", "calibration.toml"}  # no PNG
     data = json.loads((out / "calibration.json").read_text())
@@ -145,7 +137,7 @@ def test_calibrate(ran):
 
 
 def test_review(ran, survey_optimum):
-    done, out = ran["review"]
+    done, out = ran("review")
     _ok(done)
     assert {p.name for p in out.iterdir()} == {"review.json", "review.md"}       # --no-plots
     data = json.loads((out / "review.json").read_text())
@@ -157,7 +149,7 @@ def test_review(ran, survey_optimum):
 
 
 def test_many_multistart(ran, survey_optimum):
-    done, out = ran["many"]
+    done, out = ran("many")
     _ok(done)
     data = json.loads((out / "many.json").read_text())
     assert data["kind"] == "multistart" and data["samples"] == 2 and data["workers"] is None
@@ -171,7 +163,7 @@ def test_many_multistart(ran, survey_optimum):
 
 @pytest.mark.parametrize("label", list(BAD_CASES))
 def test_bad_case_exits_2(ran, label):
-    done, out = ran[f"bad: {label}"]
+    done, out = ran(f"bad: {label}")
     assert done.returncode == 2
     assert BAD_CASES[label][1] in done.stderr, done.stderr
     assert "Traceback" not in done.stderr
@@ -180,7 +172,7 @@ def test_bad_case_exits_2(ran, label):
 
 
 def test_not_converged_exits_3(ran):
-    done, out = ran["not converging"]
+    done, out = ran("not converging")
     assert done.returncode == 3, done.stderr
     assert "NOT CONVERGED" in done.stderr and "Traceback" not in done.stderr
     assert "optimum" not in done.stdout and "mission energy saved" not in done.stdout
@@ -190,14 +182,21 @@ def test_not_converged_exits_3(ran):
 def test_version(ran):
     from importlib.metadata import version
 
-    done, _ = ran["version"]
+    done, _ = ran("version")
     _ok(done)
     assert done.stdout.strip() == f"blownwing {mdao.__version__}" == f"blownwing {version('blownwing')}"
 
 
+def test_python_dash_m(ran):
+    """``python -m mdao`` is the same command line, its exit code passed on (2: bad input)."""
+    done, _ = ran("python -m mdao")
+    assert done.returncode == 2
+    assert "missing.toml" in done.stderr and "Traceback" not in done.stderr
+
+
 @pytest.mark.parametrize("sub", ("",) + SUBCOMMANDS)
 def test_help(ran, sub):
-    done, _ = ran[f"help {sub}"]
+    done, _ = ran(f"help {sub}")
     _ok(done)
     assert done.stdout.startswith(f"usage: blownwing {sub}".rstrip())
     if sub:

@@ -9,9 +9,9 @@ def _f(value, fmt):
 def segment_table(outcome, case):
     """The per-segment table of an optimum (or of an evaluated start point)."""
     cols = [("segment", 12, "s"), ("C_mu", 8, ".4f"), ("dP fan", 9, ".0f"), ("V_jet", 7, ".1f"),
-            ("fan rpm", 9, ".0f"), ("eta_fan", 7, ".3f"), ("P_fan", 9, ".1f"),
-            ("net save", 10, ".1f"), ("eta_be", 7, ".3f")]
-    units = ["", "-", "Pa", "m/s", "rpm", "-", "W", "W", "-"]
+            ("fan rpm", 9, ".0f"), ("eta_fan", 7, ".3f"), ("fan shaft", 10, ".1f"),
+            ("fan electric", 12, ".1f"), ("net save", 10, ".1f"), ("eta_be", 7, ".3f")]
+    units = ["", "-", "Pa", "m/s", "rpm", "-", "W", "W", "W", "-"]
     head = " ".join(f"{c[0]:>{c[1]}}" for c in cols)
     unit_row = " ".join(f"{u:>{c[1]}}" for u, c in zip(units, cols))
     lines = [head, unit_row, "-" * len(head)]
@@ -20,7 +20,8 @@ def segment_table(outcome, case):
         vals = [s["name"], s["momentum_coefficient"] if on else None,
                 s["fan_pressure_rise_Pa"] if on else None, s["jet_velocity_m_s"] if on else None,
                 s["fan_speed_rpm"], s["fan_efficiency"], s["fan_shaft_power_W"] if on else None,
-                s["net_power_saving_W"], s["break_even_fan_efficiency"]]
+                s["fan_electric_power_W"] if on else None, s["net_power_saving_W"],
+                s["break_even_fan_efficiency"]]
         cells = []
         for v, (name, width, fmt) in zip(vals, cols):
             cells.append(f"{v:>{width}}" if fmt == "s" else f"{_f(v, fmt):>{width}}")

@@ -10,6 +10,7 @@ from pathlib import Path
 import numpy as np
 
 from mdao.files import write_atomic, write_json
+from mdao.parameters import parameter
 
 KWH = 3.6e6
 
@@ -102,9 +103,9 @@ def review_markdown(data, figures=(), note=None):
               f"Slot ratio {o['slot_ratio']:.5f} (slot height {o['slot_height_m'] * 1e3:.2f} mm).",
               "",
               "| segment | blowing | C_mu [-] | fan rise [Pa] | jet speed [m/s] | jet Mach [-] "
-              "| fan eff. [-] | fan power [W] | net saving [W] | energy [kWh] | break-even eff. [-] "
-              "| binding constraints |",
-              "|---|---|---|---|---|---|---|---|---|---|---|---|"]
+              "| fan eff. [-] | fan shaft power [W] | fan electric power [W] | net saving [W] "
+              "| energy [kWh] | break-even eff. [-] | binding constraints |",
+              "|---|---|---|---|---|---|---|---|---|---|---|---|---|"]
     for s in o["segments"]:
         on = s["blowing"]
         lines.append(
@@ -112,6 +113,7 @@ def review_markdown(data, figures=(), note=None):
             f"| {_g(s['fan_pressure_rise_Pa'] if on else None, '.0f')} "
             f"| {_g(s['jet_velocity_m_s'] if on else None, '.1f')} "
             f"| {_g(s['jet_mach'] if on else None, '.3f')} | {_g(s['fan_efficiency'], '.3f')} "
+            f"| {_g(s['fan_shaft_power_W'] if on else None, '.1f')} "
             f"| {_g(s['fan_electric_power_W'], '.1f')} | {_g(s['net_power_saving_W'], '.1f')} "
             f"| {s['energy_saving_J'] / KWH:.4f} | {_g(s['break_even_fan_efficiency'], '.3f')} "
             f"| {'; '.join(s['active_constraints']) or '-'}"
@@ -340,10 +342,12 @@ def _fig_map(plt, data, m):
 
 
 def _axis_label(key):
-    return {"slot.ratio": "slot ratio h/c [-]", "duct.jet_loss_factor": "jet loss factor K_j [-]",
-            "duct.extra_loss": "duct loss adder (duct.extra_loss) [-]",
-            "airfoil.slot_drag": "slot penalty intercept, airfoil.slot_drag [-]",
-            "airfoil.drag_per_momentum": "drag per momentum coefficient beta [-]"}.get(key, f"{key} [-]")
+    """A model parameter's description and unit, from its declaration (:mod:`mdao.parameters`)."""
+    try:
+        p = parameter(key)
+    except KeyError:
+        return f"{key} [-]"
+    return f"{p.description} ({key}) [{p.unit or '-'}]"
 
 
 def _fig_uncertainty(plt, data):
