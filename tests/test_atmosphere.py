@@ -20,9 +20,12 @@ TABLE = np.array([
 GRID = np.linspace(0.0, 20000.0, 200)
 
 
-def test_constants():
-    assert GAMMA == 1.4 and GAS_CONSTANT == 287.05287
-    assert CP == pytest.approx(1004.685045, rel=1e-12)
+def test_gas_constants_against_their_definitions():
+    """The specific gas constant from the U.S. Standard Atmosphere 1976's universal gas constant
+    R* = 8.31432 J/(mol K) and molar mass M0 = 0.0289644 kg/mol (7e-7 relative above ICAO's
+    287.05287, which the module uses); cp = gamma R / (gamma - 1) for a calorically perfect gas."""
+    assert GAS_CONSTANT == pytest.approx(8.31432 / 0.0289644, rel=1e-6)
+    assert CP == pytest.approx(GAMMA * GAS_CONSTANT / (GAMMA - 1.0), rel=1e-14)
 
 
 def test_reference_table():

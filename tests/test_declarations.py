@@ -167,3 +167,13 @@ def test_case_file_page_lists_every_parameter_and_setting():
     for table, entries in SCHEMA.items():
         missing += [f"{table}.{k}" for k in entries if f"| `{k}` |" not in text]
     assert missing == []
+
+
+def test_a_parameter_the_models_do_not_use_is_refused(cases_dir):
+    """The lumped duct's wetted-area ratio in a geometric-duct case would be ignored: refused,
+    naming the key and the models."""
+    raw = _raw(cases_dir / "coastal-patrol.toml")
+    raw.setdefault("mass", {})["duct_wetted_ratio"] = 2.0
+    with pytest.raises(CaseError, match=r"mass\.duct_wetted_ratio is given but not used with "
+                                        r"duct\.model = \"geometric\""):
+        parse_case(raw, base=cases_dir)

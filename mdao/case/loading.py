@@ -20,7 +20,7 @@ import numpy as np
 from mdao.case.errors import CaseError
 from mdao.case.fragment import load_fragment
 from mdao.case.schema import DISTRIBUTIONS, REQUIRED, SCHEMA, SEGMENT, TOP_LEVEL, dimension_of
-from mdao.parameters import CHAIN_PARAMETERS, RENAMED, chain_parameters, parameter
+from mdao.parameters import CHAIN_PARAMETERS, PARAMETERS, RENAMED, chain_parameters, parameter
 from mdao.units import UnitError, read_table, to_si
 
 #: Prefix of a one-segment objective, ``"segment:NAME"``.
@@ -254,6 +254,7 @@ def parse_case(raw, base=Path("."), path=None, text=""):
     case = Case(title=raw["title"], segments=segments, calibration=calibration, path=path,
                 text=text, **tables)
     _check_consistency(case, base)
+    _check_unused(case, raw)
     case.uncertainty = _read_uncertainty(raw.get("uncertainty", {}), case)
     return case
 
@@ -282,6 +283,19 @@ def _apply_calibration(raw, base):
         raw["airfoil"]["momentum_coefficient_range"] = list(cmu)
     frag["file"] = str(fpath)
     return frag
+
+
+def _check_unused(case, raw):
+    """Refuse a model parameter that the case gives but its models do not use (it would be
+    ignored without a word)."""
+    d, f = case.duct["model"], case.fan["model"]
+    for p in PARAMETERS:
+        if p.per_segment or not isinstance(raw.get(p.table), dict) or p.field not in raw[p.table]:
+            continue
+        if not p.used_by(d, f):
+            raise CaseError(f"{p.key} is given but not used with duct.model = \"{d}\" and "
+                            f"fan.model = \"{f}\" ({p.description}); remove it or change the "
+                            "model")
 
 
 def _check_consistency(case, base):

@@ -12,16 +12,33 @@
 
 The console text is :func:`mdao.report.calibration.format_summary` (the report layer).
 """
-from mdao.case.fragment import FragmentError, load_fragment
-from mdao.studies.calibration.files import calibrate_file
-from mdao.studies.calibration.fitting import (CAUTION, CONSTANT_ORDER, MAX_CONDITION,
-                                              MIN_RELATIVE_SPREAD, OUTLIER_LIMIT, PLAUSIBLE,
-                                              CalibrationWarning, calibrate, least_squares)
-from mdao.studies.calibration.fragment import fragment_text
-from mdao.studies.calibration.runs import (COLUMNS, CalibrationError, atmosphere_state,
-                                           check_runs, derived, fit_plan, read_runs)
+import importlib
 
-__all__ = ["CalibrationError", "CalibrationWarning", "PLAUSIBLE", "CAUTION", "CONSTANT_ORDER",
-           "OUTLIER_LIMIT", "MIN_RELATIVE_SPREAD", "MAX_CONDITION", "COLUMNS", "read_runs",
-           "check_runs", "derived", "fit_plan", "atmosphere_state", "least_squares", "calibrate",
-           "calibrate_file", "load_fragment", "FragmentError", "fragment_text"]
+#: Public name -> the module that holds it. Loaded on first use (PEP 562), so that reading the
+#: runs table or catching its error does not import SciPy's statistics.
+_WHERE = {
+    "FragmentError": "mdao.case.fragment", "load_fragment": "mdao.case.fragment",
+    "calibrate_file": "mdao.studies.calibration.files",
+    "CAUTION": "mdao.studies.calibration.fitting",
+    "CONSTANT_ORDER": "mdao.studies.calibration.fitting",
+    "MAX_CONDITION": "mdao.studies.calibration.fitting",
+    "MIN_RELATIVE_SPREAD": "mdao.studies.calibration.fitting",
+    "OUTLIER_LIMIT": "mdao.studies.calibration.fitting",
+    "PLAUSIBLE": "mdao.studies.calibration.fitting",
+    "CalibrationWarning": "mdao.studies.calibration.fitting",
+    "calibrate": "mdao.studies.calibration.fitting",
+    "least_squares": "mdao.studies.calibration.fitting",
+    "fragment_text": "mdao.studies.calibration.fragment",
+    "COLUMNS": "mdao.studies.calibration.runs", "CalibrationError": "mdao.studies.calibration.runs",
+    "atmosphere_state": "mdao.studies.calibration.runs",
+    "check_runs": "mdao.studies.calibration.runs", "derived": "mdao.studies.calibration.runs",
+    "fit_plan": "mdao.studies.calibration.runs", "read_runs": "mdao.studies.calibration.runs",
+}
+
+__all__ = sorted(_WHERE)
+
+
+def __getattr__(name):
+    if name in _WHERE:
+        return getattr(importlib.import_module(_WHERE[name]), name)
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
