@@ -33,8 +33,9 @@ class Constraint:
     quantity : str
         Promoted name of the bounded output or design variable; ``pressure_balance`` is the fan
         pressure rise minus the required pressure rise.
-    lower, upper : str or None
-        Case key paths of the bounds; ``"key[0]"`` and ``"key[1]"`` take the ends of a pair.
+    lower, upper : str, float or None
+        Case key paths of the bounds (``"key[0]"`` and ``"key[1]"`` take the ends of a pair),
+        or a number.
     equals : float or None
         Value of an equality constraint.
     per_segment : bool
@@ -44,6 +45,9 @@ class Constraint:
         A bound on a design variable (the driver holds it) rather than an output constraint.
     duct_models, fan_models : tuple of str
         The models it applies to.
+    scale_by : str or None
+        A quantity whose largest magnitude over the blowing segments sizes the constraint (the
+        optimizer's ``ref``, and the margin of a bound at zero) instead of its bounds.
     condition : str or None
         A further condition on the case: ``"slot ratio free"`` (the slot ratio is a design
         variable) or ``"minimum slot height"`` (the case sets one).
@@ -58,6 +62,7 @@ class Constraint:
     design_variable: bool = False
     duct_models: tuple = ("lumped", "geometric")
     fan_models: tuple = ("constant", "map")
+    scale_by: str = None
     condition: str = None
 
 
@@ -70,8 +75,10 @@ CONSTRAINTS = (
                lower="airfoil.momentum_coefficient_range[0]",
                upper="airfoil.momentum_coefficient_range[1]", design_variable=True),
     Constraint("fan pressure rise limits", "fan_pressure_rise", lower="fan.min_pressure_rise",
-               upper="fan.max_pressure_rise", design_variable=True),
-    Constraint("pressure balance", "pressure_balance", equals=0.0),
+               upper="fan.max_pressure_rise", design_variable=True,
+               scale_by="required_pressure_rise"),
+    Constraint("pressure balance", "pressure_balance", equals=0.0,
+               scale_by="required_pressure_rise"),
     Constraint("jet Mach limit", "jet_mach", upper="slot.max_jet_mach"),
     Constraint("fan speed limit", "fan_speed", upper="fan.max_speed", fan_models=("map",)),
     Constraint("fan map flow range", "flow_coefficient", lower="fan.flow_coefficient_range[0]",
@@ -126,6 +133,8 @@ def applicable(case, follow_requirement=False):
 def _bound(case, spec):
     if spec is None:
         return None
+    if isinstance(spec, (int, float)):
+        return float(spec)
     if spec.endswith("]"):
         key, index = spec[:-3], int(spec[-2])
         return float(case.value(key)[index])
@@ -139,17 +148,22 @@ def bounds(constraint, case):
     return _bound(case, constraint.lower), _bound(case, constraint.upper)
 
 
-def reference(constraint, case, required=None):
+def reference(constraint, case, values=None, blowing=None):
     """A value of the constraint's size: the optimizer's ``ref`` for it.
 
-    The larger bound in magnitude; for the pressure balance and the fan pressure rise, the
-    largest required pressure rise of the blowing segments (``required``, per segment), else
-    the fan's maximum pressure rise.
+    The largest magnitude of its ``scale_by`` quantity over the blowing segments (from
+    ``values``), else the larger bound in magnitude (the fan's maximum pressure rise for the
+    pressure balance).
     """
-    if constraint.quantity in ("pressure_balance", "fan_pressure_rise") and required is not None:
-        req = np.abs(np.asarray(required, float)[..., case.blowing])
-        if req.size and np.all(np.isfinite(req)):
-            return max(float(np.max(req)), 1.0)
+    if constraint.scale_by and values is not None and constraint.scale_by in values:
+        v = np.abs(np.asarray(values[constraint.scale_by], float))
+        try:
+            v = np.where(case.blowing if blowing is None else blowing, v, 0.0)
+        except ValueError:  # the last axis is not the segments' (a search grid)
+            pass
+        v = v[np.isfinite(v)]
+        if v.size and v.max() > 0:
+            return float(v.max())
     if constraint.quantity == "pressure_balance":
         return float(case.fan["max_pressure_rise"])
     lo, hi = bounds(constraint, case)
@@ -177,10 +191,9 @@ def margin(constraint, case, values, blowing=None):
     lo, hi = bounds(constraint, case)
     with np.errstate(invalid="ignore", divide="ignore"):
         if constraint.equals is not None:
-            ref = reference(constraint, case, values.get("required_pressure_rise"))
-            m = -np.abs(x - constraint.equals) / ref
+            m = -np.abs(x - constraint.equals) / reference(constraint, case, values, blowing)
         else:
-            big = reference(constraint, case)
+            big = reference(constraint, case, values, blowing)
             m = np.full(x.shape, np.inf)
             if lo is not None:
                 m = np.minimum(m, (x - lo) / (abs(lo) or big))

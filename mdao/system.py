@@ -12,6 +12,7 @@ from mdao import om
 
 from mdao import constraints as design_constraints
 from mdao import parameters as registry
+from mdao.physics import chain
 
 from mdao.components.airfoil import AirfoilComp
 from mdao.components.atmosphere import AtmosphereComp
@@ -130,22 +131,40 @@ def set_case_values(prob, case, start=True, follow_requirement=False):
             prob.set_val("fan_pressure_rise", dp)
 
 
+#: Momentum coefficients per segment tried for the start point (log-spaced over the range).
+START_GRID = 61
+
+
 def start_point(case):
     """Start values: momentum coefficient per segment and the pressure rise it requires.
 
-    The start momentum coefficient is the segment's own when given, else the geometric mean of
-    the calibrated range; non-blowing segments get zero. The start pressure rise is the
-    requirement at that point, held within the fan's allowed range.
+    A segment's own ``momentum_coefficient`` is used when given. Otherwise the start is the
+    best point of a log-spaced grid over the calibrated range, each segment at the case's slot
+    ratio with the fan giving the required rise: the largest net saving among the points that
+    meet every per-segment constraint (:mod:`mdao.constraints`), else the geometric mean of the
+    range. The energy balance splits the admissible momentum coefficients into separate
+    branches (a low-blowing one and one where the fan does enough work); a start in the best
+    branch keeps the gradient optimizer out of the others' local optima. Non-blowing segments
+    get zero. The start pressure rise is the requirement, held within the fan's range.
     """
-    from mdao.physics import chain
-
     lo, hi = case.airfoil["momentum_coefficient_range"]
-    cmu = np.array([s["momentum_coefficient"] or np.sqrt(lo * hi) for s in case.segments])
-    cmu = np.where(case.blowing, cmu, 0.0)
-    out = chain.evaluate(chain_parameters(case, momentum_coefficient=cmu), chain_options(case),
+    grid = np.geomspace(lo, hi, START_GRID)[:, None]
+    out = chain.evaluate(chain_parameters(case, momentum_coefficient=grid), chain_options(case),
                          blowing=case.blowing)
-    dp = np.clip(out["required_pressure_rise"], case.fan["min_pressure_rise"],
-                 case.fan["max_pressure_rise"])
+    out["momentum_coefficient"] = np.broadcast_to(grid, out["net_power_saving"].shape)
+    cons = [c for c in design_constraints.applicable(case, follow_requirement=True)
+            if c.per_segment]
+    ok = design_constraints.holds(case, out, cons)
+    score = np.where(ok & np.isfinite(out["net_power_saving"]), out["net_power_saving"], -np.inf)
+    best = np.where(np.any(np.isfinite(score), axis=0), grid[np.argmax(score, axis=0), 0],
+                    np.sqrt(lo * hi))
+    given = np.array([np.nan if s["momentum_coefficient"] is None else s["momentum_coefficient"]
+                      for s in case.segments])
+    cmu = np.where(np.isnan(given), best, given)
+    cmu = np.where(case.blowing, cmu, 0.0)
+    req = chain.evaluate(chain_parameters(case, momentum_coefficient=cmu), chain_options(case),
+                         blowing=case.blowing)["required_pressure_rise"]
+    dp = np.clip(req, case.fan["min_pressure_rise"], case.fan["max_pressure_rise"])
     return cmu, dp
 
 
@@ -203,18 +222,19 @@ def build_problem(case, follow_requirement=False, driver=True, fused=None):
 def _add_optimization(prob, case, blow, follow):
     """Design variables, constraints (from :mod:`mdao.constraints`), objective and SLSQP."""
     model = prob.model
-    _, dp0 = start_point(case)
-    start = {"fan_pressure_rise": dp0}
+    cmu0, dp0 = start_point(case)
+    start = chain.evaluate(chain_parameters(case, momentum_coefficient=cmu0),
+                           chain_options(case), blowing=case.blowing)
     for con in design_constraints.applicable(case, follow_requirement=follow):
         lower, upper = design_constraints.bounds(con, case)
-        ref = design_constraints.reference(con, case, required=dp0)
+        ref = design_constraints.reference(con, case, start)
         indices = blow if con.per_segment else None
         if con.quantity == "fan_pressure_rise" and follow:  # the fan gives what is required
             model.add_constraint("required_pressure_rise", lower=lower, upper=upper,
                                  indices=indices, ref=ref)
         elif con.design_variable:
             if con.quantity == "fan_pressure_rise":
-                model.set_input_defaults(con.quantity, start[con.quantity], units="Pa")
+                model.set_input_defaults(con.quantity, dp0, units="Pa")
             model.add_design_var(con.quantity, lower=lower, upper=upper, indices=indices,
                                  ref=ref)
         elif con.quantity == "pressure_balance":

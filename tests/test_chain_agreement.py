@@ -40,7 +40,8 @@ RANGES = {"altitude": (0.0, 9000.0), "speed": (25.0, 70.0), "duration": (100.0, 
           "drag_clean": (0.008, 0.015), "slot_drag": (0.0, 0.02),
           "slot_drag_per_ratio": (0.0, 0.5), "drag_per_momentum": (-2.0, -0.8),
           "drag_per_momentum_per_ratio": (-5.0, 5.0), "drag_quadratic": (0.0, 1.0),
-          "lift_per_momentum": (0.0, 5.0), "chain_efficiency": (0.7, 0.9)}
+          "lift_per_momentum": (0.0, 5.0), "chain_efficiency": (0.7, 0.9),
+          "thrust_power_ceiling": (0.6, 1.0)}
 
 
 def _schedule(duct_model, compressible):

@@ -170,3 +170,27 @@ def test_break_even_search_agrees_with_closed_form():
     searched = breakeven._search(case, params, lo, hi)
     closed = breakeven.break_even_efficiency(case)
     np.testing.assert_allclose(searched, closed, rtol=1e-7)
+
+
+def test_energy_margin_by_hand_and_flagged(cases_dir):
+    """The energy margin c P_air + D V of every blowing segment recomputed from the reported
+    air power (Q dP at unit efficiency), drag and speed; the bundled survey optimum returns 1.46
+    times its air power as net thrust power (the linear drag model beyond the first law), and
+    the console says so."""
+    from mdao.case import load_case
+    from mdao.report.console import summary
+    case = load_case(cases_dir / "survey-drone.toml")
+    out = optimize(case)
+    for seg in out.segments:
+        air = seg["volume_flow_m3_s"] * seg["fan_pressure_rise_Pa"]
+        assert seg["air_power_W"] == pytest.approx(air, rel=1e-12)
+        assert seg["air_power_W"] == pytest.approx(
+            seg["fan_shaft_power_W"] * seg["fan_efficiency"], rel=1e-12)
+        margin = 1.0 * air + seg["section_drag_N"] * seg["speed_m_s"]
+        assert seg["energy_margin_W"] == pytest.approx(margin, rel=1e-12)
+        assert -seg["section_drag_N"] * seg["speed_m_s"] / air == pytest.approx(1.46, abs=0.01)
+    text = summary(out, case)
+    assert text.count("WARNING: breaks the energy balance") == 3
+    held = optimize(case.replace({"airfoil.drag_per_momentum": -0.9}))
+    assert all(s["energy_margin_W"] > 0 for s in held.segments)
+    assert "energy balance" not in summary(held, case)

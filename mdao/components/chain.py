@@ -26,7 +26,7 @@ OUTPUT_UNITS = {
     "pressure_coefficient": None, "tip_mach": None, "drag_coefficient": None,
     "section_drag": "N", "clean_section_drag": "N", "drag_saving": "N", "lift_increment": None,
     "propulsion_power_saving": "W", "fan_electric_power": "W", "net_power_saving": "W",
-    "energy_saving": "J"}
+    "energy_margin": "W", "energy_saving": "J"}
 #: Station outputs of the geometric duct: output name -> (station field, units).
 STATION_OUTPUTS = {"station_position": ("position", "m"), "station_area": ("area", "m**2"),
                    "station_perimeter": ("perimeter", "m"),

@@ -55,6 +55,8 @@ class FanComp(om.ExplicitComponent):
         self.add_input('speed_of_sound', 340.294 * ones, units='m/s', desc='inlet speed of sound')
         self.add_output('fan_efficiency', 0.7 * ones, units=None, desc='fan efficiency')
         self.add_output('fan_shaft_power', 100.0 * ones, units='W', desc='shaft power of all fans')
+        self.add_output('air_power', 70.0 * ones, units='W',
+                        desc='power the fans put into the air (shaft power at unit efficiency)')
         if self.options['fan_model'] == 'constant':
             add_parameter_inputs(self, ('fan_rated_efficiency',))
             return
@@ -83,6 +85,8 @@ class FanComp(om.ExplicitComponent):
             self.declare_partials(of, wrt, rows=nodes, cols=nodes)
 
     def setup_partials(self):
+        for wrt in self._power_inputs():
+            self._declare('air_power', wrt)
         if self.options['fan_model'] == 'constant':
             self._declare('fan_efficiency', 'fan_rated_efficiency')
             for wrt in self._power_inputs() + ['fan_rated_efficiency']:
@@ -144,7 +148,20 @@ class FanComp(om.ExplicitComponent):
             direct = {'volume_flow': dp_['volume_flow'], 'fan_pressure_rise': dp_['pressure_rise']}
         out['fan_shaft_power'] = power
         jac['fan_shaft_power'] = _chain(deta, dp_['efficiency'], direct)
+        out['air_power'], jac['air_power'] = self._air_power(inputs)
         return out, jac
+
+    def _air_power(self, inputs):
+        """Power put into the air: the shaft power at unit efficiency, and its partials."""
+        q, dp, rho = inputs['volume_flow'], inputs['fan_pressure_rise'], inputs['density']
+        if self.options['compressible']:
+            air, d = phys.shaft_power_isentropic(rho * q, dp, inputs['pressure'],
+                                                 inputs['temperature'], 1.0, derivatives=True)
+            return air, {'volume_flow': d['mass_flow'] * rho, 'density': d['mass_flow'] * q,
+                         'fan_pressure_rise': d['pressure_rise'],
+                         'pressure': d['inlet_pressure'], 'temperature': d['inlet_temperature']}
+        air, d = phys.shaft_power(q, dp, 1.0, derivatives=True)
+        return air, {'volume_flow': d['volume_flow'], 'fan_pressure_rise': d['pressure_rise']}
 
     def compute(self, inputs, outputs):
         out, _ = self._evaluate(inputs)

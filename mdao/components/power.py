@@ -34,6 +34,11 @@ class SegmentPowerComp(om.ExplicitComponent):
         add_parameter_inputs(self, WING_INPUTS)
         for name in POWER_OUTPUTS:
             self.add_output(name, val=np.zeros(n), units="W")
+        self.add_input("air_power", val=np.zeros(n), units="W", desc="fan power into the air")
+        self.add_input("section_drag", val=np.zeros(n), units="N", desc="blown span's drag")
+        add_parameter_inputs(self, ("thrust_power_ceiling",))
+        self.add_output("energy_margin", val=np.zeros(n), units="W",
+                        desc="ceiling x air power + drag x speed (first law: >= 0)")
         self.add_output("energy_saving", val=np.zeros(n), units="J")
         self.add_output("mission_energy_saving", val=0.0, units="J")
 
@@ -52,6 +57,10 @@ class SegmentPowerComp(om.ExplicitComponent):
                     self.declare_partials("mission_energy_saving", wrt, rows=np.zeros(n, int),
                                           cols=np.arange(n))
         rows, cols = diagonal(n)
+        self.declare_partials("energy_margin", ["air_power", "section_drag", "speed"], rows=rows,
+                              cols=cols)
+        self.declare_partials("energy_margin", "thrust_power_ceiling", rows=rows,
+                              cols=np.zeros(n, int))
         self.declare_partials("energy_saving", "duration", rows=rows, cols=cols)
         self.declare_partials("mission_energy_saving", "duration", rows=np.zeros(n, int),
                               cols=np.arange(n))
@@ -66,6 +75,7 @@ class SegmentPowerComp(om.ExplicitComponent):
         outputs["propulsion_power_saving"] = prop
         outputs["fan_electric_power"] = fan
         outputs["net_power_saving"] = net
+        outputs["energy_margin"] = power.energy_margin(*self._margin_inputs(inputs))
         energy = power.segment_energy(net, inputs["duration"])
         outputs["energy_saving"] = energy
         outputs["mission_energy_saving"] = energy.sum()
@@ -84,3 +94,11 @@ class SegmentPowerComp(om.ExplicitComponent):
                                                           else total)
         partials["energy_saving", "duration"] = net
         partials["mission_energy_saving", "duration"] = net
+        _, dm = power.energy_margin(*self._margin_inputs(inputs), derivatives=True)
+        for wrt, value in dm.items():
+            partials["energy_margin", wrt] = broadcast(value, n)
+
+    @staticmethod
+    def _margin_inputs(inputs):
+        return (inputs["air_power"], inputs["section_drag"], inputs["speed"],
+                inputs["thrust_power_ceiling"])

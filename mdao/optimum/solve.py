@@ -51,7 +51,7 @@ RESULT_OUTPUTS = ("momentum_coefficient", "fan_pressure_rise", "required_pressur
                   "jet_velocity", "volume_flow", "mass_flow", "jet_mach", "fan_efficiency",
                   "fan_shaft_power", "section_drag", "clean_section_drag", "drag_saving",
                   "propulsion_power_saving", "fan_electric_power", "net_power_saving",
-                  "energy_saving", "dynamic_pressure", "density")
+                  "energy_saving", "dynamic_pressure", "density", "air_power", "energy_margin")
 #: Outputs that only some models have.
 MODEL_OUTPUTS = {"map": ("fan_speed", "flow_coefficient", "tip_mach"),
                  "geometric": ("jet_loss_factor", "diffusion_half_angle")}
@@ -104,6 +104,8 @@ def _segments(case, vals, be):
             "fan_efficiency": float(vals["fan_efficiency"][i]) if on else None,
             "fan_shaft_power_W": float(vals["fan_shaft_power"][i]) if on else 0.0,
             "fan_electric_power_W": float(vals["fan_electric_power"][i]),
+            "air_power_W": float(vals["air_power"][i]) if on else None,
+            "energy_margin_W": float(vals["energy_margin"][i]) if on else None,
             "section_drag_N": float(vals["section_drag"][i]),
             "clean_section_drag_N": float(vals["clean_section_drag"][i]),
             "propulsion_power_saving_W": float(vals["propulsion_power_saving"][i]),

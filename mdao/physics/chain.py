@@ -225,6 +225,10 @@ def evaluate(params, options=ChainOptions(), blowing=True, derivatives=False):
         out[name] = res[i]
         if d:
             tan[name] = _chain({k: v for (o, k), v in res[3].items() if o == name}, tan)
+    # The first law: no more net thrust power than the fans put into the air.
+    res = power.energy_margin(out["air_power"], out["section_drag"], p["speed"],
+                              p["thrust_power_ceiling"], derivatives=d)
+    out["energy_margin"] = _step(tan, "energy_margin", res, d)
     if "duration" in p:
         out["energy_saving"] = power.segment_energy(out["net_power_saving"], p["duration"])
         if d:

@@ -100,6 +100,66 @@ def segment_power(drag_saving, speed, fan_shaft_power, chain_efficiency, motor_e
     return prop, fan, net, d
 
 
+def energy_margin(air_power, section_drag, speed, thrust_power_ceiling, derivatives=False):
+    r"""Margin of the section's energy balance (first law), [W]: :math:`c P_{air} + D V`.
+
+    .. math::
+        m = c\,P_{air} + D\,V \ge 0
+
+    In steady flight, in the frame of the undisturbed air, the fan's air power :math:`P_{air}`
+    and the work :math:`D V` the section's drag does on the air are all that the air receives;
+    what it is left with, kinetic energy of the wake and jet and heat from dissipation, is never
+    negative. So a section cannot return more net thrust power (:math:`-D V` when the drag is
+    negative) than its fans put into the air. ``thrust_power_ceiling`` :math:`c \in (0, 1]`
+    lets a designer demand a margin (only a share :math:`c` of the air power may come back as
+    thrust power).
+
+    Parameters
+    ----------
+    air_power : array_like
+        Power the fans put into the air, :math:`Q\,\Delta p` (or the isentropic work rate),
+        [W], >= 0.
+    section_drag : array_like
+        Drag of the blown span, [N] (negative: net thrust).
+    speed : array_like
+        Flight speed, [m/s], > 0.
+    thrust_power_ceiling : array_like
+        :math:`c`, [-], in (0, 1].
+    derivatives : bool
+        Also return the partial derivatives keyed by argument name.
+
+    Returns
+    -------
+    margin : ndarray
+        :math:`c P_{air} + D V`, [W]; negative breaks the energy balance.
+
+    References
+    ----------
+    .. [1] Drela, M. "Power balance in aerodynamic flows." AIAA Journal 47(7) (2009)
+       1761-1771 (the power balance of a body with propulsion: shaft power equals the wake's
+       kinetic energy flux plus viscous dissipation, both non-negative) (from memory).
+    .. [2] docs/theory.md, section "What keeps the answer physical".
+
+    Examples
+    --------
+    A section making 2 N of net thrust at 40 m/s returns 80 W of thrust power; with 100 W in
+    the air the margin is 20 W:
+
+    >>> float(energy_margin(100.0, -2.0, 40.0, 1.0))
+    20.0
+    """
+    pa = np.asarray(air_power, float)
+    dr = np.asarray(section_drag, float)
+    v = np.asarray(speed, float)
+    c = np.asarray(thrust_power_ceiling, float)
+    margin = c * pa + dr * v
+    if not derivatives:
+        return margin
+    z = 0.0 * margin
+    return margin, {"air_power": c + z, "section_drag": v + z, "speed": dr + z,
+                    "thrust_power_ceiling": pa + z}
+
+
 def segment_energy(net_power, duration):
     r"""Energy saved in a segment, [J].
 
@@ -226,7 +286,8 @@ def lumped_net_saving(cmu, jet_head, ram_recovery, slot_drag, drag_per_momentum,
             - (jet_head * c ** 1.5 - ram_recovery * np.sqrt(c)) / efficiency_ratio)
 
 
-def break_even_lumped(jet_head, ram_recovery, slot_drag, drag_per_momentum, cmu_min, cmu_max):
+def break_even_lumped(jet_head, ram_recovery, slot_drag, drag_per_momentum, cmu_min, cmu_max,
+                      argmin=False):
     r"""Least efficiency ratio :math:`\eta_{eff}` at which the best point just breaks even.
 
     .. math::
@@ -253,12 +314,16 @@ def break_even_lumped(jet_head, ram_recovery, slot_drag, drag_per_momentum, cmu_
         :math:`\beta`, [-], any real (< 0 is needed for a break-even point).
     cmu_min, cmu_max : array_like
         Admissible range of :math:`C_\mu`, [-], 0 <= cmu_min <= cmu_max.
+    argmin : bool
+        Also return the momentum coefficient where the least ratio is reached.
 
     Returns
     -------
     ndarray
         Break-even efficiency ratio :math:`\eta_{eff}`, [-]; NaN where no point of the range can
         break even.
+    cmu : ndarray
+        Only with ``argmin``: the momentum coefficient of that point, [-] (NaN with the ratio).
 
     References
     ----------
@@ -296,4 +361,8 @@ def break_even_lumped(jet_head, ram_recovery, slot_drag, drag_per_momentum, cmu_
           & np.isfinite(ratio))
     ratio = np.where(ok, ratio, np.inf)
     best = ratio.min(axis=-1)
-    return np.where(np.isfinite(best), best, np.nan)
+    best = np.where(np.isfinite(best), best, np.nan)
+    if not argmin:
+        return best
+    at = np.take_along_axis(cands, np.argmin(ratio, axis=-1)[..., None], -1)[..., 0]
+    return best, np.where(np.isfinite(best), at, np.nan)

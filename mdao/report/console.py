@@ -32,6 +32,13 @@ def segment_table(outcome, case):
             lines.append(f"  {s['name']}: active: " + "; ".join(s["active_constraints"]))
         if s["ram_driven"]:
             lines.append(f"  {s['name']}: ram-driven: the jet needs no fan (required rise <= 0)")
+        if s["blowing"] and s["energy_margin_W"] is not None and s["energy_margin_W"] < 0:
+            thrust = -s["section_drag_N"] * s["speed_m_s"]
+            ceiling = case.airfoil["thrust_power_ceiling"]
+            lines.append(f"  {s['name']}: WARNING: breaks the energy balance: {thrust:.1f} W of "
+                         f"net thrust power from {s['air_power_W']:.1f} W of fan air power "
+                         f"(ratio {thrust / s['air_power_W']:.2f} > allowed {ceiling:g}); the "
+                         "drag model is outside its physical range here")
     if outcome.wing_active_constraints:
         lines.append("  wing: active: " + "; ".join(outcome.wing_active_constraints))
     return "\n".join(lines)
