@@ -79,6 +79,7 @@ CONSTRAINTS = (
                scale_by="required_pressure_rise"),
     Constraint("pressure balance", "pressure_balance", equals=0.0,
                scale_by="required_pressure_rise"),
+    Constraint("energy consistency", "energy_margin", lower=0.0, scale_by="air_power"),
     Constraint("jet Mach limit", "jet_mach", upper="slot.max_jet_mach"),
     Constraint("fan speed limit", "fan_speed", upper="fan.max_speed", fan_models=("map",)),
     Constraint("fan map flow range", "flow_coefficient", lower="fan.flow_coefficient_range[0]",

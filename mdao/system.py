@@ -125,7 +125,8 @@ def set_case_values(prob, case, start=True, follow_requirement=False):
     for name, value in parameter_values(case).items():
         prob.set_val(name, value)
     if start:
-        cmu, dp = start_point(case)
+        ratio, cmu, dp = start_point(case)
+        prob.set_val("slot_ratio", ratio)
         prob.set_val("momentum_coefficient", cmu)
         if not follow_requirement:
             prob.set_val("fan_pressure_rise", dp)
@@ -133,39 +134,62 @@ def set_case_values(prob, case, start=True, follow_requirement=False):
 
 #: Momentum coefficients per segment tried for the start point (log-spaced over the range).
 START_GRID = 61
+#: Slot ratios tried for the start point when the slot ratio is free (evenly over its bounds).
+START_RATIOS = 9
 
 
 def start_point(case):
-    """Start values: momentum coefficient per segment and the pressure rise it requires.
+    """Start values: slot ratio, momentum coefficient per segment and the pressure rise.
 
-    A segment's own ``momentum_coefficient`` is used when given. Otherwise the start is the
-    best point of a log-spaced grid over the calibrated range, each segment at the case's slot
-    ratio with the fan giving the required rise: the largest net saving among the points that
-    meet every per-segment constraint (:mod:`mdao.constraints`), else the geometric mean of the
-    range. The energy balance splits the admissible momentum coefficients into separate
-    branches (a low-blowing one and one where the fan does enough work); a start in the best
-    branch keeps the gradient optimizer out of the others' local optima. Non-blowing segments
-    get zero. The start pressure rise is the requirement, held within the fan's range.
+    A segment's own ``momentum_coefficient`` is used when given, with the case's slot ratio.
+    Otherwise the start is the best point of a grid, with the fan giving the required rise:
+    per segment, log-spaced momentum coefficients over the calibrated range, scored by the net
+    energy saved among the points that meet every per-segment constraint
+    (:mod:`mdao.constraints`); when the slot ratio is free and no segment gives its own start,
+    also evenly spaced slot ratios over its bounds (the case's ratio included), the best
+    mission total deciding. A segment with no admissible grid point starts at the geometric
+    mean of the range. The energy balance splits the admissible momentum coefficients into
+    separate branches (a low-blowing one and one where the fan does enough work); a start in
+    the best branch keeps the gradient optimizer out of the others' local optima. Non-blowing
+    segments get zero; the start pressure rise is the requirement, held within the fan's range.
+
+    Returns
+    -------
+    slot_ratio : float
+    momentum_coefficient, fan_pressure_rise : ndarray
+        Per segment; [-] and [Pa].
     """
     lo, hi = case.airfoil["momentum_coefficient_range"]
-    grid = np.geomspace(lo, hi, START_GRID)[:, None]
-    out = chain.evaluate(chain_parameters(case, momentum_coefficient=grid), chain_options(case),
-                         blowing=case.blowing)
-    out["momentum_coefficient"] = np.broadcast_to(grid, out["net_power_saving"].shape)
-    cons = [c for c in design_constraints.applicable(case, follow_requirement=True)
-            if c.per_segment]
-    ok = design_constraints.holds(case, out, cons)
-    score = np.where(ok & np.isfinite(out["net_power_saving"]), out["net_power_saving"], -np.inf)
-    best = np.where(np.any(np.isfinite(score), axis=0), grid[np.argmax(score, axis=0), 0],
-                    np.sqrt(lo * hi))
     given = np.array([np.nan if s["momentum_coefficient"] is None else s["momentum_coefficient"]
                       for s in case.segments])
-    cmu = np.where(np.isnan(given), best, given)
+    ratios = [case.slot["ratio"]]
+    if design_constraints.slot_ratio_free(case) and np.all(np.isnan(given[case.blowing])):
+        ratios += list(np.linspace(*case.slot["ratio_bounds"], START_RATIOS))
+    grid = np.geomspace(lo, hi, START_GRID)[:, None]
+    cons = [c for c in design_constraints.applicable(case, follow_requirement=True)
+            if c.per_segment]
+    durations = np.array([s["duration"] for s in case.segments])
+    best = None
+    for ratio in ratios:   # a handful of wing geometries, each one vectorized call
+        out = chain.evaluate(chain_parameters(case, momentum_coefficient=grid, slot_ratio=ratio),
+                             chain_options(case), blowing=case.blowing)
+        out["momentum_coefficient"] = np.broadcast_to(grid, out["net_power_saving"].shape)
+        ok = design_constraints.holds(case, out, cons) & np.isfinite(out["net_power_saving"])
+        score = np.where(ok, out["net_power_saving"], -np.inf)
+        k = np.argmax(score, axis=0)
+        found = np.isfinite(score[k, np.arange(score.shape[1])])
+        cmu = np.where(found, grid[k, 0], np.sqrt(lo * hi))
+        total = np.sum(np.where(found & case.blowing, score[k, np.arange(score.shape[1])], 0.0)
+                       * durations)
+        if best is None or total > best[0]:
+            best = (total, float(ratio), cmu)
+    _, ratio, cmu = best
+    cmu = np.where(np.isnan(given), cmu, given)
     cmu = np.where(case.blowing, cmu, 0.0)
-    req = chain.evaluate(chain_parameters(case, momentum_coefficient=cmu), chain_options(case),
-                         blowing=case.blowing)["required_pressure_rise"]
+    req = chain.evaluate(chain_parameters(case, momentum_coefficient=cmu, slot_ratio=ratio),
+                         chain_options(case), blowing=case.blowing)["required_pressure_rise"]
     dp = np.clip(req, case.fan["min_pressure_rise"], case.fan["max_pressure_rise"])
-    return cmu, dp
+    return ratio, cmu, dp
 
 
 def chain_options(case):
@@ -222,8 +246,8 @@ def build_problem(case, follow_requirement=False, driver=True, fused=None):
 def _add_optimization(prob, case, blow, follow):
     """Design variables, constraints (from :mod:`mdao.constraints`), objective and SLSQP."""
     model = prob.model
-    cmu0, dp0 = start_point(case)
-    start = chain.evaluate(chain_parameters(case, momentum_coefficient=cmu0),
+    ratio0, cmu0, dp0 = start_point(case)
+    start = chain.evaluate(chain_parameters(case, momentum_coefficient=cmu0, slot_ratio=ratio0),
                            chain_options(case), blowing=case.blowing)
     for con in design_constraints.applicable(case, follow_requirement=follow):
         lower, upper = design_constraints.bounds(con, case)

@@ -52,9 +52,13 @@ def coastal(_quiet_module):
 
 @pytest.fixture(scope="module")
 def fixed_slot(_quiet_module):
-    """Survey drone with the slot ratio fixed at 0.01 (lumped model, interior C_mu optimum)."""
+    """Survey drone with the slot ratio fixed at 0.01 (lumped model, interior C_mu optimum).
+
+    The drag per momentum coefficient is weakened to -1.3 so that the optimum keeps the energy
+    balance with a margin (with the case's -1.9 the balance binds: not an interior optimum)."""
     case = load_case(CASES / "survey-drone.toml").replace({"slot.ratio_bounds": None,
-                                                            "slot.ratio": 0.01})
+                                                            "slot.ratio": 0.01,
+                                                            "airfoil.drag_per_momentum": -1.3})
     out = optimize(case)
     assert out.converged, out.message
     return case, out
@@ -110,6 +114,8 @@ def test_lumped_closed_form_and_envelope(fixed_slot):
     c = float(power.lumped_optimum(k1, k2, beta, eta))
     lo, hi = a["momentum_coefficient_range"]
     assert lo < c < hi
+    assert all(s["energy_margin_W"] > 0.01 * s["air_power_W"] and not s["active_constraints"]
+               for s in out.segments)
     np.testing.assert_allclose(out.values["momentum_coefficient"], c, rtol=1e-4)
     scales = np.array([_scale(case, i) for i in range(3)])
     e_star = float(np.sum(scales * power.lumped_net_saving(c, k1, k2, k3, beta, eta)))
@@ -151,13 +157,15 @@ def test_lumped_closed_form_and_envelope(fixed_slot):
 ])
 def test_post_optimal_derivatives_match_cold_reoptimization(which, keys, request):
     """dE*/dp from warm-started differences (step 1e-3) and from the multipliers against cold
-    re-optimizations of the case with the input changed by +/-1 %."""
+    re-optimizations of the case with the input changed by +/-0.2 %. (With the energy balance
+    binding, E* curves enough in the drag per momentum coefficient that +/-1 % differences
+    carry 0.3-0.4 % truncation error; 0.2 % brings it to about 0.02 %.)"""
     case, out = request.getfixturevalue(which)
     post = S.post_optimal_derivatives(case, out, keys)
     mult = S.multiplier_derivatives(case, out, keys)
     for key in keys:
         v = case.value(key)
-        h = 0.01 * abs(v)
+        h = 0.002 * abs(v)
         hi = optimize(case.replace({key: v + h}))
         lo = optimize(case.replace({key: v - h}))
         assert hi.converged and lo.converged
@@ -170,7 +178,7 @@ def test_binding_speed_dependent_constraint_separates_the_two_derivatives(_quiet
     """With the jet Mach limit binding in the transit segment, the fixed-design and the
     post-optimal speed derivatives differ (the limit moves with speed), and re-optimization and
     multipliers still agree with each other."""
-    case = load_case(CASES / "survey-drone.toml").replace({"slot.max_jet_mach": 0.1})
+    case = load_case(CASES / "survey-drone.toml").replace({"slot.max_jet_mach": 0.07})
     out = optimize(case)
     assert out.converged, out.message
     assert "jet Mach limit" in out.segments[2]["active_constraints"]
@@ -211,7 +219,12 @@ def test_net_power_sweep(coastal):
         feas = sw["feasible"][:, i]
         best = np.max(sw["net_power_W"][k, feas, i])
         assert best <= out.values["net_power_saving"][i] * (1 + 1e-9)
-        assert best >= out.values["net_power_saving"][i] * 0.999
+        # the optimum sits on the energy balance, where net power rises steeply: the best
+        # feasible grid point is within one grid step below it
+        step = sw["momentum_coefficient"][1] - sw["momentum_coefficient"][0]
+        below = W.net_power_sweep(case, out, efficiencies=[sw["efficiency_case"]], points=2,
+                                  cmu_max=cstar[i] - step)["net_power_W"][0, -1, i]
+        assert best >= min(below, out.values["net_power_saving"][i] * 0.999)
         one = W.net_power_sweep(case, out, efficiencies=[sw["efficiency_case"]], points=2,
                                 cmu_max=cstar[i])
         assert one["net_power_W"][0, -1, i] == pytest.approx(out.values["net_power_saving"][i],
@@ -231,7 +244,13 @@ def test_break_even_map_against_closed_form_and_brute_force(survey):
     assert m["efficiency"].shape == (4, 5, 3)
     a, f, p = case.airfoil, case.fan, case.propulsion
     lo, hi = a["momentum_coefficient_range"]
-    checked = 0
+    checked = limited = 0
+
+    def balance(k1, k2, k3, beta, c):
+        """Non-dimensional energy margin c P_air + D V over q S V (docs/theory.md)."""
+        return a["thrust_power_ceiling"] * (k1 * c ** 1.5 - k2 * c ** 0.5) + a["drag_clean"] \
+            + k3 + beta * c
+
     for iy, kj in enumerate(kjs):
         for ix, r in enumerate(rs):
             for i, seg in enumerate(case.segments):
@@ -243,13 +262,24 @@ def test_break_even_map_against_closed_form_and_brute_force(survey):
                 k1, k2 = duct.lumped_coefficients(kj, case.duct["freestream_assist"], r)
                 k3 = a["slot_drag"] + a["slot_drag_per_ratio"] * r
                 beta = a["drag_per_momentum"] + a["drag_per_momentum_per_ratio"] * r
-                ref = float(power.break_even_lumped(k1, k2, k3, beta, cmin, cmax)) \
-                    * p["chain_efficiency"] / f["motor_efficiency"]
+                ref, at = power.break_even_lumped(k1, k2, k3, beta, cmin, cmax, argmin=True)
+                ref = float(ref) * p["chain_efficiency"] / f["motor_efficiency"]
+                rtol = 1e-12
+                if balance(k1, k2, k3, beta, at) < 0:
+                    # the closed form's point breaks the energy balance: the least ratio over a
+                    # dense grid of the points that keep it (golden-section precision)
+                    c = np.linspace(cmin, cmax, 400001)
+                    ratio = (k1 * c ** 1.5 - k2 * c ** 0.5) / (-beta * c - k3)
+                    ok = (balance(k1, k2, k3, beta, c) >= 0) & (k1 * c >= k2) & (-beta * c > k3)
+                    ref = (float(np.min(ratio[ok])) if ok.any() else np.nan) \
+                        * p["chain_efficiency"] / f["motor_efficiency"]
+                    rtol = 1e-6
+                    limited += 1
                 got = m["efficiency"][iy, ix, i]
                 if not np.isfinite(ref) or ref > 1:
                     assert np.isnan(got)
                     continue
-                assert got == pytest.approx(ref, rel=1e-12)
+                assert got == pytest.approx(ref, rel=rtol)
                 checked += 1
                 if iy % 3 == 0 and ix % 2 == 0:  # brute force at a few points
                     grid = np.linspace(cmin, cmax, 200001)
@@ -264,7 +294,7 @@ def test_break_even_map_against_closed_form_and_brute_force(survey):
                                                chain_options(case))["propulsion_power_saving"]
                     assert best[0] < 0 < best[2]
                     assert abs(best[1]) < 1e-6 * abs(ref_power)
-    assert checked > 30
+    assert checked > 30 and limited > 0
     maps = W.review_maps(case, out, points=5)
     assert [mm["y_key"] for mm in maps] == ["duct.jet_loss_factor", "airfoil.drag_per_momentum"]
 

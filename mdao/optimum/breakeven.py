@@ -98,11 +98,19 @@ def break_even_efficiency(case, slot_ratio=None, params=None):
         slot_drag = slot_drag_at(p["slot_ratio"], p["slot_drag"], p["slot_drag_per_ratio"])
         beta = drag_per_momentum_at(p["slot_ratio"], p["drag_per_momentum"],
                                     p["drag_per_momentum_per_ratio"])
+        eff, cmu = power.break_even_lumped(jet_head, ram_recovery, slot_drag, beta, lo, hi,
+                                           argmin=True)
+        eff = eff * p["chain_efficiency"] / p["motor_efficiency"]
+        # The closed form knows nothing of the energy balance: where its best point breaks
+        # it (or a quadratic drag term is given), search the admissible points instead.
+        with np.errstate(invalid="ignore"):
+            margin = (p["thrust_power_ceiling"]
+                      * (jet_head * cmu ** 1.5 - ram_recovery * cmu ** 0.5)
+                      + p["drag_clean"] + slot_drag + beta * cmu)
         if np.any(np.asarray(p["drag_quadratic"]) != 0):
             eff = _search(case, p, lo, hi)
-        else:
-            eff = power.break_even_lumped(jet_head, ram_recovery, slot_drag, beta, lo, hi)
-            eff = eff * p["chain_efficiency"] / p["motor_efficiency"]
+        elif np.any(margin < 0):
+            eff = np.where(margin < 0, _search(case, p, lo, hi), eff)
     else:
         eff = _search(case, p, lo, hi)
     eff = np.broadcast_to(np.asarray(eff, float), shape).copy()

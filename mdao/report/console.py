@@ -1,5 +1,6 @@
 """Tables and result files: what the command line prints and writes."""
 from mdao import CAUTION, __version__
+from mdao.constraints import FEASIBLE_TOL
 
 
 def _f(value, fmt):
@@ -10,8 +11,9 @@ def segment_table(outcome, case):
     """The per-segment table of an optimum (or of an evaluated start point)."""
     cols = [("segment", 12, "s"), ("C_mu", 8, ".4f"), ("dP fan", 9, ".0f"), ("V_jet", 7, ".1f"),
             ("fan rpm", 9, ".0f"), ("eta_fan", 7, ".3f"), ("fan shaft", 10, ".1f"),
-            ("fan electric", 12, ".1f"), ("net save", 10, ".1f"), ("eta_be", 7, ".3f")]
-    units = ["", "-", "Pa", "m/s", "rpm", "-", "W", "W", "W", "-"]
+            ("fan electric", 12, ".1f"), ("energy margin", 13, ".1f"), ("net save", 10, ".1f"),
+            ("eta_be", 7, ".3f")]
+    units = ["", "-", "Pa", "m/s", "rpm", "-", "W", "W", "W", "W", "-"]
     head = " ".join(f"{c[0]:>{c[1]}}" for c in cols)
     unit_row = " ".join(f"{u:>{c[1]}}" for u, c in zip(units, cols))
     lines = [head, unit_row, "-" * len(head)]
@@ -20,19 +22,23 @@ def segment_table(outcome, case):
         vals = [s["name"], s["momentum_coefficient"] if on else None,
                 s["fan_pressure_rise_Pa"] if on else None, s["jet_velocity_m_s"] if on else None,
                 s["fan_speed_rpm"], s["fan_efficiency"], s["fan_shaft_power_W"] if on else None,
-                s["fan_electric_power_W"] if on else None, s["net_power_saving_W"],
+                s["fan_electric_power_W"] if on else None, s["energy_margin_W"],
+                s["net_power_saving_W"],
                 s["break_even_fan_efficiency"]]
         cells = []
         for v, (name, width, fmt) in zip(vals, cols):
             cells.append(f"{v:>{width}}" if fmt == "s" else f"{_f(v, fmt):>{width}}")
         lines.append(" ".join(cells) + ("" if on else "   (blowing off: slot penalty only)"))
+    lines.append("energy margin: the fans' air power minus the net thrust power returned "
+                 "(thrust_power_ceiling x P_air + D V), >= 0 by the first law")
     lines.append("")
     for s in outcome.segments:
         if s["active_constraints"]:
             lines.append(f"  {s['name']}: active: " + "; ".join(s["active_constraints"]))
         if s["ram_driven"]:
             lines.append(f"  {s['name']}: ram-driven: the jet needs no fan (required rise <= 0)")
-        if s["blowing"] and s["energy_margin_W"] is not None and s["energy_margin_W"] < 0:
+        if s["blowing"] and s["energy_margin_W"] is not None \
+                and s["energy_margin_W"] < -FEASIBLE_TOL * s["air_power_W"]:
             thrust = -s["section_drag_N"] * s["speed_m_s"]
             ceiling = case.airfoil["thrust_power_ceiling"]
             lines.append(f"  {s['name']}: WARNING: breaks the energy balance: {thrust:.1f} W of "

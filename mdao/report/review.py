@@ -103,9 +103,9 @@ def review_markdown(data, figures=(), note=None):
               f"Slot ratio {o['slot_ratio']:.5f} (slot height {o['slot_height_m'] * 1e3:.2f} mm).",
               "",
               "| segment | blowing | C_mu [-] | fan rise [Pa] | jet speed [m/s] | jet Mach [-] "
-              "| fan eff. [-] | fan shaft power [W] | fan electric power [W] | net saving [W] "
-              "| energy [kWh] | break-even eff. [-] | binding constraints |",
-              "|---|---|---|---|---|---|---|---|---|---|---|---|---|"]
+              "| fan eff. [-] | fan shaft power [W] | fan electric power [W] | energy margin [W] "
+              "| net saving [W] | energy [kWh] | break-even eff. [-] | binding constraints |",
+              "|---|---|---|---|---|---|---|---|---|---|---|---|---|---|"]
     for s in o["segments"]:
         on = s["blowing"]
         lines.append(
@@ -114,7 +114,8 @@ def review_markdown(data, figures=(), note=None):
             f"| {_g(s['jet_velocity_m_s'] if on else None, '.1f')} "
             f"| {_g(s['jet_mach'] if on else None, '.3f')} | {_g(s['fan_efficiency'], '.3f')} "
             f"| {_g(s['fan_shaft_power_W'] if on else None, '.1f')} "
-            f"| {_g(s['fan_electric_power_W'], '.1f')} | {_g(s['net_power_saving_W'], '.1f')} "
+            f"| {_g(s['fan_electric_power_W'], '.1f')} | {_g(s.get('energy_margin_W'), '.1f')} "
+            f"| {_g(s['net_power_saving_W'], '.1f')} "
             f"| {s['energy_saving_J'] / KWH:.4f} | {_g(s['break_even_fan_efficiency'], '.3f')} "
             f"| {'; '.join(s['active_constraints']) or '-'}"
             + (" (ram-driven)" if s["ram_driven"] else "") + " |")
