@@ -5,7 +5,7 @@ airfoil and segment power, one node per segment (or operating point), with promo
 trade's words. :func:`build_problem` turns a validated :class:`mdao.case.Case` into a set-up
 ``om.Problem`` with design variables, constraints, objective and SLSQP.
 """
-from dataclasses import asdict
+from dataclasses import asdict, dataclass
 
 import numpy as np
 from mdao import om
@@ -125,11 +125,31 @@ def set_case_values(prob, case, start=True, follow_requirement=False):
     for name, value in parameter_values(case).items():
         prob.set_val(name, value)
     if start:
-        ratio, cmu, dp = start_point(case)
-        prob.set_val("slot_ratio", ratio)
-        prob.set_val("momentum_coefficient", cmu)
+        point = start_point(case)
+        prob.set_val("slot_ratio", point.slot_ratio)
+        prob.set_val("momentum_coefficient", point.momentum_coefficient)
         if not follow_requirement:
-            prob.set_val("fan_pressure_rise", dp)
+            prob.set_val("fan_pressure_rise", point.fan_pressure_rise)
+
+
+@dataclass
+class StartPoint:
+    """Where the optimizer starts.
+
+    Attributes
+    ----------
+    slot_ratio : float
+    momentum_coefficient, fan_pressure_rise : ndarray
+        Per segment; [-] and [Pa].
+    without_admissible_point : list of str
+        Blowing segments where no momentum coefficient of the start grid met every per-segment
+        constraint (the optimizer will likely find none either).
+    """
+
+    slot_ratio: float
+    momentum_coefficient: np.ndarray
+    fan_pressure_rise: np.ndarray
+    without_admissible_point: list
 
 
 #: Momentum coefficients per segment tried for the start point (log-spaced over the range).
@@ -155,9 +175,7 @@ def start_point(case):
 
     Returns
     -------
-    slot_ratio : float
-    momentum_coefficient, fan_pressure_rise : ndarray
-        Per segment; [-] and [Pa].
+    StartPoint
     """
     lo, hi = case.airfoil["momentum_coefficient_range"]
     given = np.array([np.nan if s["momentum_coefficient"] is None else s["momentum_coefficient"]
@@ -182,14 +200,16 @@ def start_point(case):
         total = np.sum(np.where(found & case.blowing, score[k, np.arange(score.shape[1])], 0.0)
                        * durations)
         if best is None or total > best[0]:
-            best = (total, float(ratio), cmu)
-    _, ratio, cmu = best
+            best = (total, float(ratio), cmu, found)
+    _, ratio, cmu, found = best
     cmu = np.where(np.isnan(given), cmu, given)
     cmu = np.where(case.blowing, cmu, 0.0)
     req = chain.evaluate(chain_parameters(case, momentum_coefficient=cmu, slot_ratio=ratio),
                          chain_options(case), blowing=case.blowing)["required_pressure_rise"]
     dp = np.clip(req, case.fan["min_pressure_rise"], case.fan["max_pressure_rise"])
-    return ratio, cmu, dp
+    lacking = [s["name"] for s, on, ok, g in zip(case.segments, case.blowing, found, given)
+               if on and not ok and np.isnan(g)]
+    return StartPoint(ratio, cmu, dp, lacking)
 
 
 def chain_options(case):
@@ -246,8 +266,10 @@ def build_problem(case, follow_requirement=False, driver=True, fused=None):
 def _add_optimization(prob, case, blow, follow):
     """Design variables, constraints (from :mod:`mdao.constraints`), objective and SLSQP."""
     model = prob.model
-    ratio0, cmu0, dp0 = start_point(case)
-    start = chain.evaluate(chain_parameters(case, momentum_coefficient=cmu0, slot_ratio=ratio0),
+    first = start_point(case)
+    dp0 = first.fan_pressure_rise
+    start = chain.evaluate(chain_parameters(case, momentum_coefficient=first.momentum_coefficient,
+                                            slot_ratio=first.slot_ratio),
                            chain_options(case), blowing=case.blowing)
     for con in design_constraints.applicable(case, follow_requirement=follow):
         lower, upper = design_constraints.bounds(con, case)

@@ -421,3 +421,117 @@ def test_summary_table():
         row = next(line for line in lines if line.split()[:1] == [name]).split()
         assert (int(row[1]), int(row[2])) == (fit["runs"], fit["dof"])
         assert float(row[3]) == pytest.approx(fit["r2"], abs=6e-6)
+
+
+# ---------------------------------------------------------------- energy balance (first law)
+# Drela, M. "Power balance in aerodynamic flows", AIAA Journal 47(7), 2009 (from memory): in
+# steady flight a section cannot return more net thrust power -D V than its fans put into the air,
+# Q dP_fan; over q S V: C_D + Q dP_fan / (q S V) >= 0.
+#: A section whose drag per momentum coefficient (-1, no slot-ratio term) keeps the balance over
+#: the demo's test matrix.
+PHYSICAL_TRUTH = dict(DEMO.TRUTH, **{"airfoil.drag_per_momentum": -1.0,
+                                     "airfoil.drag_per_momentum_per_ratio": 0.0})
+
+
+def _hand_margin(drag, mass_flow, fan_rise, density, speed, chord, span):
+    """C_D + Q dP / (q S V) with Q = m_dot / rho, q = rho V^2 / 2, S = chord span."""
+    return drag + (mass_flow / density) * fan_rise / (0.5 * density * speed ** 2 * chord * span
+                                                      * speed)
+
+
+def test_energy_balance_flags_the_run_that_breaks_it():
+    """One run's drag made negative enough is flagged by its row, with the hand margin, and kept."""
+    runs = DEMO.synthetic_runs(np.random.default_rng(17), truth=PHYSICAL_TRUTH)
+    runs["density"] = derived(runs)["density"]  # a density column the hand calculation reads
+    clean = calibrate(runs)["energy_balance"]
+    assert clean["broken_runs"] == [] and clean["warnings"] == []
+    assert clean["fitted_model"]["worst"]["margin"] > 0
+    i = 13                                      # data row 14: 110 km/h, C_mu 0.03
+    assert runs["mass_flow"][i] > 0
+    runs["drag_coefficient"] = runs["drag_coefficient"].copy()
+    runs["drag_coefficient"][i] = -0.2
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", CalibrationWarning)
+        result = calibrate(runs)
+    balance = result["energy_balance"]
+    hand = _hand_margin(-0.2, *(runs[k][i] for k in ("mass_flow", "fan_pressure_rise", "density",
+                                                      "speed", "chord", "span")))
+    assert hand < 0
+    assert [b["row"] for b in balance["broken_runs"]] == [i + 1]
+    assert balance["broken_runs"][0]["margin"] == pytest.approx(hand, rel=1e-12)
+    assert balance["broken_runs"][0]["drag_coefficient"] == -0.2
+    assert result["fits"]["drag"]["runs"] == len(runs["speed"])  # flagged, not dropped
+    assert balance["thrust_power_ceiling"] == 1.0
+    text = format_summary(result)
+    assert f"WARNING: 1 of {int(np.count_nonzero(runs['mass_flow']))} jet-on runs" in text
+    assert f"row {i + 1} ({hand:.3g})" in text
+
+
+def test_energy_balance_of_the_demo_runs(tmp_path):
+    """Every demo run against the hand calculation from the CSV's own cells (units converted by
+    hand; density from the ISA troposphere, ICAO Doc 7488: geopotential H = r0 z / (r0 + z),
+    r0 = 6356766 m, T = 288.15 - 0.0065 H, p = 101325 (T/288.15)^(g0/(R L)), rho = p/(R T),
+    R = 287.05287, g0 = 9.80665)."""
+    header, rows = _demo_table()
+    col = {name.split(" [")[0]: np.array([float(r[k]) for r in rows])
+           for k, name in enumerate(header)}
+    geometric = col["altitude"] * 0.3048
+    temperature = 288.15 - 0.0065 * 6356766.0 * geometric / (6356766.0 + geometric)
+    pressure = 101325.0 * (temperature / 288.15) ** (9.80665 / (287.05287 * 0.0065))
+    density = pressure / (287.05287 * temperature)
+    hand = _hand_margin(col["drag_coefficient"], col["mass_flow"] * 1e-3, col["fan_pressure_rise"],
+                        density, col["speed"] / 3.6, col["chord"], col["span"])
+    expected = (np.flatnonzero((col["mass_flow"] > 0) & (hand < 0)) + 1).tolist()
+
+    result = calibrate_file(DEMO_CSV, tmp_path, plots=False)
+    broken = result["energy_balance"]["broken_runs"]
+    assert [b["row"] for b in broken] == expected
+    np.testing.assert_allclose([b["margin"] for b in broken],
+                               hand[np.array(expected, int) - 1], rtol=1e-9)
+    stored = json.loads((tmp_path / "calibration.json").read_text())
+    assert stored["energy_balance"] == result["energy_balance"]
+    assert result["energy_balance"]["jet_on_runs"] == int(np.count_nonzero(col["mass_flow"]))
+    if expected:
+        assert f"WARNING: {len(expected)} of " in format_summary(result)
+
+
+def test_fitted_model_energy_check_on_the_demo():
+    """The fitted model's margin c (a_j C^1.5 - a_r C^0.5) + C_D (c = 1) evaluated directly with
+    the physics functions: a violation on a finer grid is reported, the reported worst point's
+    margin is the direct value there, and the broken share is that of the check's own grid."""
+    from mdao.physics.airfoil import drag_coefficient
+    from mdao.physics.duct import lumped_coefficients
+
+    result = calibrate(read_runs(DEMO_CSV))
+    c = {k: v["value"] for k, v in result["constants"].items()}
+
+    def margin(cmu, r_s):
+        a_j, a_r = lumped_coefficients(c["duct.jet_loss_factor"], c["duct.freestream_assist"], r_s)
+        cd = drag_coefficient(cmu, r_s, c["airfoil.drag_clean"], c["airfoil.slot_drag"],
+                              c["airfoil.slot_drag_per_ratio"], c["airfoil.drag_per_momentum"],
+                              c["airfoil.drag_per_momentum_per_ratio"])
+        return a_j * cmu ** 1.5 - a_r * cmu ** 0.5 + cd
+
+    low, high = result["validity"]["momentum_coefficient"]
+    r_low, r_high = result["validity"]["slot_ratio"]
+    fine = margin(np.linspace(low, high, 1001)[:, None], np.linspace(r_low, r_high, 9)[None, :])
+    fitted = result["energy_balance"]["fitted_model"]
+    worst = fitted["worst"]
+    warned = [w for w in result["energy_balance"]["warnings"] if "fitted model" in w]
+    if fine.min() < 0:
+        assert worst["margin"] < 0 and fitted["broken_share"] > 0
+        assert len(warned) == 1 and "energy consistency constraint" in warned[0]
+        assert warned[0] in format_summary(result)
+    else:
+        assert worst["margin"] >= 0 and not warned
+    assert low <= worst["momentum_coefficient"] <= high
+    assert r_low <= worst["slot_ratio"] <= r_high
+    assert worst["margin"] == pytest.approx(
+        float(margin(worst["momentum_coefficient"], worst["slot_ratio"])), rel=1e-12)
+    # the finer grid holds the check's grid: its minimum is no larger, and close (slope |dm/dC|
+    # below 2 here, spacing 9e-4)
+    assert fine.min() - 1e-15 <= worst["margin"] <= fine.min() + 2e-3
+    assert fitted["slot_ratios"][0] == r_low and fitted["slot_ratios"][-1] == r_high
+    own = margin(np.linspace(low, high, fitted["momentum_coefficient_points"])[:, None],
+                 np.array(fitted["slot_ratios"])[None, :])
+    assert fitted["broken_share"] == pytest.approx(np.mean(own < 0), abs=1e-12)

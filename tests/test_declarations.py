@@ -177,3 +177,14 @@ def test_a_parameter_the_models_do_not_use_is_refused(cases_dir):
     with pytest.raises(CaseError, match=r"mass\.duct_wetted_ratio is given but not used with "
                                         r"duct\.model = \"geometric\""):
         parse_case(raw, base=cases_dir)
+
+
+def test_fan_map_whose_efficiency_leaves_zero_to_one_is_refused(cases_dir):
+    """A map whose efficiency parabola falls below zero inside its own flow range (a steep
+    falloff) would price negative fan power: refused on load, naming the keys."""
+    raw = _raw(cases_dir / "coastal-patrol.toml")
+    raw["fan"]["efficiency_falloff"] = 12.0
+    # by hand: eta = 0.78 (1 - 12 (phi/0.36 - 1)^2) is -1.56 at phi 0.18 and -1.827 at 0.55
+    with pytest.raises(CaseError, match=r"fan map: the efficiency falls to -1\.83 at flow "
+                                        r"coefficient 0\.55"):
+        parse_case(raw, base=cases_dir)

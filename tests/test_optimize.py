@@ -39,7 +39,8 @@ def _case(**changes):
     {},
     {"duct__jet_loss_factor": 1.6, "airfoil__drag_per_momentum": -2.0, "slot__ratio": 0.006},
     {"duct__freestream_assist": 0.4, "fan__efficiency": 0.55, "airfoil__slot_drag": 0.01},
-    {"slot__ratio": 0.02, "propulsion__chain_efficiency": 0.6, "fan__motor_efficiency": 0.95},
+    {"slot__ratio": 0.02, "propulsion__chain_efficiency": 0.6, "fan__motor_efficiency": 0.95,
+     "slot__max_jet_mach": 0.5},
 ])
 def test_lumped_optimum_matches_closed_form(changes):
     """Optimum C_mu and net power per segment against an independent solution of the lumped
@@ -195,7 +196,13 @@ def test_blowing_off_segment_carries_slot_penalty_only():
     atm = atmosphere.isa(9000.0)
     q = 0.5 * atm.density * 60.0 ** 2
     assert seg["momentum_coefficient"] == 0.0
-    assert seg["fan_shaft_power_W"] == 0.0
+    assert seg["fan_electric_power_W"] == 0.0
+    # no jet and no fan to describe: null, not the numbers of a zero flow (a jet loss factor
+    # of hundreds, a negative required rise)
+    for key in ("fan_pressure_rise_Pa", "required_pressure_rise_Pa", "jet_velocity_m_s",
+                "jet_mach", "volume_flow_m3_s", "fan_efficiency", "fan_shaft_power_W",
+                "air_power_W", "energy_margin_W"):
+        assert seg[key] is None, key
     assert seg["net_power_saving_W"] == pytest.approx(-q * 1.0 * 0.02 * 60.0 / 0.8, rel=1e-12)
     assert seg["break_even_fan_efficiency"] is None
 
@@ -284,3 +291,16 @@ def test_energy_balance_holds_at_every_optimum(source, cases_dir):
         thrust_power = -seg["section_drag_N"] * seg["speed_m_s"]
         assert thrust_power <= ceiling * seg["air_power_W"] * (1 + 1e-6), seg["name"]
         assert seg["energy_margin_W"] >= -1e-6 * seg["air_power_W"], seg["name"]
+
+
+def test_segment_without_admissible_point_is_named():
+    """At 9000 m and 60 m/s on a 2 % slot, with the jet Mach limit at 0.4, no momentum
+    coefficient keeps both the energy balance and the Mach limit in segment c: the optimizer
+    does not converge, and the message names the segment."""
+    case = _case(**{"slot__ratio": 0.02, "propulsion__chain_efficiency": 0.6,
+                    "fan__motor_efficiency": 0.95, "slot__max_jet_mach": 0.4})
+    from mdao.system import start_point
+    assert start_point(case).without_admissible_point == ["c"]
+    out = optimize(case)
+    assert not out.converged
+    assert "segment(s) c no momentum coefficient" in out.message

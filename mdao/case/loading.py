@@ -285,6 +285,24 @@ def _apply_calibration(raw, base):
     return frag
 
 
+def _check_map_efficiency(f):
+    """A fan map's efficiency must stay in (0, 1] over its flow range (the parabola is least at
+    an end of the range and largest at its peak, when the peak lies inside)."""
+    from mdao.physics.fan import map_efficiency
+
+    low, high = f["flow_coefficient_range"]
+    phi = np.array([low, high, min(max(f["peak_flow_coefficient"], low), high)])
+    eta = map_efficiency(phi, f["peak_efficiency"], f["peak_flow_coefficient"],
+                         f["efficiency_falloff"])
+    worst = int(np.argmin(eta))
+    if not eta[worst] > 0:
+        raise CaseError(f"fan map: the efficiency falls to {eta[worst]:.3g} at flow coefficient "
+                        f"{phi[worst]:.4g}, inside fan.flow_coefficient_range = [{low:g}, {high:g}] "
+                        f"(fan.peak_flow_coefficient = {f['peak_flow_coefficient']:g}, "
+                        f"fan.efficiency_falloff = {f['efficiency_falloff']:g}); allowed: "
+                        "an efficiency in (0, 1] over the whole range")
+
+
 def _check_unused(case, raw):
     """Refuse a model parameter that the case gives but its models do not use (it would be
     ignored without a word)."""
@@ -328,6 +346,7 @@ def _check_consistency(case, base):
         if f["pressure_coefficients"][0] <= 0:
             raise CaseError(f"fan.pressure_coefficients = {f['pressure_coefficients']!r}: the "
                             "first coefficient (shut-off pressure coefficient) must be > 0")
+        _check_map_efficiency(f)
     for p in chain_parameters(d["model"], f["model"], per_segment=False):
         if p.default is REQUIRED and case.value(p.key) is None:
             raise CaseError(f"{p.key} is missing (required when duct.model = \"{d['model']}\" "

@@ -92,7 +92,7 @@ SETTINGS = {
     "slot": {
         "ratio_bounds": pair(default=None, low=0, high=0.2, low_open=True),
         "min_height": quantity("length", default=0.0, low=0),
-        "max_jet_mach": number(default=0.5, low=0, high=1.0, low_open=True),
+        "max_jet_mach": number(default=0.4, low=0, high=1.0, low_open=True),
     },
     "duct": {
         "model": choice("lumped", "lumped", "geometric"),

@@ -12,7 +12,7 @@ import numpy as np
 
 from mdao import constraints
 from mdao.optimum.breakeven import break_even_efficiency
-from mdao.system import build_problem
+from mdao.system import build_problem, start_point
 
 
 @dataclass
@@ -79,6 +79,13 @@ def feasibility(case, vals):
     bad = constraints.violations(case, vals)
     if not np.all(np.isfinite(vals["net_power_saving"])):
         bad.append("net power is not finite")
+    on = case.blowing
+    eta = vals["fan_efficiency"][on]
+    if not np.all((eta > 0) & (eta <= 1)):
+        bad.append("fan efficiency outside (0, 1]: " + ", ".join(f"{e:.3g}" for e in eta))
+    shaft = vals["fan_shaft_power"][on]
+    if not np.all(np.isfinite(shaft) & (shaft >= 0)):
+        bad.append("fan shaft power negative or not finite")
     return bad
 
 
@@ -87,22 +94,28 @@ def _segments(case, vals, be):
     per, _ = active_constraints(case, vals)
     for i, seg in enumerate(case.segments):
         on = bool(seg["blowing"])
+
+        def jet(name, scale=1.0):
+            """A fan or jet quantity: None where the fan does not run (no jet to describe)."""
+            return float(vals[name][i]) * scale if on else None
+
         row = {
             "name": seg["name"], "blowing": on,
             "altitude_m": seg["altitude"], "speed_m_s": seg["speed"], "duration_s": seg["duration"],
             "momentum_coefficient": float(vals["momentum_coefficient"][i]),
-            "fan_pressure_rise_Pa": float(vals["fan_pressure_rise"][i]) if on else 0.0,
-            "required_pressure_rise_Pa": float(vals["required_pressure_rise"][i]),
+            "fan_pressure_rise_Pa": jet("fan_pressure_rise"),
+            "required_pressure_rise_Pa": jet("required_pressure_rise"),
             "ram_driven": bool(on and vals["required_pressure_rise"][i] <= 0),
-            "jet_velocity_m_s": float(vals["jet_velocity"][i]),
-            "jet_mach": float(vals["jet_mach"][i]),
-            "volume_flow_m3_s": float(vals["volume_flow"][i]),
-            "fan_speed_rpm": (float(vals["fan_speed"][i]) * 60.0
-                              if case.fan["model"] == "map" and on else None),
-            "flow_coefficient": (float(vals["flow_coefficient"][i])
-                                 if case.fan["model"] == "map" and on else None),
-            "fan_efficiency": float(vals["fan_efficiency"][i]) if on else None,
-            "fan_shaft_power_W": float(vals["fan_shaft_power"][i]) if on else 0.0,
+            "jet_velocity_m_s": jet("jet_velocity"),
+            "jet_mach": jet("jet_mach"),
+            # the incompressible jet head's shortfall, M^2/4 (isentropic series of p0 - p)
+            "incompressible_jet_error": (None if not on or case.fan["compressible"]
+                                         else float(vals["jet_mach"][i]) ** 2 / 4.0),
+            "volume_flow_m3_s": jet("volume_flow"),
+            "fan_speed_rpm": jet("fan_speed", 60.0) if case.fan["model"] == "map" else None,
+            "flow_coefficient": jet("flow_coefficient") if case.fan["model"] == "map" else None,
+            "fan_efficiency": jet("fan_efficiency"),
+            "fan_shaft_power_W": jet("fan_shaft_power"),
             "fan_electric_power_W": float(vals["fan_electric_power"][i]),
             "air_power_W": float(vals["air_power"][i]) if on else None,
             "energy_margin_W": float(vals["energy_margin"][i]) if on else None,
@@ -115,7 +128,7 @@ def _segments(case, vals, be):
             "active_constraints": per[i],
         }
         if case.duct["model"] == "geometric":
-            row["jet_loss_factor"] = float(vals["jet_loss_factor"][i])
+            row["jet_loss_factor"] = jet("jet_loss_factor")
         rows.append(row)
     return rows
 
@@ -166,6 +179,12 @@ def optimize(case, problem=None, warm_start=None):
         message = "optimizer stopped at an infeasible point: " + "; ".join(bad)
     elif not result.success:
         message = f"optimizer did not converge: {said}"
+        lacking = start_point(case).without_admissible_point
+        if lacking:
+            message += ("; in segment(s) " + ", ".join(lacking) + " no momentum coefficient of "
+                        "the calibrated range meets every per-segment constraint (energy "
+                        "balance, jet Mach, fan limits) at the start slot ratio: consider "
+                        "blowing = false there")
     else:
         message = f"converged: {said}"
     devals = int(getattr(scipy_result, "njev", 0) or 0)

@@ -1,5 +1,6 @@
 """The calibration's console text: constants with standard errors and 95 % intervals, the fit
-statistics, warnings, outliers and notes of :func:`mdao.studies.calibration.calibrate`.
+statistics, warnings, outliers, the energy balance and notes of
+:func:`mdao.studies.calibration.calibrate`.
 """
 from mdao.studies.calibration.fitting import CAUTION
 
@@ -19,7 +20,8 @@ def format_summary(result):
     -------
     str
         Constants with standard errors and 95 % intervals, fit statistics, warnings, outliers,
-        notes, and the closing caution line.
+        the energy balance of the runs and of the fitted model, notes, and the closing caution
+        line.
     """
     lines = []
     if "source" in result:
@@ -53,8 +55,42 @@ def format_summary(result):
     lines += [f"  - {name} fit, row {o['row']}: residual {o['residual']:.4g}, studentized "
               f"{o['studentized_external'] or o['studentized_internal']:.3g}"
               for name, o in outliers]
+    lines += _energy_lines(result.get("energy_balance"))
     if result["notes"]:
         lines.append("Notes:")
         lines += [f"  - {n}" for n in result["notes"]]
     lines.append(CAUTION)
     return "\n".join(lines)
+
+
+def _wrapped(items, indent="    ", width=100):
+    """Items joined by ', ' in lines of at most ``width`` characters, never split inside one."""
+    lines, line = [], indent
+    for k, item in enumerate(items):
+        piece = item + ("," if k < len(items) - 1 else "")
+        if line.strip() and len(line) + 1 + len(piece) > width:
+            lines.append(line)
+            line = indent
+        line += ("" if not line.strip() else " ") + piece
+    return lines + [line]
+
+
+def _energy_lines(balance):
+    """The energy-balance section: a warning line per check that fails, the flagged rows."""
+    if balance is None:
+        return []
+    broken, fitted = balance["broken_runs"], balance["fitted_model"]
+    worst = fitted["worst"]
+    lines = ["Energy balance, C_D + P_air/(q S V) >= 0 (first law, c = 1):"
+             + ("" if balance["warnings"] else " kept by the runs and the fitted model")]
+    if broken:
+        lines.append(f"  - WARNING: {balance['warnings'][0]}")
+        lines.append("    rows breaking it (margin):")
+        lines += _wrapped([f"row {b['row']} ({b['margin']:.3g})" for b in broken], "      ")
+    if worst["margin"] < 0:
+        lines.append(f"  - WARNING: {balance['warnings'][-1]}")
+    else:
+        lines.append(f"  - fitted model: smallest margin {worst['margin']:.4g} over the calibrated "
+                     f"range (at C_mu {worst['momentum_coefficient']:.4g}, slot ratio "
+                     f"{worst['slot_ratio']:.4g})")
+    return lines

@@ -3,6 +3,10 @@ from mdao import CAUTION, __version__
 from mdao.constraints import FEASIBLE_TOL
 
 
+#: Jet Mach number above which the incompressible jet's error is stated.
+INCOMPRESSIBLE_MACH = 0.3
+
+
 def _f(value, fmt):
     return "-" if value is None else format(value, fmt)
 
@@ -35,6 +39,11 @@ def segment_table(outcome, case):
     for s in outcome.segments:
         if s["active_constraints"]:
             lines.append(f"  {s['name']}: active: " + "; ".join(s["active_constraints"]))
+        error = s.get("incompressible_jet_error")
+        if error is not None and s["jet_mach"] > INCOMPRESSIBLE_MACH:
+            lines.append(f"  {s['name']}: jet Mach {s['jet_mach']:.2f}: the incompressible jet "
+                         f"head is low by about {100 * error:.1f} % (M^2/4); set [fan] "
+                         "compressible = true for the fan work")
         if s["ram_driven"]:
             lines.append(f"  {s['name']}: ram-driven: the jet needs no fan (required rise <= 0)")
         if s["blowing"] and s["energy_margin_W"] is not None \

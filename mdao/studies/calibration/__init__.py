@@ -4,6 +4,8 @@
   derived model variables (momentum coefficient, slot ratio, Reynolds number) and the fit plan;
 - :mod:`~mdao.studies.calibration.fitting`: least squares by QR, the duct, drag and lift fits,
   the plausibility warnings, :func:`calibrate`;
+- :mod:`~mdao.studies.calibration.energy`: the energy balance (first law) of the runs and of the
+  fitted model;
 - :mod:`~mdao.studies.calibration.fragment`: writing the TOML fragment a case includes (reading it
   back is :func:`mdao.case.fragment.load_fragment`, below case loading);
 - :mod:`~mdao.studies.calibration.plots`: the PNG figures (matplotlib, imported only to plot);
@@ -19,6 +21,9 @@ import importlib
 _WHERE = {
     "FragmentError": "mdao.case.fragment", "load_fragment": "mdao.case.fragment",
     "calibrate_file": "mdao.studies.calibration.files",
+    "energy_balance": "mdao.studies.calibration.energy",
+    "model_margin": "mdao.studies.calibration.energy",
+    "run_margins": "mdao.studies.calibration.energy",
     "CAUTION": "mdao.studies.calibration.fitting",
     "CONSTANT_ORDER": "mdao.studies.calibration.fitting",
     "MAX_CONDITION": "mdao.studies.calibration.fitting",

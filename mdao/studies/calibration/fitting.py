@@ -40,6 +40,10 @@ slope :math:`dC_D/dC_\mu = \beta + \beta' r_s` about -1.5 (warn outside -4 to -0
 slot-ratio range covered), jet-off slotted drag about three times the clean drag (warn when the
 ratio leaves 1-8 in the slot-ratio range covered).
 
+Energy balance (first law, :mod:`mdao.studies.calibration.energy`): the jet-on runs whose drag and
+air power break :math:`C_D + P_{air}/(q S V) \ge 0` are flagged by row and kept in the fit, and the
+fitted model is checked on a grid over the calibrated range.
+
 References
 ----------
 .. [1] Golub, G. H. and Van Loan, C. F. *Matrix Computations*, 4th ed., Johns Hopkins, 2013,
@@ -58,6 +62,7 @@ import numpy as np
 from scipy import linalg, stats
 
 from mdao.parameters import CHAIN_PARAMETERS
+from mdao.studies.calibration.energy import energy_balance
 from mdao.studies.calibration.runs import CalibrationError, check_runs, derived, fit_plan
 
 __all__ = ["CalibrationWarning", "CAUTION", "PLAUSIBLE", "CONSTANT_ORDER", "OUTLIER_LIMIT",
@@ -351,8 +356,10 @@ def calibrate(runs):
     dict
         JSON-ready: ``constants`` (case key path -> ``value``, ``stderr``, ``ci95``),
         ``covariance`` (``parameters``, ``matrix``; zero between separate fits), ``fits``
-        (``duct``, ``drag``, ``lift``), ``validity`` (ranges over all runs), ``warnings``,
-        ``notes``, ``caution``.
+        (``duct``, ``drag``, ``lift``), ``validity`` (ranges over all runs), ``warnings`` (the
+        plausibility warnings), ``notes``, ``energy_balance`` (the runs and the fitted model
+        against the first law, :func:`mdao.studies.calibration.energy.energy_balance`; its
+        ``warnings`` are listed there, not among the plausibility warnings), ``caution``.
 
     Raises
     ------
@@ -408,11 +415,13 @@ def calibrate(runs):
     for fit_name, message in warned:
         fits[fit_name]["warnings"].append(message)
         warnings.warn(message, CalibrationWarning, stacklevel=2)
+    balance = energy_balance(runs, d, constants, validity)
     return {
         "constants": constants,
         "covariance": {"parameters": parameters, "matrix": matrix.tolist()},
         "fits": fits, "validity": validity, "runs": int(all_rows.size),
         "warnings": [message for _, message in warned], "notes": notes,
+        "energy_balance": balance,
         "rules_of_thumb": {k: {"typical": v[0], "warn_outside": [v[1], v[2]],
                                "source": "common practice, no source"}
                            for k, v in PLAUSIBLE.items()},

@@ -8,7 +8,7 @@ calibration fits use:
 .. math::
     A_j = h b, \quad Q = \dot m / \rho, \quad V_j = Q / A_j, \quad q = \tfrac12 \rho V^2,
     \quad C_\mu = \frac{\dot m V_j}{q c b}, \quad r_s = \frac{h}{c},
-    \quad Re = \frac{\rho V c}{\mu}.
+    \quad Re = \frac{\rho V c}{\mu}, \quad P_{air} = Q\,\Delta p_{fan}.
 
 The jet is taken at the freestream density (incompressible jet). The viscosity comes from the ISA
 at the ``altitude`` column; when only ``density`` is given it is taken at the sea-level ISA
@@ -226,7 +226,8 @@ def derived(runs):
         ``density`` [kg/m^3], ``viscosity`` [Pa s], ``dynamic_pressure`` q [Pa],
         ``jet_velocity`` V_j [m/s], ``jet_dynamic_pressure`` rho V_j^2/2 [Pa],
         ``momentum_coefficient`` C_mu [-], ``slot_ratio`` r_s [-], ``reynolds`` [-] on the chord,
-        ``jet_on`` (bool), and ``notes`` (list of str).
+        ``volume_flow`` Q [m^3/s], ``air_power`` Q dP_fan [W] (negative when the fan windmills,
+        dP_fan < 0), ``jet_on`` (bool), and ``notes`` (list of str).
 
     Examples
     --------
@@ -257,5 +258,7 @@ def derived(runs):
         "jet_dynamic_pressure": jet_q,
         "momentum_coefficient": rho * volume_flow * jet_velocity / (q * chord * span),
         "slot_ratio": height / chord, "reynolds": rho * speed * chord / mu,
+        "volume_flow": volume_flow,
+        "air_power": volume_flow * np.asarray(runs["fan_pressure_rise"], float),
         "jet_on": volume_flow > 0, "notes": notes,
     }
