@@ -50,7 +50,8 @@ class Constraint:
         optimizer's ``ref``, and the margin of a bound at zero) instead of its bounds.
     condition : str or None
         A further condition on the case: ``"slot ratio free"`` (the slot ratio is a design
-        variable) or ``"minimum slot height"`` (the case sets one).
+        variable), ``"minimum slot height"`` (the case sets one) or ``"aircraft"`` (the case
+        describes the aircraft around the wing, ``[aircraft]``).
     """
 
     name: str
@@ -89,6 +90,8 @@ CONSTRAINTS = (
                duct_models=("geometric",)),
     Constraint("minimum slot height", "slot_height", lower="slot.min_height", per_segment=False,
                condition="minimum slot height"),
+    Constraint("main thrust floor", "main_thrust", lower="aircraft.min_main_thrust",
+               condition="aircraft"),
 )
 
 #: Constraint by name.
@@ -110,6 +113,8 @@ def _condition_holds(constraint, case):
         return slot_ratio_free(case)
     if constraint.condition == "minimum slot height":  # a fixed slot is checked on loading
         return case.slot["min_height"] > 0 and slot_ratio_free(case)
+    if constraint.condition == "aircraft":
+        return bool(getattr(case, "has_aircraft", False))
     raise ValueError(f"unknown constraint condition {constraint.condition!r}")
 
 

@@ -55,6 +55,9 @@ class Parameter:
         May appear in a case's ``[uncertainty]`` table and in sensitivity studies.
     calibrated : bool
         A calibration fragment may give it.
+    aircraft : bool
+        Used only when the case describes the aircraft around the wing (an ``[aircraft]``
+        table): the aircraft's lift, drag and main-propulsor thrust (:mod:`mdao.physics.aircraft`).
     description : str
         What it is, in the trade's words.
     """
@@ -75,6 +78,7 @@ class Parameter:
     per_segment: bool = False
     uncertain: bool = True
     calibrated: bool = False
+    aircraft: bool = False
     description: str = ""
 
     @property
@@ -94,8 +98,11 @@ class Parameter:
             return self.default
         return self.example
 
-    def used_by(self, duct_model, fan_model):
-        """Whether a chain with these models uses the parameter."""
+    def used_by(self, duct_model, fan_model, aircraft=False):
+        """Whether a chain with these models (and the aircraft, when ``aircraft``) uses the
+        parameter."""
+        if self.aircraft and not aircraft:
+            return False
         if self.either:
             return duct_model in self.duct_models or fan_model in self.fan_models
         return duct_model in self.duct_models and fan_model in self.fan_models
@@ -185,12 +192,31 @@ CHAIN_PARAMETERS = (
     Parameter("propulsion.chain_efficiency", "chain_efficiency", example=0.8, low=0, high=1,
               low_open=True,
               description="thrust power per source power of the main propulsion chain"),
+    Parameter("aircraft.mass", "aircraft_mass", "kg", "mass", example=25.0, low=0,
+              low_open=True, uncertain=False, aircraft=True,
+              description="aircraft mass without the blowing system"),
+    Parameter("aircraft.wing_area", "wing_area", "m**2", "area", example=1.6, low=0,
+              low_open=True, uncertain=False, aircraft=True,
+              description="reference wing area of the aircraft"),
+    Parameter("aircraft.zero_lift_drag", "zero_lift_drag", example=0.03, low=0, high=1,
+              low_open=True, uncertain=False, aircraft=True,
+              description="zero-lift drag coefficient C_D0 of the whole aircraft with the "
+                          "clean, unslotted wing"),
+    Parameter("aircraft.aspect_ratio", "aspect_ratio", example=10.0, low=0, high=100,
+              low_open=True, uncertain=False, aircraft=True,
+              description="wing aspect ratio b^2/S"),
+    Parameter("aircraft.span_efficiency", "span_efficiency", example=0.8, low=0, high=1,
+              low_open=True, uncertain=False, aircraft=True,
+              description="span efficiency (Oswald) factor e of the drag polar"),
     Parameter("segment.altitude", "altitude", "m", "length", example=0.0, low=0, high=20000,
               per_segment=True, description="geometric altitude"),
     Parameter("segment.speed", "speed", "m/s", "speed", example=40.0, low=0, high=400,
               low_open=True, per_segment=True, description="flight speed"),
     Parameter("segment.duration", "duration", "s", "time", example=3600.0, low=0,
               low_open=True, per_segment=True, description="segment duration"),
+    Parameter("segment.climb_rate", "climb_rate", "m/s", "speed", default=0.0, low=-400,
+              high=400, per_segment=True, uncertain=False, aircraft=True,
+              description="rate of climb (negative: descent)"),
 )
 
 #: Parameters of the blowing system's mass (:mod:`mdao.components.mass`).
@@ -241,10 +267,10 @@ def parameter(key_or_name):
     raise KeyError(f"{key_or_name!r} is not a model parameter")
 
 
-def chain_parameters(duct_model, fan_model, per_segment=None):
+def chain_parameters(duct_model, fan_model, per_segment=None, aircraft=False):
     """The chain's parameters that these models use (optionally only wing-level or only
-    per-segment ones)."""
-    return tuple(p for p in CHAIN_PARAMETERS if p.used_by(duct_model, fan_model)
+    per-segment ones); with ``aircraft`` also those of the aircraft around the wing."""
+    return tuple(p for p in CHAIN_PARAMETERS if p.used_by(duct_model, fan_model, aircraft)
                  and (per_segment is None or p.per_segment == per_segment))
 
 

@@ -14,6 +14,7 @@ from mdao import constraints as design_constraints
 from mdao import parameters as registry
 from mdao.physics import chain
 
+from mdao.components.aircraft import AircraftComp
 from mdao.components.airfoil import AirfoilComp
 from mdao.components.atmosphere import AtmosphereComp
 from mdao.components.chain import ChainComp
@@ -46,6 +47,9 @@ class BlownWingGroup(om.Group):
         self.options.declare("stations", types=int, default=33, lower=3)
         self.options.declare("schedule", default="monotone-area", values=("monotone-area", "linear"))
         self.options.declare("compressible", types=bool, default=False)
+        self.options.declare("aircraft", types=bool, default=False,
+                             desc="the aircraft around the wing (a case's [aircraft] table): "
+                                  "lift coefficient, main thrust, clean mission energy")
         self.options.declare("blowing", default=None, allow_none=True,
                              desc="per node: does the fan run (default: all)")
         self.options.declare("follow_requirement", types=bool, default=False,
@@ -62,7 +66,8 @@ class BlownWingGroup(om.Group):
         if o["fused"]:
             self.add_subsystem("chain", ChainComp(**{k: o[k] for k in (
                 "num_nodes", "duct_model", "fan_model", "fans", "stations", "schedule",
-                "compressible", "blowing", "follow_requirement")}), promotes=["*"])
+                "compressible", "blowing", "follow_requirement", "aircraft")}),
+                promotes=["*"])
             return
         self.add_subsystem("atmosphere", AtmosphereComp(num_nodes=n), promotes=["*"])
         self.add_subsystem("jet", JetComp(num_nodes=n), promotes=["*"])
@@ -83,9 +88,13 @@ class BlownWingGroup(om.Group):
         self.add_subsystem("airfoil", AirfoilComp(num_nodes=n), promotes=["*"])
         self.add_subsystem("power", SegmentPowerComp(num_nodes=n, blowing=o["blowing"]),
                            promotes=["*"])
+        shared = SHARED_INPUTS
+        if o["aircraft"]:
+            self.add_subsystem("aircraft", AircraftComp(num_nodes=n), promotes=["*"])
+            shared = shared + ("duration", "chain_efficiency")
 
         # inputs that several components share: one default each, from the declarations
-        for name in SHARED_INPUTS:
+        for name in shared:
             p = registry.BY_NAME[name]
             if p.used_by(o["duct_model"], o["fan_model"]):
                 value = p.start_value * (np.ones(n) if p.per_segment else 1.0)
@@ -103,7 +112,8 @@ def group_options(case, fused=None):
 def applicable_parameters(case):
     """The :class:`mdao.parameters.Parameter` declarations of the chain that the case's models
     use (wing-level and per-segment)."""
-    return registry.chain_parameters(case.duct["model"], case.fan["model"])
+    return registry.chain_parameters(case.duct["model"], case.fan["model"],
+                                     aircraft=case.has_aircraft)
 
 
 def parameter_values(case):
@@ -218,7 +228,8 @@ def chain_options(case):
 
     return ChainOptions(duct_model=case.duct["model"], fan_model=case.fan["model"],
                         fans=case.duct["fans"], stations=case.duct["stations"],
-                        schedule=case.duct["schedule"], compressible=case.fan["compressible"])
+                        schedule=case.duct["schedule"], compressible=case.fan["compressible"],
+                        aircraft=case.has_aircraft)
 
 
 def chain_parameters(case, **overrides):

@@ -21,7 +21,7 @@ SI_UNITS = {
     "angle": "rad", "rotational_speed": "revolution/s", "mass_flow": "kg/s",
     "volume_flow": "m**3/s", "power": "W", "area": "m**2", "mass": "kg",
     "specific_power": "W/kg", "areal_density": "kg/m**2", "dimensionless": "",
-    "viscosity": "Pa*s", "energy": "J",
+    "viscosity": "Pa*s", "energy": "J", "force": "N",
 }
 
 

@@ -91,3 +91,43 @@ def test_fan_points_file_wrong_unit_names_the_file_and_column(tmp_path, cases_di
                             ["0.1,1000,20000,0.7"] * 5)
     with pytest.raises(CaseError, match=r"fan.points_file 'fan.csv': column 'pressure_rise'"):
         load_case(path)
+
+
+def _calibrated_case(tmp_path, cases_dir, segment, extra=""):
+    calibrate_file(cases_dir / "data" / "demo_runs.csv", tmp_path / "calib", plots=False)
+    text = CASE.replace('altitude = "500 m"\nspeed = "25 m/s"', segment) + extra
+    (tmp_path / "case.toml").write_text(text)
+    return tmp_path / "case.toml"
+
+
+def test_segment_outside_the_calibrated_range_is_refused(tmp_path, cases_dir):
+    """90 m/s at 6 km on the 0.4 m chord: chord Reynolds number about 1.5e6 (ISA, ICAO Doc
+    7488: rho 0.6601 kg/m3, mu 1.5949e-5 Pa s) against the calibration's runs: refused, naming
+    the segment, the quantity, the value and the range."""
+    path = _calibrated_case(tmp_path, cases_dir, 'altitude = "6 km"\nspeed = "90 m/s"')
+    with pytest.raises(CaseError, match=r"segment 'cruise': (Reynolds number on the chord "
+                                        r"1\.49e\+06|speed 90 m/s) is outside \["):
+        load_case(path)
+
+
+def test_extrapolation_runs_marked(tmp_path, cases_dir):
+    """With [validity] extrapolate = true the same case runs, and every output says so."""
+    from mdao.report.console import summary
+    path = _calibrated_case(tmp_path, cases_dir, 'altitude = "6 km"\nspeed = "90 m/s"',
+                            "\n[validity]\nextrapolate = true\n")
+    case = load_case(path)
+    assert case.extrapolation and all("cruise" in text for text in case.extrapolation)
+    out = optimize(case)
+    data = out.to_json()
+    assert data["extrapolated"] is True and data["extrapolation"] == case.extrapolation
+    assert "WARNING: extrapolated" in summary(out, case)
+
+
+def test_case_validity_table_overrides_and_checks(tmp_path, cases_dir):
+    """A case's own [validity] speed range is checked without any calibration."""
+    text = (cases_dir / "survey-drone.toml").read_text() + \
+        '\n[validity]\nspeed_range = ["10 m/s", "20 m/s"]\n'
+    (tmp_path / "c.toml").write_text(text)
+    with pytest.raises(CaseError, match=r"speed .* m/s is outside \[10, 20\] m/s of "
+                                        r"validity\.speed_range"):
+        load_case(tmp_path / "c.toml")

@@ -19,10 +19,13 @@ N = 5
 FANS = 2
 STATIONS = 9
 BLOWING = [True, True, False, True, True]
-COMBOS = list(itertools.product(("lumped", "geometric"), ("constant", "map"), (False, True),
-                                (False, True)))
+#: (duct, fan, compressible, follow requirement, aircraft): every model combination without the
+#: aircraft around the wing, and two with it.
+COMBOS = [c + (False,) for c in itertools.product(("lumped", "geometric"), ("constant", "map"),
+                                                  (False, True), (False, True))]
+COMBOS += [("lumped", "constant", False, False, True), ("geometric", "map", True, True, True)]
 IDS = [f"{d}-{f}-{'compressible' if c else 'incompressible'}-{'follow' if r else 'given'}"
-       for d, f, c, r in COMBOS]
+       + ("-aircraft" if a else "") for d, f, c, r, a in COMBOS]
 
 #: Ranges of the random points: inside the allowed ranges of mdao.parameters, around a small
 #: blown wing (values of this test, not of any source). The fan pressure rise the jet needs
@@ -41,7 +44,9 @@ RANGES = {"altitude": (0.0, 9000.0), "speed": (25.0, 70.0), "duration": (100.0, 
           "slot_drag_per_ratio": (0.0, 0.5), "drag_per_momentum": (-2.0, -0.8),
           "drag_per_momentum_per_ratio": (-5.0, 5.0), "drag_quadratic": (0.0, 1.0),
           "lift_per_momentum": (0.0, 5.0), "chain_efficiency": (0.7, 0.9),
-          "thrust_power_ceiling": (0.6, 1.0)}
+          "thrust_power_ceiling": (0.6, 1.0), "aircraft_mass": (15.0, 40.0),
+          "wing_area": (1.2, 2.0), "zero_lift_drag": (0.025, 0.035), "aspect_ratio": (8.0, 14.0),
+          "span_efficiency": (0.7, 0.9), "climb_rate": (-2.0, 3.0)}
 
 
 def _schedule(duct_model, compressible):
@@ -49,11 +54,11 @@ def _schedule(duct_model, compressible):
     return "linear" if duct_model == "geometric" and compressible else "monotone-area"
 
 
-def _values(duct_model, fan_model, follow, seed=20240):
+def _values(duct_model, fan_model, follow, seed=20240, aircraft=False):
     """Random inputs of every parameter the models use (names from mdao.parameters)."""
     rng = np.random.default_rng(seed)
     values = {}
-    for p in registry.chain_parameters(duct_model, fan_model):
+    for p in registry.chain_parameters(duct_model, fan_model, aircraft=aircraft):
         if p.name == "pressure_coefficients":
             values[p.name] = np.array([0.6, 0.5, -1.5]) * rng.uniform(0.9, 1.1, 3)
             continue
@@ -66,10 +71,11 @@ def _values(duct_model, fan_model, follow, seed=20240):
     return values
 
 
-def _options(duct_model, fan_model, compressible, follow):
+def _options(duct_model, fan_model, compressible, follow, aircraft=False):
     return dict(num_nodes=N, duct_model=duct_model, fan_model=fan_model, fans=FANS,
                 stations=STATIONS, schedule=_schedule(duct_model, compressible),
-                compressible=compressible, blowing=BLOWING, follow_requirement=follow)
+                compressible=compressible, blowing=BLOWING, follow_requirement=follow,
+                aircraft=aircraft)
 
 
 def _problem(fused, combo, values):
@@ -104,7 +110,7 @@ def pair(request):
     blowing has no jet (C_mu = 0), as the cases' start points have: there the map fan has no
     speed when it follows the (negative) requirement, and the power must not care."""
     combo = request.param
-    values = _values(combo[0], combo[1], combo[3])
+    values = _values(combo[0], combo[1], combo[3], aircraft=combo[4])
     values["momentum_coefficient"][~np.array(BLOWING)] = 0.0
     return combo, values, _problem(False, combo, values), _problem(True, combo, values)
 
@@ -133,7 +139,8 @@ def test_fused_inputs_follow_the_declarations(pair):
     combo, _, group, fused = pair
     ins = {meta["prom_name"]: meta["units"]
            for _, meta in fused.model.list_inputs(out_stream=None, prom_name=True, units=True)}
-    declared = {p.name: p.unit for p in registry.chain_parameters(combo[0], combo[1])}
+    declared = {p.name: p.unit for p in registry.chain_parameters(combo[0], combo[1],
+                                                                  aircraft=combo[4])}
     extra = {"momentum_coefficient": None}
     if not combo[3]:
         extra["fan_pressure_rise"] = "Pa"
@@ -150,13 +157,15 @@ def ref_inputs(prob):
 OF = ("net_power_saving", "mission_energy_saving", "energy_saving", "required_pressure_rise",
       "fan_shaft_power", "jet_mach", "slot_height", "section_drag", "drag_saving",
       "jet_loss_factor", "fan_speed", "flow_coefficient", "tip_mach", "fan_efficiency",
-      "diffusion_half_angle", "station_area")
+      "diffusion_half_angle", "station_area", "lift_coefficient", "main_thrust",
+      "main_thrust_clean", "clean_source_energy", "mission_clean_energy")
 WRT = ("slot_ratio", "momentum_coefficient", "fan_pressure_rise", "altitude", "speed",
        "duration", "chord", "blown_span", "freestream_assist", "drag_clean", "drag_per_momentum",
        "motor_efficiency", "chain_efficiency", "jet_loss_factor", "fan_rated_efficiency",
        "fan_diameter", "transition_length", "slot_exponent", "suction_ratio", "roughness",
        "bend_loss", "extra_loss", "pressure_coefficients", "peak_efficiency",
-       "efficiency_falloff")
+       "efficiency_falloff", "aircraft_mass", "wing_area", "zero_lift_drag", "aspect_ratio",
+       "span_efficiency", "climb_rate")
 
 
 def test_same_total_derivatives(pair):
@@ -187,6 +196,13 @@ def test_same_total_derivatives(pair):
     # and no dependence that is not there: the fan's shaft power is not the motor's business
     for totals in (ref, tot):
         assert not np.any(totals["fan_shaft_power", "motor_efficiency"])
+    if combo[4]:
+        for key in (("main_thrust", "momentum_coefficient"), ("main_thrust", "aircraft_mass"),
+                    ("mission_clean_energy", "climb_rate"), ("lift_coefficient", "altitude"),
+                    ("mission_clean_energy", "span_efficiency")):
+            assert np.any(ref[key] != 0), key
+        # the clean aircraft does not see the blowing
+        assert not np.any(tot["mission_clean_energy", "momentum_coefficient"])
 
 
 def test_numpy_chain_equals_the_group(pair):
@@ -211,7 +227,9 @@ def test_numpy_chain_equals_the_group(pair):
 
 @pytest.mark.parametrize("combo", COMBOS, ids=IDS)
 def test_fused_partials_against_finite_differences(combo):
-    values = _values(combo[0], combo[1], combo[3], seed=7)
+    values = _values(combo[0], combo[1], combo[3], seed=7, aircraft=combo[4])
+    if combo[4]:    # rates of climb away from zero: a relative step on w ~ 0 is all round-off
+        values["climb_rate"] = np.array([1.5, -1.2, 2.0, -0.9, 2.5])
     assert_partials(ChainComp(**_options(*combo)), values)
 
 
@@ -260,3 +278,18 @@ def test_defaults_come_from_the_declarations():
         if name != "lift_per_momentum":     # it moves the lift only
             assert not np.array_equal(left_out["net_power_saving"], full), name
     assert not hasattr(chain, "DEFAULTS")
+
+
+def test_aircraft_component_partials_against_finite_differences():
+    """The per-discipline AircraftComp's sparse analytic partials against finite differences."""
+    from mdao.components.aircraft import AircraftComp
+
+    rng = np.random.default_rng(11)
+    values = {k: rng.uniform(*RANGES[k]) for k in ("aircraft_mass", "wing_area",
+                                                   "zero_lift_drag", "aspect_ratio",
+                                                   "span_efficiency", "chain_efficiency")}
+    values.update({k: rng.uniform(*RANGES[k], N) for k in ("speed", "duration")})
+    values["climb_rate"] = np.array([1.5, -1.2, 2.0, -0.9, 2.5])
+    values["dynamic_pressure"] = rng.uniform(300.0, 2500.0, N)
+    values["drag_saving"] = rng.uniform(-2.0, 5.0, N)
+    assert_partials(AircraftComp(num_nodes=N), values)

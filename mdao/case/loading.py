@@ -146,15 +146,25 @@ class Case:
     optimize: dict
     review: dict
     mass: dict
+    validity: dict = field(default_factory=dict)
+    #: The aircraft around the wing (``[aircraft]``; its values None when the case has none).
+    aircraft: dict = field(default_factory=dict)
     uncertainty: dict = field(default_factory=dict)
     calibration: dict = None
     path: Path = None
     text: str = ""
+    #: Where a segment lies outside the validated ranges (only with ``[validity] extrapolate``).
+    extrapolation: list = field(default_factory=list)
 
     @property
     def blowing(self):
         """Per segment: does the fan run?"""
         return np.array([s["blowing"] for s in self.segments], bool)
+
+    @property
+    def has_aircraft(self):
+        """Whether the case describes the aircraft around the wing (an ``[aircraft]`` table)."""
+        return bool(self.aircraft) and self.aircraft.get("mass") is not None
 
     @property
     def segment_names(self):
@@ -254,7 +264,9 @@ def parse_case(raw, base=Path("."), path=None, text=""):
     case = Case(title=raw["title"], segments=segments, calibration=calibration, path=path,
                 text=text, **tables)
     _check_consistency(case, base)
+    _check_aircraft(case, raw)
     _check_unused(case, raw)
+    case.extrapolation = _check_validity(case)
     case.uncertainty = _read_uncertainty(raw.get("uncertainty", {}), case)
     return case
 
@@ -303,6 +315,49 @@ def _check_map_efficiency(f):
                         "an efficiency in (0, 1] over the whole range")
 
 
+def validity_ranges(case):
+    """The validated ranges that the segments must stay in: ``{quantity: (low, high, where)}``
+    for the chord Reynolds number and the flight speed, from the case's ``[validity]`` table,
+    else from its calibration fragment."""
+    fragment = (case.calibration or {}).get("validity", {})
+    out = {}
+    for key in ("reynolds_range", "speed_range"):
+        if case.validity.get(key) is not None:
+            out[key] = (*case.validity[key], f"validity.{key}")
+        elif fragment.get(key) is not None:
+            out[key] = (*fragment[key], f"the calibration {case.calibration['file']}")
+    return out
+
+
+def segment_reynolds(case):
+    """Reynolds number on the chord of each segment, ISA at its altitude, [-]."""
+    from mdao.physics.atmosphere import isa
+
+    alt = np.array([s["altitude"] for s in case.segments])
+    speed = np.array([s["speed"] for s in case.segments])
+    state = isa(alt)
+    return state.density * speed * case.wing["chord"] / state.viscosity
+
+
+def _check_validity(case):
+    """Every segment inside the validated Reynolds and speed ranges, else a CaseError naming
+    segment, quantity, value and range; with ``[validity] extrapolate = true`` the list of
+    the same findings instead (they travel to every output)."""
+    values = {"reynolds_range": ("Reynolds number on the chord", segment_reynolds(case), ""),
+              "speed_range": ("speed", np.array([s["speed"] for s in case.segments]), " m/s")}
+    found = []
+    for key, (low, high, where) in validity_ranges(case).items():
+        label, vals, unit = values[key]
+        for seg, v in zip(case.segments, vals):
+            if not low <= v <= high:
+                found.append(f"segment {seg['name']!r}: {label} {v:.4g}{unit} is outside "
+                             f"[{low:.4g}, {high:.4g}]{unit} of {where}")
+    if found and not case.validity["extrapolate"]:
+        raise CaseError(found[0] + "; the model is not validated there (set [validity] "
+                        "extrapolate = true to run anyway, with every output marked)")
+    return found
+
+
 def _check_unused(case, raw):
     """Refuse a model parameter that the case gives but its models do not use (it would be
     ignored without a word)."""
@@ -310,10 +365,35 @@ def _check_unused(case, raw):
     for p in PARAMETERS:
         if p.per_segment or not isinstance(raw.get(p.table), dict) or p.field not in raw[p.table]:
             continue
-        if not p.used_by(d, f):
+        if not p.used_by(d, f, case.has_aircraft):
             raise CaseError(f"{p.key} is given but not used with duct.model = \"{d}\" and "
                             f"fan.model = \"{f}\" ({p.description}); remove it or change the "
                             "model")
+
+
+def _check_aircraft(case, raw):
+    """An ``[aircraft]`` table gives all of its required keys; a segment's ``climb_rate`` needs
+    it, and stays below the segment's speed (sin(gamma) = climb_rate / V)."""
+    given = isinstance(raw.get("aircraft"), dict) and bool(raw["aircraft"])
+    needed = [p for p in CHAIN_PARAMETERS if p.aircraft and not p.per_segment
+              and p.default is REQUIRED]
+    if given:
+        for p in needed:
+            if case.aircraft[p.field] is None:
+                raise CaseError(f"{p.key} is missing (required when the case has an [aircraft] "
+                                f"table: {p.description})")
+    for i, seg in enumerate(raw.get("segment", [])):
+        if not isinstance(seg, dict) or "climb_rate" not in seg:
+            continue
+        name = case.segments[i]["name"]
+        if not given:
+            raise CaseError(f"segment {name!r}: climb_rate is given, but the case has no "
+                            "[aircraft] table (mass, wing_area, zero_lift_drag, aspect_ratio, "
+                            "span_efficiency); add it or remove climb_rate")
+        rate, speed = case.segments[i]["climb_rate"], case.segments[i]["speed"]
+        if not abs(rate) < speed:
+            raise CaseError(f"segment {name!r}: climb_rate = {rate:g} m/s: allowed is a rate "
+                            f"of climb smaller in magnitude than the speed {speed:g} m/s")
 
 
 def _check_consistency(case, base):

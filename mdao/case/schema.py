@@ -79,7 +79,7 @@ def _from_parameter(p):
     if isinstance(p.example, tuple):
         return Spec("list", default=None, length=len(p.example))
     default = p.default
-    if default is REQUIRED and (p.duct_models != ("lumped", "geometric")
+    if default is REQUIRED and (p.aircraft or p.duct_models != ("lumped", "geometric")
                                 or p.fan_models != ("constant", "map")):
         default = None
     typ = "number" if p.dimension == "dimensionless" else "quantity"
@@ -127,6 +127,14 @@ SETTINGS = {
         "fan_efficiencies": Spec("list", default=None, length=None),
     },
     "mass": {},
+    "aircraft": {
+        "min_main_thrust": quantity("force", default=0.0, low=0),
+    },
+    "validity": {
+        "reynolds_range": pair(default=None, low=0, low_open=True),
+        "speed_range": pair("speed", default=None, low=0, low_open=True),
+        "extrapolate": Spec("bool", default=False),
+    },
 }
 
 #: Settings of each ``[[segment]]`` table.

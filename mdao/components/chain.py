@@ -26,7 +26,9 @@ OUTPUT_UNITS = {
     "pressure_coefficient": None, "tip_mach": None, "drag_coefficient": None,
     "section_drag": "N", "clean_section_drag": "N", "drag_saving": "N", "lift_increment": None,
     "propulsion_power_saving": "W", "fan_electric_power": "W", "net_power_saving": "W",
-    "energy_margin": "W", "energy_saving": "J"}
+    "energy_margin": "W", "energy_saving": "J", "lift_coefficient": None,
+    "aircraft_clean_drag": "N", "main_thrust_clean": "N", "main_thrust": "N",
+    "clean_source_power": "W", "clean_source_energy": "J"}
 #: Station outputs of the geometric duct: output name -> (station field, units).
 STATION_OUTPUTS = {"station_position": ("position", "m"), "station_area": ("area", "m**2"),
                    "station_perimeter": ("perimeter", "m"),
@@ -59,19 +61,23 @@ class ChainComp(om.ExplicitComponent):
         self.options.declare("follow_requirement", types=bool, default=False,
                              desc="the fan gives the required pressure rise (no "
                                   "fan_pressure_rise input)")
+        self.options.declare("aircraft", types=bool, default=False,
+                             desc="the aircraft around the wing: lift coefficient, clean drag, "
+                                  "main thrust and the clean mission energy")
 
     def _chain_options(self):
         o = self.options
         return chain.ChainOptions(duct_model=o["duct_model"], fan_model=o["fan_model"],
                                   fans=o["fans"], stations=o["stations"], schedule=o["schedule"],
-                                  compressible=o["compressible"])
+                                  compressible=o["compressible"], aircraft=o["aircraft"])
 
     def setup(self):
         o = self.options
         n = o["num_nodes"]
         self._chain_opts = self._chain_options()
         self._chain_blowing = blowing_flags(o["blowing"], n)
-        params = registry.chain_parameters(o["duct_model"], o["fan_model"])
+        params = registry.chain_parameters(o["duct_model"], o["fan_model"],
+                                           aircraft=o["aircraft"])
         self._chain_node = [p.name for p in params if p.per_segment]
         self._chain_wing = [p.name for p in params if not p.per_segment]
         probe = {}
@@ -100,6 +106,9 @@ class ChainComp(om.ExplicitComponent):
             for name, (field, units) in STATION_OUTPUTS.items():
                 self.add_output(name, val=np.ones(o["stations"]), units=units)
         self.add_output("mission_energy_saving", val=0.0, units="J")
+        if o["aircraft"]:
+            self.add_output("mission_clean_energy", val=0.0, units="J",
+                            desc="source energy of the clean aircraft's main propulsion")
 
     def _params(self, inputs):
         return {k: inputs[k] for k in self._chain_node + self._chain_wing}
@@ -135,13 +144,22 @@ class ChainComp(om.ExplicitComponent):
             for name, (field, _) in STATION_OUTPUTS.items():
                 for wrt in st_tan[field]:
                     self._declare(name, wrt, self.options["stations"])
-        self._chain_mission = [wrt for wrt in partials["energy_saving"] if wrt in self._chain_probe]
-        for wrt in self._chain_mission:
-            if wrt in self._chain_node:
-                self.declare_partials("mission_energy_saving", wrt, rows=np.zeros(n, int),
-                                      cols=np.arange(n))
-            else:
-                self.declare_partials("mission_energy_saving", wrt)
+        self._chain_totals = {
+            total: [wrt for wrt in partials[of] if wrt in self._chain_probe]
+            for total, of in self._mission_totals().items()}
+        for total, wrts in self._chain_totals.items():
+            for wrt in wrts:
+                if wrt in self._chain_node:
+                    self.declare_partials(total, wrt, rows=np.zeros(n, int), cols=np.arange(n))
+                else:
+                    self.declare_partials(total, wrt)
+
+    def _mission_totals(self):
+        """Wing-level sums over the segments: ``{sum: per-segment output}``."""
+        totals = {"mission_energy_saving": "energy_saving"}
+        if self.options["aircraft"]:
+            totals["mission_clean_energy"] = "clean_source_energy"
+        return totals
 
     def compute(self, inputs, outputs):
         out = chain.evaluate(self._params(inputs), self._chain_opts, blowing=self._chain_blowing)
@@ -151,7 +169,8 @@ class ChainComp(om.ExplicitComponent):
             st = chain.duct_stations(self._params(inputs), self._chain_opts)
             for name, (field, _) in STATION_OUTPUTS.items():
                 outputs[name] = getattr(st, field)
-        outputs["mission_energy_saving"] = np.sum(out["energy_saving"])
+        for total, of in self._mission_totals().items():
+            outputs[total] = np.sum(out[of])
 
     def compute_partials(self, inputs, partials):
         _, d = chain.evaluate(self._params(inputs), self._chain_opts, blowing=self._chain_blowing,
@@ -164,9 +183,7 @@ class ChainComp(om.ExplicitComponent):
             for name, (field, _) in STATION_OUTPUTS.items():
                 for wrt, t in st_tan[field].items():
                     partials[name, wrt] = t
-        for wrt in self._chain_mission:
-            t = d["energy_saving"][wrt]
-            if wrt in self._chain_node:
-                partials["mission_energy_saving", wrt] = t
-            else:
-                partials["mission_energy_saving", wrt] = t.sum(axis=0)
+        for total, of in self._mission_totals().items():
+            for wrt in self._chain_totals[total]:
+                t = d[of][wrt]
+                partials[total, wrt] = t if wrt in self._chain_node else t.sum(axis=0)

@@ -31,6 +31,22 @@ class Outcome:
     wing_active_constraints: list
     values: dict = field(repr=False)
     problem: object = field(repr=False, default=None)
+    #: Where segments lie outside the validated ranges (empty: inside everywhere).
+    extrapolation: list = field(default_factory=list)
+
+    @property
+    def mission_energy_clean_J(self):
+        """Source energy of the clean aircraft's main propulsion over the mission [J] (None
+        without an ``[aircraft]`` table)."""
+        value = self.values.get("mission_clean_energy")
+        return None if value is None else float(value)
+
+    @property
+    def mission_energy_saving_fraction(self):
+        """The mission energy saved over the clean aircraft's mission energy (None without an
+        ``[aircraft]`` table)."""
+        clean = self.mission_energy_clean_J
+        return None if clean is None else float(self.mission_energy_saving_J / clean)
 
     def to_json(self):
         """The ``results.json`` content."""
@@ -41,7 +57,11 @@ class Outcome:
             "wall_time_s": self.wall_time_s, "slot_ratio": self.slot_ratio,
             "slot_height_m": self.values["slot_height"],
             "mission_energy_saving_J": self.mission_energy_saving_J,
+            # the aircraft around the wing ([aircraft]); None without it
+            "mission_energy_clean_J": self.mission_energy_clean_J,
+            "mission_energy_saving_fraction": self.mission_energy_saving_fraction,
             "wing_active_constraints": self.wing_active_constraints,
+            "extrapolated": bool(self.extrapolation), "extrapolation": self.extrapolation,
             "segments": self.segments,
         }
 
@@ -55,6 +75,9 @@ RESULT_OUTPUTS = ("momentum_coefficient", "fan_pressure_rise", "required_pressur
 #: Outputs that only some models have.
 MODEL_OUTPUTS = {"map": ("fan_speed", "flow_coefficient", "tip_mach"),
                  "geometric": ("jet_loss_factor", "diffusion_half_angle")}
+#: Outputs of the aircraft around the wing (cases with an ``[aircraft]`` table).
+AIRCRAFT_OUTPUTS = ("lift_coefficient", "aircraft_clean_drag", "main_thrust_clean",
+                    "main_thrust", "clean_source_power", "clean_source_energy")
 
 
 def read_values(prob, case):
@@ -63,8 +86,11 @@ def read_values(prob, case):
     ``mission_energy_saving`` as floats."""
     names = list(RESULT_OUTPUTS) + list(MODEL_OUTPUTS.get(case.fan["model"], ()))
     names += list(MODEL_OUTPUTS.get(case.duct["model"], ()))
+    if case.has_aircraft:
+        names += list(AIRCRAFT_OUTPUTS)
     vals = {k: np.array(prob.get_val(k), float) for k in names}
-    for k in ("slot_ratio", "slot_height", "mission_energy_saving"):
+    wing = ("slot_ratio", "slot_height", "mission_energy_saving")
+    for k in wing + (("mission_clean_energy",) if case.has_aircraft else ()):
         vals[k] = float(prob.get_val(k)[0])
     return vals
 
@@ -127,6 +153,10 @@ def _segments(case, vals, be):
             "break_even_fan_efficiency": None if not np.isfinite(be[i]) else float(be[i]),
             "active_constraints": per[i],
         }
+        for key, name in (("lift_coefficient", "lift_coefficient"),
+                          ("main_thrust_N", "main_thrust"),
+                          ("main_thrust_clean_N", "main_thrust_clean")):
+            row[key] = float(vals[name][i]) if case.has_aircraft else None
         if case.duct["model"] == "geometric":
             row["jet_loss_factor"] = jet("jet_loss_factor")
         rows.append(row)
@@ -142,7 +172,7 @@ def _outcome(case, prob, converged, message, iterations, evals, devals, wall):
                    slot_ratio=vals["slot_ratio"],
                    mission_energy_saving_J=vals["mission_energy_saving"],
                    segments=_segments(case, vals, be), wing_active_constraints=wing, values=vals,
-                   problem=prob)
+                   problem=prob, extrapolation=list(case.extrapolation))
 
 
 def optimize(case, problem=None, warm_start=None):

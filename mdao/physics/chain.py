@@ -25,7 +25,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from mdao import parameters as registry
-from mdao.physics import airfoil, atmosphere, duct, fan, jet, power, transition
+from mdao.physics import aircraft, airfoil, atmosphere, duct, fan, jet, power, transition
 
 #: Internal root names of the three fan-map pressure coefficients (stacked on a last axis of
 #: length 3 under ``"pressure_coefficients"`` in the returned partials).
@@ -50,6 +50,9 @@ class ChainOptions:
     stations: int = 33
     schedule: str = "monotone-area"
     compressible: bool = False
+    #: The aircraft around the wing (a case's ``[aircraft]`` table): its lift coefficient,
+    #: clean drag, main-propulsor thrust and clean source power.
+    aircraft: bool = False
 
 
 def with_defaults(params, options=ChainOptions()):
@@ -58,7 +61,8 @@ def with_defaults(params, options=ChainOptions()):
     Parameters that have no default (required, or absent meaning "not used") are not added.
     """
     p = {}
-    for prm in registry.chain_parameters(options.duct_model, options.fan_model):
+    for prm in registry.chain_parameters(options.duct_model, options.fan_model,
+                                         aircraft=options.aircraft):
         if prm.default is not registry.REQUIRED and prm.default is not None:
             p[prm.name] = prm.default
     p.update(params)
@@ -108,7 +112,12 @@ def evaluate(params, options=ChainOptions(), blowing=True, derivatives=False):
         ``diffusion_half_angle`` [rad] (stations - 1, wing-level); ``drag_coefficient``,
         ``section_drag`` [N], ``clean_section_drag`` [N], ``drag_saving`` [N],
         ``lift_increment``, ``propulsion_power_saving`` [W], ``fan_electric_power`` [W],
-        ``net_power_saving`` [W] and ``energy_saving`` [J] (SI).
+        ``net_power_saving`` [W] and ``energy_saving`` [J] (SI). With ``options.aircraft``
+        (and ``aircraft_mass``, ``wing_area``, ``zero_lift_drag``, ``aspect_ratio``,
+        ``span_efficiency``, ``climb_rate`` [m/s] among the inputs) also the aircraft's
+        ``lift_coefficient``, ``aircraft_clean_drag`` [N], ``main_thrust_clean`` [N] (without
+        blowing), ``main_thrust`` [N] (with the blown section), ``clean_source_power`` [W] and,
+        with ``duration``, ``clean_source_energy`` [J] (:mod:`mdao.physics.aircraft`).
     partials : dict of dict of ndarray
         Only with ``derivatives``: ``{output: {input: ndarray of the output's shape}}`` (last
         axis 3 for ``pressure_coefficients``; a larger shape where the partial varies along
@@ -234,9 +243,35 @@ def evaluate(params, options=ChainOptions(), blowing=True, derivatives=False):
         if d:
             tan["energy_saving"] = _chain({"net_power_saving": p["duration"],
                                            "duration": out["net_power_saving"]}, tan)
+    if options.aircraft:
+        _aircraft(p, js, out, tan if d else None)
     if not d:
         return out
     return out, _partials(out, tan)
+
+
+def _aircraft(p, js, out, tan):
+    """The aircraft around the wing into ``out`` (and its tangents into ``tan`` when given)."""
+    d = tan is not None
+    res = aircraft.flight_condition(*(p[k] for k in aircraft.FLIGHT_INPUTS[:6]),
+                                    js.dynamic_pressure, p["speed"], derivatives=d)
+    fc = res[0] if d else res
+    out.update(fc._asdict())
+    out["main_thrust"] = aircraft.main_thrust(fc.main_thrust_clean, out["drag_saving"])
+    res_p = aircraft.clean_source_power(fc.main_thrust_clean, p["speed"], p["chain_efficiency"],
+                                        derivatives=d)
+    out["clean_source_power"] = res_p[0] if d else res_p
+    if "duration" in p:
+        out["clean_source_energy"] = out["clean_source_power"] * np.asarray(p["duration"], float)
+    if not d:
+        return
+    for field in fc._fields:
+        tan[field] = _chain({k: v for (o, k), v in res[1].items() if o == field}, tan)
+    tan["main_thrust"] = _chain({"main_thrust_clean": 1.0, "drag_saving": -1.0}, tan)
+    _step(tan, "clean_source_power", res_p, True)
+    if "duration" in p:
+        tan["clean_source_energy"] = _chain({"clean_source_power": p["duration"],
+                                             "duration": out["clean_source_power"]}, tan)
 
 
 def duct_stations(params, options=ChainOptions(), derivatives=False):

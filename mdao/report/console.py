@@ -18,6 +18,10 @@ def segment_table(outcome, case):
             ("fan electric", 12, ".1f"), ("energy margin", 13, ".1f"), ("net save", 10, ".1f"),
             ("eta_be", 7, ".3f")]
     units = ["", "-", "Pa", "m/s", "rpm", "-", "W", "W", "W", "W", "-"]
+    aircraft = getattr(case, "has_aircraft", False)
+    if aircraft:     # the aircraft around the wing: its lift coefficient and main thrust
+        cols += [("C_L", 6, ".3f"), ("main thrust", 11, ".2f")]
+        units += ["-", "N"]
     head = " ".join(f"{c[0]:>{c[1]}}" for c in cols)
     unit_row = " ".join(f"{u:>{c[1]}}" for u, c in zip(units, cols))
     lines = [head, unit_row, "-" * len(head)]
@@ -29,6 +33,8 @@ def segment_table(outcome, case):
                 s["fan_electric_power_W"] if on else None, s["energy_margin_W"],
                 s["net_power_saving_W"],
                 s["break_even_fan_efficiency"]]
+        if aircraft:
+            vals += [s["lift_coefficient"], s["main_thrust_N"]]
         cells = []
         for v, (name, width, fmt) in zip(vals, cols):
             cells.append(f"{v:>{width}}" if fmt == "s" else f"{_f(v, fmt):>{width}}")
@@ -62,17 +68,29 @@ def segment_table(outcome, case):
 def summary(outcome, case, optimized=True):
     """The whole console report of ``optimize`` or ``evaluate``."""
     e = outcome.mission_energy_saving_J
-    lines = [f"blownwing {__version__}: {case.title}",
+    lines = [f"blownwing {__version__}: {case.title}"]
+    lines += [f"WARNING: extrapolated: {text}" for text in outcome.extrapolation]
+    lines += [
              ("optimum" if optimized else "start point (not optimized)")
              + f": slot ratio {outcome.slot_ratio:.5f} (slot height "
              f"{outcome.values['slot_height'] * 1e3:.2f} mm)", "",
              segment_table(outcome, case), "",
              f"mission energy saved at the source: {e / 3.6e6:.4f} kWh ({e:.4g} J)"
+             + _clean_share(outcome)
              + ("" if e >= 0 else "  -> blowing costs energy on this mission"),
              f"{outcome.message}; {outcome.iterations} iterations, "
              f"{outcome.model_evaluations} model evaluations, {outcome.wall_time_s:.2f} s",
              "", CAUTION]
     return "\n".join(lines)
+
+
+def _clean_share(outcome):
+    """The saving as a share of the clean aircraft's mission energy (with ``[aircraft]``)."""
+    fraction = getattr(outcome, "mission_energy_saving_fraction", None)
+    if fraction is None:
+        return ""
+    return (f", {100 * fraction:.2f} % of the clean aircraft's "
+            f"{outcome.mission_energy_clean_J / 3.6e6:.4f} kWh")
 
 
 def many_summary(data):

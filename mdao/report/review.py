@@ -91,8 +91,10 @@ def review_markdown(data, figures=(), note=None):
              f"> {data['caution']}", "",
              f"- Tool: blownwing {data['version']}",
              f"- Case: `{c['path']}`, sha256 `{c['sha256']}`",
-             f"- Optimizer: {o['message']} ({o['iterations']} iterations)", "",
-             "## Answer", "",
+             f"- Optimizer: {o['message']} ({o['iterations']} iterations)", ""]
+    for text in o.get("extrapolation", []):
+        lines += [f"> **WARNING: extrapolated.** {text}", ""]
+    lines += ["## Answer", "",
              f"Mission energy saved at the source, at the optimum: **{e / KWH:.4f} kWh** "
              f"({e:.6g} J). Probability that the mission saves energy under the stated "
              f"uncertainty: **{u['probability_of_saving']:.3f}** ({u['samples']} samples, seed "

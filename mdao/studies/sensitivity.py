@@ -54,7 +54,7 @@ def sensitivity_keys(case):
     segment's speed, altitude and duration (in that order)."""
     keys = [p.key for p in applicable_parameters(case) if not p.per_segment and p.uncertain
             and case.value(p.key) is not None]
-    segment_inputs = [p for p in applicable_parameters(case) if p.per_segment]
+    segment_inputs = [p for p in applicable_parameters(case) if p.per_segment and p.uncertain]
     for seg in case.segment_names:
         keys += [f"segment.{seg}.{p.field}" for p in sorted(
             segment_inputs, key=lambda p: SEGMENT_ORDER.index(p.field))]

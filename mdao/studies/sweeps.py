@@ -28,7 +28,7 @@ from mdao.system import chain_options, chain_parameters
 DEFAULT_EFFICIENCIES = (0.5, 0.6, 0.7, 0.8, 0.9)
 #: Chain outputs the sweep keeps.
 KEEP = ("net_power_saving", "required_pressure_rise", "jet_mach", "ram_driven", "fan_speed",
-        "flow_coefficient", "energy_margin", "air_power")
+        "flow_coefficient", "energy_margin", "air_power", "main_thrust")
 
 
 def sweep_efficiencies(case):
