@@ -148,3 +148,10 @@ def test_clean_optimum_is_a_minimum(results):
         speeds = np.array(c["speed_m_s"])
         speeds[1] *= factor
         assert closed_mass(speeds) > base
+
+
+def test_blown_optimum_keeps_the_energy_balance(results):
+    """The example constrains energy_margin >= 0: at both blown optima no segment returns more
+    net thrust power than its fans put into the air (within the optimizer's tolerance)."""
+    for key in ("blown", "blown_no_net_thrust"):
+        assert min(results[key]["energy_margin_W"]) >= -1e-6
