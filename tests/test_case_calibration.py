@@ -1,4 +1,5 @@
 """A case that points at a calibration: its constants fill the case and it optimizes."""
+import numpy as np
 import pytest
 
 from mdao.case import CaseError, load_case
@@ -130,4 +131,21 @@ def test_case_validity_table_overrides_and_checks(tmp_path, cases_dir):
     (tmp_path / "c.toml").write_text(text)
     with pytest.raises(CaseError, match=r"speed .* m/s is outside \[10, 20\] m/s of "
                                         r"validity\.speed_range"):
+        load_case(tmp_path / "c.toml")
+
+
+def test_lift_coefficient_outside_the_validated_range_is_refused(tmp_path, cases_dir):
+    """The survey drone's survey segment (120 m, 16 m/s, level) flies at C_L = W / (q S) =
+    25 x 9.80665 / (0.5 x 1.2110 x 16^2 x 1.6) = 0.989 (ISA density at 120 m, ICAO Doc 7488,
+    worked by hand); outside a validated [0.3, 0.9] it is refused, naming the segment."""
+    from mdao.physics.atmosphere import isa
+    q = 0.5 * float(isa(120.0).density) * 16.0 ** 2
+    assert 25 * 9.80665 / (q * 1.6) == pytest.approx(0.9886, abs=1e-4)
+    from mdao.case.loading import segment_lift
+    text = (cases_dir / "survey-drone.toml").read_text()
+    case = load_case(cases_dir / "survey-drone.toml")
+    worst = int(np.argmax(segment_lift(case)))
+    (tmp_path / "c.toml").write_text(text + "\n[validity]\nlift_coefficient_range = [0.3, 0.9]\n")
+    with pytest.raises(CaseError, match=rf"segment '{case.segment_names[worst]}': lift "
+                                        r"coefficient .* is outside \[0\.3, 0\.9\]"):
         load_case(tmp_path / "c.toml")

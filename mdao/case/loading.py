@@ -321,7 +321,7 @@ def validity_ranges(case):
     else from its calibration fragment."""
     fragment = (case.calibration or {}).get("validity", {})
     out = {}
-    for key in ("reynolds_range", "speed_range"):
+    for key in ("reynolds_range", "speed_range", "lift_coefficient_range"):
         if case.validity.get(key) is not None:
             out[key] = (*case.validity[key], f"validity.{key}")
         elif fragment.get(key) is not None:
@@ -339,14 +339,35 @@ def segment_reynolds(case):
     return state.density * speed * case.wing["chord"] / state.viscosity
 
 
+def segment_lift(case):
+    """Lift coefficient of each segment from the ``[aircraft]`` table (ISA dynamic pressure,
+    :func:`mdao.physics.aircraft.flight_condition`), [-]."""
+    from mdao.physics.aircraft import flight_condition
+    from mdao.physics.atmosphere import isa
+
+    alt = np.array([s["altitude"] for s in case.segments])
+    speed = np.array([s["speed"] for s in case.segments])
+    climb = np.array([s["climb_rate"] for s in case.segments])
+    a = case.aircraft
+    q = 0.5 * isa(alt).density * speed ** 2
+    return flight_condition(a["mass"], a["wing_area"], a["zero_lift_drag"], a["aspect_ratio"],
+                            a["span_efficiency"], climb, q, speed).lift_coefficient
+
+
 def _check_validity(case):
     """Every segment inside the validated Reynolds and speed ranges, else a CaseError naming
     segment, quantity, value and range; with ``[validity] extrapolate = true`` the list of
     the same findings instead (they travel to every output)."""
     values = {"reynolds_range": ("Reynolds number on the chord", segment_reynolds(case), ""),
               "speed_range": ("speed", np.array([s["speed"] for s in case.segments]), " m/s")}
+    ranges = validity_ranges(case)
+    if "lift_coefficient_range" in ranges:
+        if not case.has_aircraft:
+            raise CaseError("validity.lift_coefficient_range needs the [aircraft] table (the "
+                            "segments' lift coefficients come from the aircraft's weight)")
+        values["lift_coefficient_range"] = ("lift coefficient", segment_lift(case), "")
     found = []
-    for key, (low, high, where) in validity_ranges(case).items():
+    for key, (low, high, where) in ranges.items():
         label, vals, unit = values[key]
         for seg, v in zip(case.segments, vals):
             if not low <= v <= high:

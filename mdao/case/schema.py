@@ -133,6 +133,7 @@ SETTINGS = {
     "validity": {
         "reynolds_range": pair(default=None, low=0, low_open=True),
         "speed_range": pair("speed", default=None, low=0, low_open=True),
+        "lift_coefficient_range": pair(default=None),
         "extrapolate": Spec("bool", default=False),
     },
 }
