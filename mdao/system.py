@@ -13,6 +13,7 @@ from mdao import om
 from mdao import constraints as design_constraints
 from mdao import parameters as registry
 from mdao.physics import chain
+from mdao.physics.atmosphere import isa
 
 from mdao.components.aircraft import AircraftComp
 from mdao.components.airfoil import AirfoilComp
@@ -224,12 +225,10 @@ def start_point(case):
 
 def chain_options(case):
     """The :class:`mdao.physics.chain.ChainOptions` of a case."""
-    from mdao.physics.chain import ChainOptions
-
-    return ChainOptions(duct_model=case.duct["model"], fan_model=case.fan["model"],
-                        fans=case.duct["fans"], stations=case.duct["stations"],
-                        schedule=case.duct["schedule"], compressible=case.fan["compressible"],
-                        aircraft=case.has_aircraft)
+    return chain.ChainOptions(duct_model=case.duct["model"], fan_model=case.fan["model"],
+                              fans=case.duct["fans"], stations=case.duct["stations"],
+                              schedule=case.duct["schedule"],
+                              compressible=case.fan["compressible"], aircraft=case.has_aircraft)
 
 
 def chain_parameters(case, **overrides):
@@ -317,10 +316,8 @@ def _add_optimization(prob, case, blow, follow):
 
 def _power_scale(case):
     """A power of the right size for scaling: the clean-wing drag power of the first segment."""
-    from mdao.physics import atmosphere
-
     seg = case.segments[0]
-    rho = atmosphere.isa(seg["altitude"]).density
+    rho = isa(seg["altitude"]).density
     return float(0.5 * rho * seg["speed"] ** 3 * case.wing["chord"] * case.wing["blown_span"]
                  * case.airfoil["drag_clean"] / case.propulsion["chain_efficiency"])
 
