@@ -174,3 +174,27 @@ def test_bad_aircraft_input_is_refused(drone_raw, cases_dir):
     raw["aircraft"]["mass"] = "25 m"
     with pytest.raises(CaseError, match=r"aircraft\.mass"):
         parse_case(raw, base=cases_dir)
+
+
+def test_console_says_when_no_aircraft_was_modelled(cases_dir):
+    """Without [aircraft] the console says the saving was not checked against the aircraft;
+    with it, the saving's share of the clean mission energy is printed instead."""
+    from mdao.case import load_case
+    from mdao.optimum import optimize
+    from mdao.report.console import summary
+    with_aircraft = load_case(cases_dir / "survey-drone.toml")
+    text = summary(optimize(with_aircraft), with_aircraft)
+    assert "% of the clean aircraft's" in text and "no [aircraft] table" not in text
+    raw = (cases_dir / "survey-drone.toml").read_text()
+    start = raw.index("[aircraft]")
+    end = raw.index("[[segment]]")
+    bare = raw[:start] + raw[end:]
+    bare = "\n".join(line for line in bare.splitlines() if not line.startswith("climb_rate"))
+    from mdao.case import parse_case
+    try:
+        import tomllib
+    except ModuleNotFoundError:  # Python 3.10
+        import tomli as tomllib
+    case = parse_case(tomllib.loads(bare), base=cases_dir)
+    assert not case.has_aircraft
+    assert "no [aircraft] table" in summary(optimize(case), case)

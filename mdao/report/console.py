@@ -78,10 +78,20 @@ def summary(outcome, case, optimized=True):
              f"mission energy saved at the source: {e / 3.6e6:.4f} kWh ({e:.4g} J)"
              + _clean_share(outcome)
              + ("" if e >= 0 else "  -> blowing costs energy on this mission"),
+             *_no_aircraft(outcome),
              f"{outcome.message}; {outcome.iterations} iterations, "
              f"{outcome.model_evaluations} model evaluations, {outcome.wall_time_s:.2f} s",
              "", CAUTION]
     return "\n".join(lines)
+
+
+def _no_aircraft(outcome):
+    """Say so when the case has no ``[aircraft]`` table (nothing checked the saving against
+    the aircraft)."""
+    if getattr(outcome, "mission_energy_saving_fraction", None) is not None:
+        return []
+    return ["no [aircraft] table: the saving is not checked against the aircraft's drag and "
+            "thrust (no thrust bookkeeping was done)"]
 
 
 def _clean_share(outcome):
