@@ -19,14 +19,17 @@ import sys
 import numpy as np
 
 #: True constants of the invented section (case key paths; slot_drag is 0 because the demo has
-#: no clean-drag column, so the slot penalty is modelled proportional to the slot ratio).
+#: no clean-drag column, so the slot penalty is modelled proportional to the slot ratio). The
+#: drag per momentum coefficient (-1.2 + 14 r_s, about -1.1 over the slot ratios run) is chosen
+#: so that every jet-on run keeps the energy balance C_D + P_air/(q S V) >= 0 (first law,
+#: mdao.studies.calibration.energy), by at least 0.015 over the noise-free test matrix.
 TRUTH = {
     "duct.jet_loss_factor": 1.22,
     "duct.freestream_assist": 0.78,
     "airfoil.drag_clean": 0.0118,
     "airfoil.slot_drag": 0.0,
     "airfoil.slot_drag_per_ratio": 2.6,
-    "airfoil.drag_per_momentum": -2.05,
+    "airfoil.drag_per_momentum": -1.2,
     "airfoil.drag_per_momentum_per_ratio": 14.0,
     "airfoil.lift_per_momentum": 2.7,
 }
