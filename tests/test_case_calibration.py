@@ -149,3 +149,25 @@ def test_lift_coefficient_outside_the_validated_range_is_refused(tmp_path, cases
     with pytest.raises(CaseError, match=rf"segment '{case.segment_names[worst]}': lift "
                                         r"coefficient .* is outside \[0\.3, 0\.9\]"):
         load_case(tmp_path / "c.toml")
+
+
+def test_segment_lift_coefficient_without_aircraft(tmp_path, cases_dir):
+    """Without [aircraft] a segment may give its lift coefficient: reported as given, checked
+    against the validated range; together with [aircraft] it is refused."""
+    text = (cases_dir / "survey-drone.toml").read_text()
+    start, end = text.index("[aircraft]"), text.index("[[segment]]")
+    bare = text[:start] + text[end:]
+    bare = "\n".join(line for line in bare.splitlines() if not line.startswith("climb_rate"))
+    bare = bare.replace('name = "survey"', 'name = "survey"\nlift_coefficient = 0.95')
+    (tmp_path / "c.toml").write_text(bare)
+    case = load_case(tmp_path / "c.toml")
+    out = optimize(case)
+    row = out.segments[case.segment_names.index("survey")]
+    assert row["lift_coefficient"] == 0.95 and row["main_thrust_N"] is None
+    (tmp_path / "v.toml").write_text(bare + "\n[validity]\nlift_coefficient_range = [0.3, 0.9]\n")
+    with pytest.raises(CaseError, match="segment 'climb' has no lift coefficient"):
+        load_case(tmp_path / "v.toml")
+    (tmp_path / "a.toml").write_text(text.replace('name = "survey"',
+                                                  'name = "survey"\nlift_coefficient = 0.95'))
+    with pytest.raises(CaseError, match="lift_coefficient is given and \\[aircraft\\] too"):
+        load_case(tmp_path / "a.toml")

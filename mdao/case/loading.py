@@ -266,6 +266,7 @@ def parse_case(raw, base=Path("."), path=None, text=""):
     _check_consistency(case, base)
     _check_aircraft(case, raw)
     _check_unused(case, raw)
+    _check_segment_lift(case)
     case.extrapolation = _check_validity(case)
     case.uncertainty = _read_uncertainty(raw.get("uncertainty", {}), case)
     return case
@@ -340,10 +341,15 @@ def segment_reynolds(case):
 
 
 def segment_lift(case):
-    """Lift coefficient of each segment from the ``[aircraft]`` table (ISA dynamic pressure,
-    :func:`mdao.physics.aircraft.flight_condition`), [-]."""
+    """Lift coefficient of each segment: from the ``[aircraft]`` table (ISA dynamic pressure,
+    :func:`mdao.physics.aircraft.flight_condition`), else as each segment gives it
+    (``lift_coefficient``; NaN where it does not), [-]."""
     from mdao.physics.aircraft import flight_condition
     from mdao.physics.atmosphere import isa
+
+    if not case.has_aircraft:
+        return np.array([np.nan if s["lift_coefficient"] is None else s["lift_coefficient"]
+                         for s in case.segments])
 
     alt = np.array([s["altitude"] for s in case.segments])
     speed = np.array([s["speed"] for s in case.segments])
@@ -354,6 +360,14 @@ def segment_lift(case):
                             a["span_efficiency"], climb, q, speed).lift_coefficient
 
 
+def _check_segment_lift(case):
+    """A segment's own lift coefficient and the ``[aircraft]`` table would be two answers."""
+    given = [s["name"] for s in case.segments if s["lift_coefficient"] is not None]
+    if given and case.has_aircraft:
+        raise CaseError(f"segment {given[0]!r}: lift_coefficient is given and [aircraft] too; "
+                        "the aircraft's weight gives the lift coefficient, remove one")
+
+
 def _check_validity(case):
     """Every segment inside the validated Reynolds and speed ranges, else a CaseError naming
     segment, quantity, value and range; with ``[validity] extrapolate = true`` the list of
@@ -362,10 +376,13 @@ def _check_validity(case):
               "speed_range": ("speed", np.array([s["speed"] for s in case.segments]), " m/s")}
     ranges = validity_ranges(case)
     if "lift_coefficient_range" in ranges:
-        if not case.has_aircraft:
-            raise CaseError("validity.lift_coefficient_range needs the [aircraft] table (the "
-                            "segments' lift coefficients come from the aircraft's weight)")
-        values["lift_coefficient_range"] = ("lift coefficient", segment_lift(case), "")
+        lift = segment_lift(case)
+        missing = [s["name"] for s, c in zip(case.segments, lift) if np.isnan(c)]
+        if missing:
+            raise CaseError(f"validity.lift_coefficient_range: segment {missing[0]!r} has no lift "
+                            "coefficient; give [aircraft] (its weight gives every segment's) "
+                            "or [[segment]] lift_coefficient")
+        values["lift_coefficient_range"] = ("lift coefficient", lift, "")
     found = []
     for key, (low, high, where) in ranges.items():
         label, vals, unit = values[key]

@@ -143,6 +143,7 @@ SEGMENT_SETTINGS = {
     "name": Spec("str"),
     "blowing": Spec("bool", default=True),
     "momentum_coefficient": number(default=None, low=0, high=2.0, low_open=True),
+    "lift_coefficient": number(default=None, low=-1.0, high=10.0),
 }
 
 

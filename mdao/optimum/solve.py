@@ -153,10 +153,14 @@ def _segments(case, vals, be):
             "break_even_fan_efficiency": None if not np.isfinite(be[i]) else float(be[i]),
             "active_constraints": per[i],
         }
+        row["lift_coefficient"] = seg["lift_coefficient"]   # given, or None (no aircraft)
         for key, name in (("lift_coefficient", "lift_coefficient"),
                           ("main_thrust_N", "main_thrust"),
                           ("main_thrust_clean_N", "main_thrust_clean")):
-            row[key] = float(vals[name][i]) if case.has_aircraft else None
+            if case.has_aircraft:
+                row[key] = float(vals[name][i])
+            elif key != "lift_coefficient":
+                row[key] = None
         if case.duct["model"] == "geometric":
             row["jet_loss_factor"] = jet("jet_loss_factor")
         rows.append(row)
