@@ -304,3 +304,10 @@ def test_segment_without_admissible_point_is_named():
     out = optimize(case)
     assert not out.converged
     assert "segment(s) c no momentum coefficient" in out.message
+
+
+def test_reynolds_number_reported_per_segment():
+    """Chord Reynolds number rho V c / mu per segment (ISA: rho 0.90925 kg/m3 and mu 1.6937e-5
+    Pa s at 3000 m, ICAO Doc 7488): 0.90925 x 45 x 0.5 / 1.6937e-5 = 1.2079e6."""
+    out = optimize(_case())
+    assert out.segments[1]["reynolds_number"] == pytest.approx(1.2079e6, rel=2e-4)

@@ -12,6 +12,7 @@ import numpy as np
 
 from mdao import constraints
 from mdao.optimum.breakeven import break_even_efficiency
+from mdao.case.loading import segment_reynolds
 from mdao.system import build_problem, start_point
 
 
@@ -117,6 +118,7 @@ def feasibility(case, vals):
 
 def _segments(case, vals, be):
     rows = []
+    reynolds = segment_reynolds(case)
     per, _ = active_constraints(case, vals)
     for i, seg in enumerate(case.segments):
         on = bool(seg["blowing"])
@@ -154,6 +156,7 @@ def _segments(case, vals, be):
             "active_constraints": per[i],
         }
         row["lift_coefficient"] = seg["lift_coefficient"]   # given, or None (no aircraft)
+        row["reynolds_number"] = float(reynolds[i])
         for key, name in (("lift_coefficient", "lift_coefficient"),
                           ("main_thrust_N", "main_thrust"),
                           ("main_thrust_clean_N", "main_thrust_clean")):
