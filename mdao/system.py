@@ -19,6 +19,7 @@ from mdao.components.aircraft import AircraftComp
 from mdao.components.airfoil import AirfoilComp
 from mdao.components.atmosphere import AtmosphereComp
 from mdao.components.chain import ChainComp
+from mdao.components.common import CHAIN_OPTIONS, declare_chain_options
 from mdao.components.duct import DuctLossComp
 from mdao.components.fan import FanComp
 from mdao.components.jet import JetComp
@@ -41,21 +42,7 @@ class BlownWingGroup(om.Group):
     """
 
     def initialize(self):
-        self.options.declare("num_nodes", types=int, default=1, lower=1, desc="segments or points")
-        self.options.declare("duct_model", default="lumped", values=("lumped", "geometric"))
-        self.options.declare("fan_model", default="constant", values=("constant", "map"))
-        self.options.declare("fans", types=int, default=1, lower=1, desc="fans along the span")
-        self.options.declare("stations", types=int, default=33, lower=3)
-        self.options.declare("schedule", default="monotone-area", values=("monotone-area", "linear"))
-        self.options.declare("compressible", types=bool, default=False)
-        self.options.declare("aircraft", types=bool, default=False,
-                             desc="the aircraft around the wing (a case's [aircraft] table): "
-                                  "lift coefficient, main thrust, clean mission energy")
-        self.options.declare("blowing", default=None, allow_none=True,
-                             desc="per node: does the fan run (default: all)")
-        self.options.declare("follow_requirement", types=bool, default=False,
-                             desc="feed the required pressure rise to the fan (fixed-design "
-                                  "studies) instead of taking fan_pressure_rise as an input")
+        declare_chain_options(self.options)
         self.options.declare("fused", types=bool, default=False,
                              desc="one ChainComp (the NumPy chain with its derivatives) instead "
                                   "of one component per discipline: the fast path for large "
@@ -65,9 +52,7 @@ class BlownWingGroup(om.Group):
         o = self.options
         n = o["num_nodes"]
         if o["fused"]:
-            self.add_subsystem("chain", ChainComp(**{k: o[k] for k in (
-                "num_nodes", "duct_model", "fan_model", "fans", "stations", "schedule",
-                "compressible", "blowing", "follow_requirement", "aircraft")}),
+            self.add_subsystem("chain", ChainComp(**{k: o[k] for k in CHAIN_OPTIONS}),
                 promotes=["*"])
             return
         self.add_subsystem("atmosphere", AtmosphereComp(num_nodes=n), promotes=["*"])

@@ -11,7 +11,7 @@ import numpy as np
 from mdao import om
 
 from mdao import parameters as registry
-from mdao.components.common import blowing_flags, column, diagonal
+from mdao.components.common import blowing_flags, column, declare_chain_options, diagonal
 from mdao.physics import chain
 
 #: Node inputs that are design variables rather than model parameters: start values.
@@ -45,25 +45,7 @@ class ChainComp(om.ExplicitComponent):
             "(1977) 91; Dixon & Hall (2014); Eck (1973); docs/theory.md (this project).")
 
     def initialize(self):
-        self.options.declare("num_nodes", types=int, default=1, lower=1, desc="operating points")
-        self.options.declare("duct_model", default="lumped", values=("lumped", "geometric"))
-        self.options.declare("fan_model", default="constant", values=("constant", "map"))
-        self.options.declare("fans", types=int, default=1, lower=1, desc="fans along the span")
-        self.options.declare("stations", types=int, default=33, lower=3,
-                             desc="transition stations (geometric duct)")
-        self.options.declare("schedule", default="monotone-area",
-                             values=("monotone-area", "linear"),
-                             desc="section schedule along the transition (geometric duct)")
-        self.options.declare("compressible", types=bool, default=False,
-                             desc="isentropic compression power instead of Q dp / eta")
-        self.options.declare("blowing", default=None, allow_none=True,
-                             desc="per node: does the fan run (default: all)")
-        self.options.declare("follow_requirement", types=bool, default=False,
-                             desc="the fan gives the required pressure rise (no "
-                                  "fan_pressure_rise input)")
-        self.options.declare("aircraft", types=bool, default=False,
-                             desc="the aircraft around the wing: lift coefficient, clean drag, "
-                                  "main thrust and the clean mission energy")
+        declare_chain_options(self.options)
 
     def _chain_options(self):
         o = self.options

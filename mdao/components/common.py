@@ -44,3 +44,33 @@ def add_parameter_inputs(component, names, num_nodes=1):
         if p.per_segment:
             value = value * np.ones(num_nodes)
         component.add_input(name, val=value, units=p.unit, desc=p.description)
+
+
+#: Options of the whole chain, shared by :class:`mdao.components.chain.ChainComp` and
+#: :class:`mdao.system.BlownWingGroup`: name -> keyword arguments of ``options.declare``.
+CHAIN_OPTIONS = {
+    "num_nodes": dict(types=int, default=1, lower=1, desc="segments or operating points"),
+    "duct_model": dict(default="lumped", values=("lumped", "geometric"),
+                       desc="lumped: K_j given; geometric: K_j from the duct's geometry"),
+    "fan_model": dict(default="constant", values=("constant", "map"),
+                      desc="constant efficiency, or a fan map"),
+    "fans": dict(types=int, default=1, lower=1, desc="fans along the span"),
+    "stations": dict(types=int, default=33, lower=3, desc="transition stations (geometric duct)"),
+    "schedule": dict(default="monotone-area", values=("monotone-area", "linear"),
+                     desc="section schedule along the transition (geometric duct)"),
+    "compressible": dict(types=bool, default=False,
+                         desc="isentropic compression power instead of Q dp / eta"),
+    "aircraft": dict(types=bool, default=False,
+                     desc="the aircraft around the wing (a case's [aircraft] table): lift "
+                          "coefficient, main thrust, clean mission energy"),
+    "blowing": dict(default=None, allow_none=True, desc="per node: does the fan run (default: all)"),
+    "follow_requirement": dict(types=bool, default=False,
+                               desc="the fan gives the required pressure rise (fixed-design "
+                                    "studies) instead of taking fan_pressure_rise as an input"),
+}
+
+
+def declare_chain_options(options):
+    """Declare :data:`CHAIN_OPTIONS` on a component's or group's options."""
+    for name, kwargs in CHAIN_OPTIONS.items():
+        options.declare(name, **kwargs)
