@@ -116,12 +116,13 @@ def parameter_values(case):
     return out
 
 
-def set_case_values(prob, case, start=True, follow_requirement=False):
-    """Load a case's constants and segments into a set-up problem (SI units)."""
+def set_case_values(prob, case, start=True, follow_requirement=False, point=None):
+    """Load a case's constants and segments into a set-up problem (SI units), and with
+    ``start`` the start point (``point``, default :func:`start_point` of the case)."""
     for name, value in parameter_values(case).items():
         prob.set_val(name, value)
     if start:
-        point = start_point(case)
+        point = start_point(case) if point is None else point
         prob.set_val("slot_ratio", point.slot_ratio)
         prob.set_val("momentum_coefficient", point.momentum_coefficient)
         if not follow_requirement:
@@ -140,12 +141,16 @@ class StartPoint:
     without_admissible_point : list of str
         Blowing segments where no momentum coefficient of the start grid met every per-segment
         constraint (the optimizer will likely find none either).
+    outputs : dict of ndarray
+        The NumPy chain at the start, the fan giving the required rise (sizes the optimizer's
+        references).
     """
 
     slot_ratio: float
     momentum_coefficient: np.ndarray
     fan_pressure_rise: np.ndarray
     without_admissible_point: list
+    outputs: dict
 
 
 #: Momentum coefficients per segment tried for the start point (log-spaced over the range).
@@ -200,12 +205,13 @@ def start_point(case):
     _, ratio, cmu, found = best
     cmu = np.where(np.isnan(given), cmu, given)
     cmu = np.where(case.blowing, cmu, 0.0)
-    req = chain.evaluate(chain_parameters(case, momentum_coefficient=cmu, slot_ratio=ratio),
-                         chain_options(case), blowing=case.blowing)["required_pressure_rise"]
-    dp = np.clip(req, case.fan["min_pressure_rise"], case.fan["max_pressure_rise"])
+    out = chain.evaluate(chain_parameters(case, momentum_coefficient=cmu, slot_ratio=ratio),
+                         chain_options(case), blowing=case.blowing)
+    dp = np.clip(out["required_pressure_rise"], case.fan["min_pressure_rise"],
+                 case.fan["max_pressure_rise"])
     lacking = [s["name"] for s, on, ok, g in zip(case.segments, case.blowing, found, given)
                if on and not ok and np.isnan(g)]
-    return StartPoint(ratio, cmu, dp, lacking)
+    return StartPoint(ratio, cmu, dp, lacking, out)
 
 
 def chain_options(case):
@@ -250,32 +256,29 @@ def build_problem(case, follow_requirement=False, driver=True, fused=None):
     prob = om.Problem(reports=False)
     prob.model.add_subsystem("wing", BlownWingGroup(**opts), promotes=["*"])
     blow = np.flatnonzero(case.blowing)
+    point = start_point(case)
     if driver:
-        _add_optimization(prob, case, blow, follow_requirement)
+        _add_optimization(prob, case, blow, follow_requirement, point)
     prob.setup(force_alloc_complex=False)
-    set_case_values(prob, case, follow_requirement=follow_requirement)
+    set_case_values(prob, case, follow_requirement=follow_requirement, point=point)
     prob.final_setup()
     return prob
 
 
-def _add_optimization(prob, case, blow, follow):
-    """Design variables, constraints (from :mod:`mdao.constraints`), objective and SLSQP."""
+def _add_optimization(prob, case, blow, follow, point):
+    """Design variables, constraints (from :mod:`mdao.constraints`), objective and SLSQP,
+    scaled at the start ``point``."""
     model = prob.model
-    first = start_point(case)
-    dp0 = first.fan_pressure_rise
-    start = chain.evaluate(chain_parameters(case, momentum_coefficient=first.momentum_coefficient,
-                                            slot_ratio=first.slot_ratio),
-                           chain_options(case), blowing=case.blowing)
     for con in design_constraints.applicable(case, follow_requirement=follow):
         lower, upper = design_constraints.bounds(con, case)
-        ref = design_constraints.reference(con, case, start)
+        ref = design_constraints.reference(con, case, point.outputs)
         indices = blow if con.per_segment else None
         if con.quantity == "fan_pressure_rise" and follow:  # the fan gives what is required
             model.add_constraint("required_pressure_rise", lower=lower, upper=upper,
                                  indices=indices, ref=ref)
         elif con.design_variable:
             if con.quantity == "fan_pressure_rise":
-                model.set_input_defaults(con.quantity, dp0, units="Pa")
+                model.set_input_defaults(con.quantity, point.fan_pressure_rise, units="Pa")
             model.add_design_var(con.quantity, lower=lower, upper=upper, indices=indices,
                                  ref=ref)
         elif con.quantity == "pressure_balance":

@@ -14,8 +14,7 @@ AIRFOIL_CITE = """@incollection{englar2001,
                Astronautics and Aeronautics}, volume = {192}, year = {2001}}"""
 
 #: Wing-level inputs of the drag model, in the order of physics.airfoil.drag_coefficient.
-_CONSTANTS = ('slot_ratio', 'drag_clean', 'slot_drag', 'slot_drag_per_ratio', 'drag_per_momentum',
-              'drag_per_momentum_per_ratio', 'drag_quadratic')
+_CONSTANTS = phys.DRAG_INPUTS[1:]
 
 
 class AirfoilComp(om.ExplicitComponent):

@@ -17,6 +17,7 @@ import numpy as np
 
 from mdao import constraints
 from mdao.physics import atmosphere, chain, duct, power
+from mdao.physics import airfoil
 from mdao.physics.airfoil import drag_per_momentum_at, slot_drag_at
 from mdao.system import chain_options, chain_parameters
 
@@ -102,11 +103,13 @@ def break_even_efficiency(case, slot_ratio=None, params=None):
                                            argmin=True)
         eff = eff * p["chain_efficiency"] / p["motor_efficiency"]
         # The closed form knows nothing of the energy balance: where its best point breaks
-        # it (or a quadratic drag term is given), search the admissible points instead.
+        # it (or a quadratic drag term is given), search the admissible points instead. The
+        # balance in its non-dimensional form (powers over q S V, speed 1).
         with np.errstate(invalid="ignore"):
-            margin = (p["thrust_power_ceiling"]
-                      * (jet_head * cmu ** 1.5 - ram_recovery * cmu ** 0.5)
-                      + p["drag_clean"] + slot_drag + beta * cmu)
+            margin = power.energy_margin(
+                jet_head * cmu ** 1.5 - ram_recovery * cmu ** 0.5,
+                airfoil.drag_coefficient(cmu, p["slot_ratio"], *(p[k] for k in airfoil.DRAG_INPUTS[2:])),
+                1.0, p["thrust_power_ceiling"])
         if np.any(np.asarray(p["drag_quadratic"]) != 0):
             eff = _search(case, p, lo, hi)
         elif np.any(margin < 0):

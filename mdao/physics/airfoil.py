@@ -96,6 +96,12 @@ def drag_per_momentum_at(slot_ratio, drag_per_momentum, drag_per_momentum_per_ra
             + np.asarray(drag_per_momentum_per_ratio, float) * slot_ratio)
 
 
+#: Arguments of :func:`drag_coefficient`, in order (also the keys of its partials).
+DRAG_INPUTS = ("momentum_coefficient", "slot_ratio", "drag_clean", "slot_drag",
+               "slot_drag_per_ratio", "drag_per_momentum", "drag_per_momentum_per_ratio",
+               "drag_quadratic")
+
+
 def drag_coefficient(momentum_coefficient, slot_ratio, drag_clean, slot_drag, slot_drag_per_ratio,
                      drag_per_momentum, drag_per_momentum_per_ratio, drag_quadratic=0.0,
                      derivatives=False):

@@ -30,10 +30,6 @@ from mdao.physics import aircraft, airfoil, atmosphere, duct, fan, jet, power, t
 #: Internal root names of the three fan-map pressure coefficients (stacked on a last axis of
 #: length 3 under ``"pressure_coefficients"`` in the returned partials).
 _COEFFICIENTS = tuple(("pressure_coefficients", i) for i in range(3))
-#: Arguments of :func:`mdao.physics.airfoil.drag_coefficient`, in order.
-_DRAG_INPUTS = ("momentum_coefficient", "slot_ratio", "drag_clean", "slot_drag",
-                "slot_drag_per_ratio", "drag_per_momentum", "drag_per_momentum_per_ratio",
-                "drag_quadratic")
 #: Station fields whose tangents the chain carries, and the wing-level inputs that shape them.
 STATION_FIELDS = ("position", "area", "perimeter", "hydraulic_diameter", "half_angle")
 STATION_ROOTS = ("fan_diameter", "blown_span", "slot_ratio", "chord", "transition_length",
@@ -210,7 +206,7 @@ def evaluate(params, options=ChainOptions(), blowing=True, derivatives=False):
     # blown increment (slot penalty plus blowing) alone, so that it does not depend on the
     # clean drag even by round-off.
     res = airfoil.drag_coefficient(p["momentum_coefficient"], p["slot_ratio"], 0.0,
-                                   *(p[k] for k in _DRAG_INPUTS[3:]), derivatives=d)
+                                   *(p[k] for k in airfoil.DRAG_INPUTS[3:]), derivatives=d)
     inc = res[0] if d else res
     cd0 = np.asarray(p["drag_clean"], float)
     area = np.asarray(p["chord"], float) * np.asarray(p["blown_span"], float)
@@ -425,7 +421,7 @@ def _fan_map(p, options, atm, js, dp, out, tan):
 def _airfoil_tangents(p, q, area, cd, inc, dinc, tan):
     """Tangents of the drag outputs from the partials ``dinc`` of the blown increment ``inc``
     (C_D - C_D,clean)."""
-    tan["blown_increment"] = _chain({k: dinc[k] for k in _DRAG_INPUTS if k != "drag_clean"},
+    tan["blown_increment"] = _chain({k: dinc[k] for k in airfoil.DRAG_INPUTS if k != "drag_clean"},
                                     tan)
     tan["drag_coefficient"] = _add(tan["blown_increment"], {"drag_clean": 1.0})
     tan["area"] = {"chord": p["blown_span"], "blown_span": p["chord"]}
