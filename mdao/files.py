@@ -46,4 +46,6 @@ def _clean(obj):
         return [_clean(v) for v in obj]
     if hasattr(obj, "tolist"):
         return _clean(obj.tolist())
+    if hasattr(obj, "as_dict"):     # a lift table: {lift_coefficient: [...], value: [...]}
+        return _clean(obj.as_dict())
     return obj

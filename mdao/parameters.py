@@ -55,6 +55,10 @@ class Parameter:
         May appear in a case's ``[uncertainty]`` table and in sensitivity studies.
     calibrated : bool
         A calibration fragment may give it.
+    lift_table : bool
+        May be a table over the section lift coefficient instead of one number
+        (:class:`mdao.physics.lift_table.LiftTable`; case form ``{ lift_coefficient = [...],
+        value = [...] }``).
     aircraft : bool
         Used only when the case describes the aircraft around the wing (an ``[aircraft]``
         table): the aircraft's lift, drag and main-propulsor thrust (:mod:`mdao.physics.aircraft`).
@@ -79,6 +83,7 @@ class Parameter:
     uncertain: bool = True
     calibrated: bool = False
     aircraft: bool = False
+    lift_table: bool = False
     description: str = ""
 
     @property
@@ -132,9 +137,11 @@ CHAIN_PARAMETERS = (
               description="suction slot height over chord"),
     Parameter("duct.jet_loss_factor", "jet_loss_factor", example=1.3, low=1.0, high=20.0,
               duct_models=_LUMPED, calibrated=True,
+              lift_table=True,
               description="jet loss factor K_j (jet dynamic heads the fan supplies)"),
     Parameter("duct.freestream_assist", "freestream_assist", example=1.0, low=0.0, high=5.0,
               calibrated=True,
+              lift_table=True,
               description="freestream assist K_inf (freestream heads recovered)"),
     Parameter("duct.fan_diameter", "fan_diameter", "m", "length", example=0.08, low=0,
               low_open=True, duct_models=_GEO, fan_models=_MAP, either=True,
@@ -169,22 +176,28 @@ CHAIN_PARAMETERS = (
     Parameter("fan.efficiency_falloff", "efficiency_falloff", example=0.8, low=0,
               fan_models=_MAP, description="parabolic fall of efficiency away from the peak"),
     Parameter("airfoil.drag_clean", "drag_clean", example=0.012, low=0, high=1, low_open=True,
-              calibrated=True, description="drag coefficient of the clean section"),
+              calibrated=True, lift_table=True,
+              description="drag coefficient of the clean section"),
     Parameter("airfoil.slot_drag", "slot_drag", default=0.0, low=0, high=1, calibrated=True,
+              lift_table=True,
               description="slot drag penalty at zero slot ratio"),
     Parameter("airfoil.slot_drag_per_ratio", "slot_drag_per_ratio", default=0.0, low=0,
               high=100, calibrated=True,
+              lift_table=True,
               description="change of the slot drag penalty per unit slot ratio"),
     Parameter("airfoil.drag_per_momentum", "drag_per_momentum", example=-1.2, low=-20, high=0,
               high_open=True, calibrated=True,
+              lift_table=True,
               description="drag per momentum coefficient at zero slot ratio (< 0)"),
     Parameter("airfoil.drag_per_momentum_per_ratio", "drag_per_momentum_per_ratio",
               default=0.0, low=-1000, high=1000, calibrated=True,
+              lift_table=True,
               description="change of the drag per momentum coefficient per unit slot ratio"),
     Parameter("airfoil.drag_quadratic", "drag_quadratic", default=0.0, low=0, high=100,
               description="drag coefficient per momentum coefficient squared"),
     Parameter("airfoil.lift_per_momentum", "lift_per_momentum", default=0.0, low=-100,
               high=100, calibrated=True,
+              lift_table=True,
               description="lift coefficient change per unit momentum coefficient"),
     Parameter("airfoil.thrust_power_ceiling", "thrust_power_ceiling", default=1.0, low=0,
               high=1, low_open=True, uncertain=False,

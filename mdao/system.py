@@ -5,13 +5,14 @@ airfoil and segment power, one node per segment (or operating point), with promo
 trade's words. :func:`build_problem` turns a validated :class:`mdao.case.Case` into a set-up
 ``om.Problem`` with design variables, constraints, objective and SLSQP.
 """
-from dataclasses import asdict, dataclass
+from dataclasses import dataclass, fields
 
 import numpy as np
 from mdao import om
 
 from mdao import constraints as design_constraints
 from mdao import parameters as registry
+from mdao.case.loading import lift_tables, segment_lift
 from mdao.physics import chain
 from mdao.physics.atmosphere import isa
 
@@ -51,6 +52,10 @@ class BlownWingGroup(om.Group):
     def setup(self):
         o = self.options
         n = o["num_nodes"]
+        if o["lift_tables"] and not o["fused"]:
+            raise ValueError("lift_tables: constants tabulated over the lift coefficient are "
+                             "evaluated by the fused chain (fused=True, the default); the "
+                             "per-discipline group takes one value per constant")
         if o["fused"]:
             self.add_subsystem("chain", ChainComp(**{k: o[k] for k in CHAIN_OPTIONS}),
                 promotes=["*"])
@@ -91,7 +96,8 @@ class BlownWingGroup(om.Group):
 def group_options(case, fused=None):
     """BlownWingGroup options for a case; ``fused`` (one ChainComp) is the default for every
     duct and fan model."""
-    return dict(asdict(chain_options(case)), num_nodes=len(case.segments),
+    opts = chain_options(case)    # shallow: the lift tables stay LiftTable objects
+    return dict({f.name: getattr(opts, f.name) for f in fields(opts)}, num_nodes=len(case.segments),
                 blowing=list(case.blowing), fused=True if fused is None else fused)
 
 
@@ -104,15 +110,20 @@ def applicable_parameters(case):
 
 def parameter_values(case):
     """``{promoted name: SI value}`` of the case's model parameters (per-segment ones as arrays
-    over the segments); parameters the case leaves unset (None) are left out."""
+    over the segments); parameters the case leaves unset (None) are left out, and so are the
+    constants it tabulates over the lift coefficient (they travel in :func:`chain_options`;
+    without ``[aircraft]`` the segments' ``lift_coefficient`` is then among the values)."""
     out = {}
+    tables = lift_tables(case)
     for p in applicable_parameters(case):
         if p.per_segment:
             out[p.name] = np.array([s[p.field] for s in case.segments], float)
             continue
         value = case.value(p.key)
-        if value is not None:
+        if value is not None and p.key not in tables:
             out[p.name] = np.asarray(value, float)
+    if tables and not case.has_aircraft:
+        out["lift_coefficient"] = segment_lift(case)
     return out
 
 
@@ -219,7 +230,9 @@ def chain_options(case):
     return chain.ChainOptions(duct_model=case.duct["model"], fan_model=case.fan["model"],
                               fans=case.duct["fans"], stations=case.duct["stations"],
                               schedule=case.duct["schedule"],
-                              compressible=case.fan["compressible"], aircraft=case.has_aircraft)
+                              compressible=case.fan["compressible"], aircraft=case.has_aircraft,
+                              lift_tables=tuple((registry.BY_KEY[key].name, table)
+                                                for key, table in lift_tables(case).items()))
 
 
 def chain_parameters(case, **overrides):
@@ -306,8 +319,10 @@ def _power_scale(case):
     """A power of the right size for scaling: the clean-wing drag power of the first segment."""
     seg = case.segments[0]
     rho = isa(seg["altitude"]).density
+    cd0 = case.airfoil["drag_clean"]
+    cd0 = float(np.mean(cd0.value)) if hasattr(cd0, "value") else cd0   # a lift table
     return float(0.5 * rho * seg["speed"] ** 3 * case.wing["chord"] * case.wing["blown_span"]
-                 * case.airfoil["drag_clean"] / case.propulsion["chain_efficiency"])
+                 * cd0 / case.propulsion["chain_efficiency"])
 
 
 def _energy_scale(case):

@@ -9,8 +9,9 @@
 docs/case-files.md describes every key.
 """
 from mdao.case.errors import CaseError
-from mdao.case.loading import FAN_POINT_COLUMNS, Case, load_case, parse_case
+from mdao.case.loading import (FAN_POINT_COLUMNS, Case, lift_tables, load_case, parse_case,
+                               segment_lift)
 from mdao.case.schema import SCHEMA, SEGMENT, dimension_of, spec_of
 
 __all__ = ["Case", "CaseError", "FAN_POINT_COLUMNS", "SCHEMA", "SEGMENT", "dimension_of",
-           "load_case", "parse_case", "spec_of"]
+           "lift_tables", "load_case", "parse_case", "segment_lift", "spec_of"]

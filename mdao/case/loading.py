@@ -19,7 +19,8 @@ import numpy as np
 
 from mdao.case.errors import CaseError
 from mdao.case.fragment import load_fragment
-from mdao.case.schema import DISTRIBUTIONS, REQUIRED, SCHEMA, SEGMENT, TOP_LEVEL, dimension_of
+from mdao.case.schema import (DISTRIBUTIONS, REQUIRED, SCHEMA, SEGMENT, TOP_LEVEL, Spec,
+                              dimension_of)
 from mdao.parameters import CHAIN_PARAMETERS, PARAMETERS, RENAMED, chain_parameters, parameter
 from mdao.units import UnitError, read_table, to_si
 
@@ -52,6 +53,8 @@ def _read_value(key, raw, spec):
                 raise CaseError(f"{key}: {exc}") from None
         _check_range(key, value, spec, raw)
         return value
+    if typ == "number" and spec.lift_table and isinstance(raw, dict):
+        return _read_lift_table(key, raw, spec)
     if typ == "number":
         if isinstance(raw, bool) or not isinstance(raw, (int, float)):
             if isinstance(raw, str):
@@ -100,6 +103,38 @@ def _read_value(key, raw, spec):
             raise CaseError(f"{key} = {raw!r}: the low bound must be below the high bound")
         return (lo, hi)
     raise AssertionError(typ)
+
+
+#: Section lift coefficients a lift table may span.
+LIFT_TABLE_RANGE = (-1.0, 10.0)
+
+
+def _read_lift_table(key, raw, spec):
+    """A constant tabulated over the section lift coefficient,
+    ``{ lift_coefficient = [...], value = [...] }``."""
+    from mdao.physics.lift_table import LiftTable
+
+    form = "{ lift_coefficient = [0.3, 0.6, 0.9], value = [...] }"
+    if set(raw) != {"lift_coefficient", "value"}:
+        raise CaseError(f"{key} = {raw!r}: a lift table has exactly the keys lift_coefficient and "
+                        f"value, e.g. {form}")
+    cl, val = raw["lift_coefficient"], raw["value"]
+    for name, seq in (("lift_coefficient", cl), ("value", val)):
+        if not isinstance(seq, list) or not seq or not all(
+                isinstance(v, (int, float)) and not isinstance(v, bool) for v in seq):
+            raise CaseError(f"{key}.{name} = {seq!r}: a list of numbers is allowed, e.g. {form}")
+    if len(cl) < 2 or len(cl) != len(val):
+        raise CaseError(f"{key}: a lift table needs at least two lift coefficients and one value "
+                        f"for each; got {len(cl)} lift coefficients and {len(val)} values")
+    cl_spec = Spec("number", low=LIFT_TABLE_RANGE[0], high=LIFT_TABLE_RANGE[1])
+    for i, v in enumerate(cl):
+        _check_range(f"{key}.lift_coefficient[{i}]", float(v), cl_spec, v)
+    if any(b <= a for a, b in zip(cl, cl[1:])):
+        raise CaseError(f"{key}.lift_coefficient = {cl!r}: the lift coefficients must increase "
+                        "strictly")
+    for i, v in enumerate(val):
+        _check_range(f"{key}.value[{i}]", float(v), spec, v)
+    return LiftTable(tuple(cl), tuple(val))
 
 
 def _example(dimension):
@@ -267,6 +302,7 @@ def parse_case(raw, base=Path("."), path=None, text=""):
     _check_aircraft(case, raw)
     _check_unused(case, raw)
     _check_segment_lift(case)
+    _check_lift_tables(case)
     case.extrapolation = _check_validity(case)
     case.uncertainty = _read_uncertainty(raw.get("uncertainty", {}), case)
     return case
@@ -366,6 +402,35 @@ def _check_segment_lift(case):
     if given and case.has_aircraft:
         raise CaseError(f"segment {given[0]!r}: lift_coefficient is given and [aircraft] too; "
                         "the aircraft's weight gives the lift coefficient, remove one")
+
+
+def lift_tables(case):
+    """``{case key path: LiftTable}`` of the constants the case tabulates over the lift
+    coefficient, for the models it uses."""
+    from mdao.physics.lift_table import LiftTable
+
+    return {p.key: case.value(p.key) for p in chain_parameters(case.duct["model"],
+                                                               case.fan["model"])
+            if p.lift_table and isinstance(case.value(p.key), LiftTable)}
+
+
+def _check_lift_tables(case):
+    """A lift table needs every segment's lift coefficient, inside the table."""
+    tables = lift_tables(case)
+    if not tables:
+        return
+    lift = segment_lift(case)
+    for key, table in tables.items():
+        lo, hi = table.range
+        for seg, c in zip(case.segments, lift):
+            if np.isnan(c):
+                raise CaseError(f"{key} is a lift table, but segment {seg['name']!r} has no lift "
+                                "coefficient; give [aircraft] (its weight gives every segment's) "
+                                "or [[segment]] lift_coefficient")
+            if not table.contains(c):
+                raise CaseError(f"segment {seg['name']!r}: lift coefficient {c:.4g} is outside "
+                                f"the lift table of {key} (lift coefficients {lo:g} to {hi:g}); "
+                                "extend the table or change the segment")
 
 
 def _check_validity(case):
@@ -578,6 +643,9 @@ def _read_uncertainty(raw, case):
             declared = parameter(key)
         except KeyError:
             declared = None
+        if declared is not None and declared.lift_table and not isinstance(base, (int, float)):
+            raise CaseError(f"uncertainty.\"{key}\": {key} is a lift table; an uncertainty "
+                            "applies to a constant given as one number")
         if (declared is None or not declared.uncertain or base is None
                 or not declared.used_by(case.duct["model"], case.fan["model"])):
             allowed = ", ".join(p.key for p in CHAIN_PARAMETERS if p.uncertain)

@@ -35,6 +35,8 @@ class Spec:
     high_open: bool = False
     choices: tuple = ()
     length: int = None
+    #: A number that may instead be a table over the section lift coefficient.
+    lift_table: bool = False
 
     @property
     def range(self):
@@ -83,7 +85,8 @@ def _from_parameter(p):
                                 or p.fan_models != ("constant", "map")):
         default = None
     typ = "number" if p.dimension == "dimensionless" else "quantity"
-    return Spec(typ, p.dimension, default, p.low, p.high, p.low_open, p.high_open)
+    return Spec(typ, p.dimension, default, p.low, p.high, p.low_open, p.high_open,
+                lift_table=p.lift_table)
 
 
 #: Settings of each case table (not model parameters).

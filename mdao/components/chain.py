@@ -16,6 +16,8 @@ from mdao.physics import chain
 
 #: Node inputs that are design variables rather than model parameters: start values.
 DESIGN_INPUTS = {"momentum_coefficient": (0.03, None), "fan_pressure_rise": (1000.0, "Pa")}
+#: Start value of the section lift coefficient input (lift tables without the aircraft).
+LIFT_START = 0.5
 #: Units of the outputs, the same names as the per-discipline components'.
 OUTPUT_UNITS = {
     "temperature": "K", "pressure": "Pa", "density": "kg/m**3", "speed_of_sound": "m/s",
@@ -51,15 +53,18 @@ class ChainComp(om.ExplicitComponent):
         o = self.options
         return chain.ChainOptions(duct_model=o["duct_model"], fan_model=o["fan_model"],
                                   fans=o["fans"], stations=o["stations"], schedule=o["schedule"],
-                                  compressible=o["compressible"], aircraft=o["aircraft"])
+                                  compressible=o["compressible"], aircraft=o["aircraft"],
+                                  lift_tables=tuple(o["lift_tables"]))
 
     def setup(self):
         o = self.options
         n = o["num_nodes"]
         self._chain_opts = self._chain_options()
         self._chain_blowing = blowing_flags(o["blowing"], n)
-        params = registry.chain_parameters(o["duct_model"], o["fan_model"],
-                                           aircraft=o["aircraft"])
+        tabled = self._chain_opts.tabled()
+        params = [p for p in registry.chain_parameters(o["duct_model"], o["fan_model"],
+                                                       aircraft=o["aircraft"])
+                  if p.name not in tabled]
         self._chain_node = [p.name for p in params if p.per_segment]
         self._chain_wing = [p.name for p in params if not p.per_segment]
         probe = {}
@@ -67,6 +72,11 @@ class ChainComp(om.ExplicitComponent):
             val = np.asarray(p.start_value, float)
             probe[p.name] = val * np.ones(n) if p.per_segment else np.atleast_1d(val)
             self.add_input(p.name, val=probe[p.name], units=p.unit, desc=p.description)
+        if tabled and not o["aircraft"]:    # the lift the tables are read at, per node
+            self._chain_node.append("lift_coefficient")
+            probe["lift_coefficient"] = LIFT_START * np.ones(n)
+            self.add_input("lift_coefficient", val=probe["lift_coefficient"],
+                           desc="section lift coefficient (the lift tables' argument)")
         for name, (start, units) in DESIGN_INPUTS.items():
             if name == "fan_pressure_rise" and o["follow_requirement"]:
                 continue

@@ -63,6 +63,10 @@ CHAIN_OPTIONS = {
     "aircraft": dict(types=bool, default=False,
                      desc="the aircraft around the wing (a case's [aircraft] table): lift "
                           "coefficient, main thrust, clean mission energy"),
+    "lift_tables": dict(types=tuple, default=(),
+                        desc="constants tabulated over the section lift coefficient: "
+                             "((name, mdao.physics.lift_table.LiftTable), ...); without the "
+                             "aircraft the lift coefficient is an input per node"),
     "blowing": dict(default=None, allow_none=True, desc="per node: does the fan run (default: all)"),
     "follow_requirement": dict(types=bool, default=False,
                                desc="the fan gives the required pressure rise (fixed-design "

@@ -86,6 +86,9 @@ def break_even_efficiency(case, slot_ratio=None, params=None):
         Per segment (and leading axes of ``params``); NaN for non-blowing segments too.
     """
     p = chain_parameters(case) if params is None else dict(params)
+    # constants tabulated over the lift as numbers at each segment's lift (the closed forms
+    # take numbers; the segment's lift does not move in this search)
+    p = chain.lift_dependent(p, chain_options(case))
     if slot_ratio is not None:
         p["slot_ratio"] = np.asarray(slot_ratio, float)
     p.pop("fan_pressure_rise", None)

@@ -12,7 +12,8 @@ import numpy as np
 
 from mdao import constraints
 from mdao.optimum.breakeven import break_even_efficiency
-from mdao.case.loading import segment_reynolds
+from mdao.case.loading import lift_tables, segment_reynolds
+from mdao.physics.lift_table import interpolate
 from mdao.system import build_problem, start_point
 
 
@@ -120,6 +121,7 @@ def _segments(case, vals, be):
     rows = []
     reynolds = segment_reynolds(case)
     per, _ = active_constraints(case, vals)
+    tables = lift_tables(case)
     for i, seg in enumerate(case.segments):
         on = bool(seg["blowing"])
 
@@ -166,6 +168,9 @@ def _segments(case, vals, be):
                 row[key] = None
         if case.duct["model"] == "geometric":
             row["jet_loss_factor"] = jet("jet_loss_factor")
+        if tables:   # the tabulated constants at this segment's lift
+            row["constants_at_lift"] = {key: float(interpolate(t, row["lift_coefficient"]))
+                                        for key, t in tables.items()}
         rows.append(row)
     return rows
 

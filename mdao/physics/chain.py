@@ -25,7 +25,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from mdao import parameters as registry
-from mdao.physics import aircraft, airfoil, atmosphere, duct, fan, jet, power, transition
+from mdao.physics import (aircraft, airfoil, atmosphere, duct, fan, jet, lift_table, power,
+                          transition)
 
 #: Internal root names of the three fan-map pressure coefficients (stacked on a last axis of
 #: length 3 under ``"pressure_coefficients"`` in the returned partials).
@@ -49,6 +50,15 @@ class ChainOptions:
     #: The aircraft around the wing (a case's ``[aircraft]`` table): its lift coefficient,
     #: clean drag, main-propulsor thrust and clean source power.
     aircraft: bool = False
+    #: Constants tabulated over the section lift coefficient: ``((name, LiftTable), ...)``
+    #: (:mod:`mdao.physics.lift_table`). The lift coefficient is the aircraft's (with
+    #: ``aircraft``) or the input ``lift_coefficient`` per point. A constant given explicitly
+    #: among the parameters overrides its table (maps and studies that set it to a number).
+    lift_tables: tuple = ()
+
+    def tabled(self, params=()):
+        """Names of the constants this chain takes from lift tables (those not in ``params``)."""
+        return tuple(name for name, _ in self.lift_tables if name not in params)
 
 
 def with_defaults(params, options=ChainOptions()):
@@ -155,6 +165,9 @@ def evaluate(params, options=ChainOptions(), blowing=True, derivatives=False):
         js = jet.kinematics(*jet_args)
     out.update(js._asdict())
 
+    # The section's lift coefficient and the constants that follow it.
+    fc = _lift(p, params, options, js, out, tan if d else None)
+
     # Duct: the jet loss factor and the pressure rise the jet requires.
     if options.duct_model == "lumped":
         kj = np.asarray(p["jet_loss_factor"], float)
@@ -240,19 +253,69 @@ def evaluate(params, options=ChainOptions(), blowing=True, derivatives=False):
             tan["energy_saving"] = _chain({"net_power_saving": p["duration"],
                                            "duration": out["net_power_saving"]}, tan)
     if options.aircraft:
-        _aircraft(p, js, out, tan if d else None)
+        _aircraft(p, fc, out, tan if d else None)
     if not d:
         return out
     return out, _partials(out, tan)
 
 
-def _aircraft(p, js, out, tan):
-    """The aircraft around the wing into ``out`` (and its tangents into ``tan`` when given)."""
+def _lift(p, params, options, js, out, tan):
+    """The aircraft's flight condition into ``out`` (with ``options.aircraft``) and the tabled
+    constants into ``p``, with their tangents into ``tan`` when given. Returns the flight
+    condition (None without the aircraft)."""
     d = tan is not None
-    res = aircraft.flight_condition(*(p[k] for k in aircraft.FLIGHT_INPUTS[:6]),
-                                    js.dynamic_pressure, p["speed"], derivatives=d)
-    fc = res[0] if d else res
-    out.update(fc._asdict())
+    fc = None
+    if options.aircraft:
+        res = aircraft.flight_condition(*(p[k] for k in aircraft.FLIGHT_INPUTS[:6]),
+                                        js.dynamic_pressure, p["speed"], derivatives=d)
+        fc = res[0] if d else res
+        out.update(fc._asdict())
+        if d:
+            for field in fc._fields:
+                tan[field] = _chain({k: v for (o, k), v in res[1].items() if o == field}, tan)
+    tabled = [(name, table) for name, table in options.lift_tables if name not in params]
+    if not tabled:
+        return fc
+    if fc is not None:
+        cl = fc.lift_coefficient
+    elif "lift_coefficient" in p:
+        cl = np.asarray(p["lift_coefficient"], float)
+    else:
+        raise ValueError("lift tables need the section lift coefficient: give the input "
+                         "lift_coefficient or describe the aircraft (option aircraft)")
+    for name, table in tabled:
+        res = lift_table.interpolate(table, cl, derivatives=d)
+        p[name] = res[0] if d else res
+        if d:
+            tan[name] = _chain({"lift_coefficient": res[1]}, tan)
+    return fc
+
+
+def lift_dependent(params, options=ChainOptions()):
+    """``params`` completed by the defaults and with the tabled constants evaluated at each
+    point's lift coefficient (values only): for closed forms that take the constants as numbers
+    (the break-even search)."""
+    if not options.tabled(params):
+        return with_defaults(params, options)
+    p = with_defaults(params, options)
+    atm = atmosphere.isa(p["altitude"])
+    speed = np.asarray(p["speed"], float)
+    q = 0.5 * atm.density * speed ** 2
+    _lift(p, params, options, _Dynamic(q), {}, None)
+    return p
+
+
+@dataclass(frozen=True)
+class _Dynamic:
+    """The freestream dynamic pressure where :func:`_lift` needs only that of the jet state."""
+
+    dynamic_pressure: object
+
+
+def _aircraft(p, fc, out, tan):
+    """The aircraft's thrust and source power into ``out`` (and their tangents into ``tan`` when
+    given); the flight condition ``fc`` is already there (:func:`_lift`)."""
+    d = tan is not None
     out["main_thrust"] = aircraft.main_thrust(fc.main_thrust_clean, out["drag_saving"])
     res_p = aircraft.clean_source_power(fc.main_thrust_clean, p["speed"], p["chain_efficiency"],
                                         derivatives=d)
@@ -261,8 +324,6 @@ def _aircraft(p, js, out, tan):
         out["clean_source_energy"] = out["clean_source_power"] * np.asarray(p["duration"], float)
     if not d:
         return
-    for field in fc._fields:
-        tan[field] = _chain({k: v for (o, k), v in res[1].items() if o == field}, tan)
     tan["main_thrust"] = _chain({"main_thrust_clean": 1.0, "drag_saving": -1.0}, tan)
     _step(tan, "clean_source_power", res_p, True)
     if "duration" in p:
@@ -423,7 +484,7 @@ def _airfoil_tangents(p, q, area, cd, inc, dinc, tan):
     (C_D - C_D,clean)."""
     tan["blown_increment"] = _chain({k: dinc[k] for k in airfoil.DRAG_INPUTS if k != "drag_clean"},
                                     tan)
-    tan["drag_coefficient"] = _add(tan["blown_increment"], {"drag_clean": 1.0})
+    tan["drag_coefficient"] = _add(tan["blown_increment"], _chain({"drag_clean": 1.0}, tan))
     tan["area"] = {"chord": p["blown_span"], "blown_span": p["chord"]}
     cd0 = np.asarray(p["drag_clean"], float)
     tan["section_drag"] = _chain({"dynamic_pressure": area * cd, "area": q * cd,
@@ -432,8 +493,8 @@ def _airfoil_tangents(p, q, area, cd, inc, dinc, tan):
                                         "drag_clean": q * area}, tan)
     tan["drag_saving"] = _chain({"dynamic_pressure": -area * inc, "area": -q * inc,
                                  "blown_increment": -q * area}, tan)
-    tan["lift_increment"] = {"momentum_coefficient": p["lift_per_momentum"],
-                             "lift_per_momentum": p["momentum_coefficient"]}
+    tan["lift_increment"] = _chain({"momentum_coefficient": p["lift_per_momentum"],
+                                    "lift_per_momentum": p["momentum_coefficient"]}, tan)
 
 
 def _step(tan, name, result, derivatives, names=None):

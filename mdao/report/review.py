@@ -127,7 +127,7 @@ def review_markdown(data, figures=(), note=None):
     if note:
         lines += [f"*Note: {note}.*", ""]
     lines += ["## Case (SI units)", "", "| key | value | unit |", "|---|---|---|"]
-    lines += [f"| {r['key']} | {r['value']} | {r['unit']} |" for r in c["echo"]]
+    lines += [f"| {r['key']} | {_echo_value(r['value'])} | {r['unit']} |" for r in c["echo"]]
     lines += ["", "## Timings", "",
               ", ".join(f"{k.replace('_', ' ')} {v:.2f} s" for k, v in data["timings_s"].items()),
               "", f"> {data['caution']}", ""]
@@ -374,3 +374,11 @@ def _fig_uncertainty(plt, data):
     ax.legend(fontsize=8)
     fig.tight_layout()
     return fig
+
+
+def _echo_value(value):
+    """A case value for the echo table; a lift table as its pairs, "C_L 0.3: 1.2; ..."."""
+    if isinstance(value, dict) and set(value) == {"lift_coefficient", "value"}:
+        return "table over C_L: " + "; ".join(
+            f"{c:g}: {v:g}" for c, v in zip(value["lift_coefficient"], value["value"]))
+    return value

@@ -56,6 +56,8 @@ def case_echo(case):
 
 
 def _plain(value):
+    if hasattr(value, "as_dict"):     # a lift table
+        return value.as_dict()
     if isinstance(value, tuple):
         return list(value)
     return value

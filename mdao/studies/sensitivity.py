@@ -32,6 +32,7 @@ import numpy as np
 
 from mdao import constraints, parameters
 from mdao.case.schema import dimension_of
+from mdao.case.loading import lift_tables
 from mdao.optimum.solve import feasibility, read_values
 from mdao.physics import chain
 from mdao.units import SI_UNITS
@@ -51,9 +52,12 @@ POST_OPTIMAL_STEP = 1e-3
 # --- inputs: key paths, promoted names, ranges --------------------------------------------------
 def sensitivity_keys(case):
     """Case key paths studied: the applicable model constants that may be uncertain and each
-    segment's speed, altitude and duration (in that order)."""
+    segment's speed, altitude and duration (in that order). A constant tabulated over the lift
+    coefficient is not one input (its effect reaches the studies through each segment's speed
+    and altitude, which move the lift)."""
+    tables = lift_tables(case)
     keys = [p.key for p in applicable_parameters(case) if not p.per_segment and p.uncertain
-            and case.value(p.key) is not None]
+            and case.value(p.key) is not None and p.key not in tables]
     segment_inputs = [p for p in applicable_parameters(case) if p.per_segment and p.uncertain]
     for seg in case.segment_names:
         keys += [f"segment.{seg}.{p.field}" for p in sorted(

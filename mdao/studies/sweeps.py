@@ -19,7 +19,9 @@ with the geometric duct loops over the slot-ratio rows (each row one vectorized 
 import numpy as np
 
 from mdao import constraints
+from mdao.case.loading import segment_lift
 from mdao.physics import chain
+from mdao.physics.lift_table import LiftTable, interpolate
 from mdao.optimum.breakeven import break_even_efficiency
 from mdao.studies.sensitivity import WING_GEOMETRY, chunk_rows, design_parameters, promoted
 from mdao.system import chain_options, chain_parameters
@@ -166,10 +168,20 @@ def break_even_map(case, outcome, x_key, x_values, y_key, y_values):
         eff = np.broadcast_to(break_even_efficiency(case, params=p), (len(y), len(x), nseg)).copy()
     eff = np.array(eff, float)
     eff[..., ~case.blowing] = np.nan
-    point = tuple(float(outcome.slot_ratio) if k == "slot.ratio" else float(case.value(k))
+    point = tuple(float(outcome.slot_ratio) if k == "slot.ratio" else case_value(case, k)
                   for k in (x_key, y_key))
     return {"x_key": x_key, "x": x, "y_key": y_key, "y": y, "efficiency": eff,
             "case_point": point}
+
+
+def case_value(case, key):
+    """A case constant as one number: a constant tabulated over the lift coefficient is read at
+    the first blowing segment's lift (where a map marks the case's point)."""
+    value = case.value(key)
+    if isinstance(value, LiftTable):
+        first = int(np.flatnonzero(case.blowing)[0])
+        return float(interpolate(value, segment_lift(case)[first]))
+    return float(value)
 
 
 def review_maps(case, outcome, points=31):
@@ -193,7 +205,7 @@ def review_maps(case, outcome, points=31):
     rs = np.linspace(*(bounds if constraints.slot_ratio_free(case)
                        else (0.5 * r, min(2 * r, 0.2))), points)
     if case.duct["model"] == "lumped":
-        kj = case.duct["jet_loss_factor"]
+        kj = case_value(case, "duct.jet_loss_factor")
         first = break_even_map(case, outcome, "slot.ratio", rs, "duct.jet_loss_factor",
                                np.linspace(1.0, max(2.5, 1.6 * kj), points))
         first["title"] = "Break-even fan efficiency: slot ratio against jet loss factor"
@@ -203,8 +215,8 @@ def review_maps(case, outcome, points=31):
                                np.linspace(0.0, max(0.5, 3 * ex), points))
         first["title"] = ("Break-even fan efficiency: slot ratio against the duct loss adder "
                           "(geometric duct: the jet loss factor is built from the geometry)")
-    sd = case.airfoil["slot_drag"]
-    beta = case.airfoil["drag_per_momentum"]
+    sd = case_value(case, "airfoil.slot_drag")
+    beta = case_value(case, "airfoil.drag_per_momentum")
     second = break_even_map(case, outcome, "airfoil.slot_drag",
                             np.linspace(0.0, max(0.03, 3 * sd), points),
                             "airfoil.drag_per_momentum",
