@@ -151,9 +151,10 @@ def test_demo_recovers_the_stated_truth():
 
 
 def test_demo_file_is_what_the_script_makes(tmp_path):
-    """The committed CSV is exactly the script's output (so the stated truth is its truth)."""
-    path = DEMO.main(str(tmp_path / "again.csv"))
-    assert Path(path).read_bytes() == DEMO_CSV.read_bytes()
+    """The committed CSVs are exactly the script's output (so the stated truth is their truth)."""
+    paths = DEMO.main(str(tmp_path))
+    assert Path(paths[0]).read_bytes() == DEMO_CSV.read_bytes()
+    assert Path(paths[1]).read_bytes() == (DEMO_CSV.parent / "demo_runs_lift.csv").read_bytes()
 
 
 def test_interval_coverage_over_seeded_repetitions():

@@ -11,7 +11,8 @@ CASES = Path(__file__).resolve().parent.parent / "cases"
 GOOD = (CASES / "survey-drone.toml").read_text()
 
 
-@pytest.mark.parametrize("name", ["survey-drone.toml", "coastal-patrol.toml"])
+@pytest.mark.parametrize("name", ["survey-drone.toml", "coastal-patrol.toml",
+                                  "levee-inspector.toml"])
 def test_optimize_bundled_case(name, tmp_path, capsys):
     assert main(["optimize", str(CASES / name), "--out", str(tmp_path / "o")]) == 0
     text = capsys.readouterr().out
@@ -31,6 +32,23 @@ def test_optimize_bundled_case(name, tmp_path, capsys):
     total = sum(s["energy_saving_J"] for s in data["segments"])
     assert total == pytest.approx(data["mission_energy_saving_J"], rel=1e-12)
     assert not list(tmp_path.glob("o/.*tmp"))
+    if name == "levee-inspector.toml":   # lift tables: the constants at each segment's lift
+        assert all(set(s["constants_at_lift"]) == {"duct.jet_loss_factor", "airfoil.drag_clean",
+                                                   "airfoil.drag_per_momentum"}
+                   for s in data["segments"])
+
+
+def test_calibrate_in_lift_bands(tmp_path, capsys):
+    """``--lift-bands``: 3 on the three-angle demo writes tables; 0 is refused (exit 2)."""
+    runs = str(CASES / "data" / "demo_runs_lift.csv")
+    assert main(["calibrate", runs, "--out", str(tmp_path / "c"), "--no-plots",
+                 "--lift-bands", "3"]) == 0
+    assert "Lift tables (3 lift bands" in capsys.readouterr().out
+    text = (tmp_path / "c" / "calibration.toml").read_text()
+    assert "drag_per_momentum = { lift_coefficient = [" in text
+    assert main(["calibrate", runs, "--out", str(tmp_path / "d"), "--lift-bands", "0"]) == 2
+    assert "lift_bands = 0" in capsys.readouterr().err
+    assert not (tmp_path / "d" / "calibration.toml").exists()
 
 
 def test_evaluate_start_point(capsys):

@@ -229,3 +229,72 @@ def test_cruise_and_loiter_blow_differently_only_with_tables(cases_dir):
     assert same.converged, same.message
     c = same.values["momentum_coefficient"]
     assert abs(c[0] - c[1]) < 0.05 * max(c)
+
+
+# --- calibration per lift band ----------------------------------------------------------------
+def _demo():
+    import importlib.util
+    from pathlib import Path
+    root = Path(__file__).resolve().parents[1]
+    spec = importlib.util.spec_from_file_location("make_demo_runs",
+                                                  root / "cases" / "data" / "make_demo_runs.py")
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    return module, root / "cases" / "data"
+
+
+def test_calibration_in_lift_bands_recovers_the_truth():
+    """Three angles of attack with constants that change with the lift (the demo's stated
+    truth): three bands, one per angle, each table value within 4 standard errors of the truth
+    at that angle, and the fixed slot penalty kept as one number."""
+    from mdao.studies.calibration import calibrate, read_runs
+    demo, data = _demo()
+    result = calibrate(read_runs(data / "demo_runs_lift.csv"))
+    tables, bands = result["lift_tables"], result["lift_bands"]
+    assert len(bands) == 3 and [b["runs"] for b in bands] == [51, 51, 51]
+    assert "airfoil.slot_drag" not in tables
+    for key, t in tables.items():
+        assert np.all(np.diff(t["lift_coefficient"]) > 0)
+        for k, change in enumerate(demo.TRUTH_BY_LIFT):
+            truth = dict(demo.TRUTH, **change)[key]
+            assert abs(t["value"][k] - truth) <= 4 * t["stderr"][k] + 1e-12, (key, k)
+    # the band means sit near each angle's jet-off lift plus the mean blowing lift
+    for b, level in zip(bands, demo.LIFT_LEVELS):
+        assert level < b["lift_coefficient"] < level + 0.25
+
+
+def test_one_angle_gives_no_bands():
+    from mdao.studies.calibration import calibrate, read_runs
+    _, data = _demo()
+    result = calibrate(read_runs(data / "demo_runs.csv"))
+    assert "lift_tables" not in result
+    assert any("unblown lift coefficient spreads over" in n for n in result["notes"])
+    one = calibrate(read_runs(data / "demo_runs_lift.csv"), lift_bands=1)
+    assert "lift_tables" not in one
+
+
+def test_banded_fragment_drives_a_case(tmp_path, cases_dir):
+    """The fragment written from the banded fit reads back as lift tables; a case on it
+    optimizes, and a segment whose lift leaves the tables is refused."""
+    import tomllib
+    from mdao.studies.calibration import calibrate_file
+    _, data = _demo()
+    calibrate_file(data / "demo_runs_lift.csv", tmp_path / "cal", plots=False)
+    raw = tomllib.loads((cases_dir / "levee-inspector.toml").read_text())
+    for key in ("jet_loss_factor", "freestream_assist"):
+        raw["duct"].pop(key, None)
+    for key in ("drag_clean", "slot_drag", "slot_drag_per_ratio", "drag_per_momentum",
+                "drag_per_momentum_per_ratio", "momentum_coefficient_range"):
+        raw["airfoil"].pop(key, None)
+    raw.pop("uncertainty")
+    raw["calibration"] = {"file": str(tmp_path / "cal" / "calibration.toml")}
+    raw["aircraft"]["mass"] = "30 kg"            # transit C_L inside the tables (>= 0.56)
+    raw["segment"][0]["speed"] = "22 m/s"
+    raw["segment"][1]["speed"] = "17 m/s"
+    case = parse_case(copy.deepcopy(raw), base=tmp_path)
+    assert isinstance(case.value("airfoil.drag_per_momentum"), LiftTable)
+    out = optimize(case)
+    assert out.converged, out.message
+    raw["segment"][0]["speed"] = "30 m/s"
+    with pytest.raises(CaseError, match="outside the lift table"):
+        parse_case(raw, base=tmp_path)

@@ -9,8 +9,13 @@ the noise is homoscedastic Gaussian (standard deviations in NOISE), as ordinary 
 assumes. These numbers are our own invention, not the rules of thumb the calibration warns
 against.
 
-Run from the repository root: ``python cases/data/make_demo_runs.py`` (rewrites
-``cases/data/demo_runs.csv`` next to this script).
+A second file, ``demo_runs_lift.csv``, repeats the test matrix at three angles of attack of the
+same invented section (jet-off lift coefficients in LIFT_LEVELS), with constants that change with
+the lift (TRUTH_BY_LIFT), so that ``blownwing calibrate`` fits them per lift band and writes lift
+tables.
+
+Run from the repository root: ``python cases/data/make_demo_runs.py`` (rewrites both files next
+to this script).
 """
 import csv
 import os
@@ -43,6 +48,22 @@ NOISE = {"fan_pressure_rise": 15.0, "drag_coefficient": 5e-4, "lift_coefficient"
 #: half flag a run (|studentized residual| > 3) by chance alone, as the statistics predict;
 #: tests/test_calibration.py measures the coverage over hundreds of seeds.
 SEED = 7302
+
+#: Jet-off lift coefficients of the three angles of attack of ``demo_runs_lift.csv``.
+LIFT_LEVELS = (0.45, 0.85, 1.25)
+#: True constants at each angle (the rest as in TRUTH): the jet does more for the section near
+#: its suction peak at high lift, and the duct loses a little more there. Every jet-on run still
+#: keeps the energy balance (noise-free margin at least 0.01 at each level).
+TRUTH_BY_LIFT = (
+    {"duct.jet_loss_factor": 1.18, "airfoil.drag_clean": 0.0100,
+     "airfoil.drag_per_momentum": -1.00, "airfoil.lift_per_momentum": 2.4},
+    {"duct.jet_loss_factor": 1.22, "airfoil.drag_clean": 0.0118,
+     "airfoil.drag_per_momentum": -1.20, "airfoil.lift_per_momentum": 2.7},
+    {"duct.jet_loss_factor": 1.30, "airfoil.drag_clean": 0.0150,
+     "airfoil.drag_per_momentum": -1.35, "airfoil.lift_per_momentum": 3.0},
+)
+#: Seed of ``demo_runs_lift.csv`` (the first one tried).
+SEED_LIFT = 7400
 
 CHORD = 0.32  # [m]
 SPAN = 1.0  # [m], 2-D run per unit span
@@ -114,6 +135,13 @@ def synthetic_runs(rng, truth=TRUTH, noise=NOISE, lift_jet_off=LIFT_JET_OFF, rep
     }
 
 
+def banded_runs(rng):
+    """The test matrix at each of LIFT_LEVELS with the constants of TRUTH_BY_LIFT, stacked."""
+    parts = [synthetic_runs(rng, truth=dict(TRUTH, **change), lift_jet_off=level)
+             for level, change in zip(LIFT_LEVELS, TRUTH_BY_LIFT)]
+    return {k: np.concatenate([p[k] for p in parts]) for k in parts[0]}
+
+
 def write_csv(path, runs):
     """Write runs (SI) with the demo's mixed units in the header."""
     columns = [("speed [km/h]", runs["speed"] / KMH, "{:.6g}"),
@@ -132,11 +160,14 @@ def write_csv(path, runs):
             writer.writerow([fmt.format(values[i]) for _, values, fmt in columns])
 
 
-def main(path=None):
-    """Write the demo runs to ``path`` (default: demo_runs.csv beside this script)."""
-    path = path or os.path.join(os.path.dirname(os.path.abspath(__file__)), "demo_runs.csv")
-    write_csv(path, synthetic_runs(np.random.default_rng(SEED)))
-    return path
+def main(folder=None):
+    """Write ``demo_runs.csv`` and ``demo_runs_lift.csv`` into ``folder`` (default: beside this
+    script)."""
+    folder = folder or os.path.dirname(os.path.abspath(__file__))
+    paths = (os.path.join(folder, "demo_runs.csv"), os.path.join(folder, "demo_runs_lift.csv"))
+    write_csv(paths[0], synthetic_runs(np.random.default_rng(SEED)))
+    write_csv(paths[1], banded_runs(np.random.default_rng(SEED_LIFT)))
+    return paths
 
 
 if __name__ == "__main__":

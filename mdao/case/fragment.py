@@ -14,6 +14,11 @@ from mdao.case.errors import CaseError
 from mdao.units import to_si
 
 
+def _constant(value):
+    """A constant of the fragment: a number, or a lift table (checked by the case reader)."""
+    return dict(value) if isinstance(value, dict) else float(value)
+
+
 class FragmentError(CaseError):
     """A calibration fragment that cannot be used; the message names the file and the key."""
 
@@ -29,7 +34,9 @@ def load_fragment(path):
     Returns
     -------
     dict
-        ``constants`` (case key path -> value), ``stderr`` (key -> value), ``covariance``
+        ``constants`` (case key path -> value: a number, or a lift table ``{"lift_coefficient":
+        [...], "value": [...]}``), ``lift_tables`` (key -> ``stderr``, ``ci95_low``,
+        ``ci95_high`` of a tabled constant, per breakpoint), ``stderr`` (key -> value), ``covariance``
         (``parameters``, ``matrix``), ``validity``: ``momentum_coefficient_range``,
         ``slot_ratio_range``, ``reynolds_range`` [-] and ``speed_range`` [m/s], each [low, high].
 
@@ -52,8 +59,8 @@ def load_fragment(path):
         raise FragmentError(f"{path}: missing key airfoil.momentum_coefficient_range")
     validity["momentum_coefficient_range"] = [float(v) for v in
                                               airfoil.pop("momentum_coefficient_range")]
-    constants = {f"duct.{k}": float(v) for k, v in data["duct"].items()}
-    constants.update({f"airfoil.{k}": float(v) for k, v in airfoil.items()})
+    constants = {f"duct.{k}": _constant(v) for k, v in data["duct"].items()}
+    constants.update({f"airfoil.{k}": _constant(v) for k, v in airfoil.items()})
     for key in ("slot_ratio_range", "reynolds_range", "speed_range"):
         if key not in data["validity"]:
             raise FragmentError(f"{path}: missing key validity.{key}")
@@ -71,14 +78,20 @@ def load_fragment(path):
             raise FragmentError(f"{path}: missing key uncertainty.{key}")
     names = list(unc["parameters"])
     matrix = [[float(v) for v in row] for row in unc["covariance"]]
-    if sorted(names) != sorted(constants):
+    scalars = sorted(k for k, v in constants.items() if not isinstance(v, dict))
+    if sorted(names) != scalars:
         raise FragmentError(f"{path}: uncertainty.parameters {names} do not match the "
-                               f"constants {sorted(constants)}")
+                               f"constants given as numbers {scalars}")
     if len(unc["stderr"]) != len(names) or len(matrix) != len(names) \
             or any(len(row) != len(names) for row in matrix):
         raise FragmentError(f"{path}: uncertainty.stderr and uncertainty.covariance must be "
                                f"of size {len(names)} (one per parameter)")
-    return {"constants": constants,
+    tables = unc.get("lift_tables", {})
+    if not isinstance(tables, dict) or sorted(tables) != sorted(
+            k for k, v in constants.items() if isinstance(v, dict)):
+        raise FragmentError(f"{path}: uncertainty.lift_tables must give the intervals of "
+                            "every constant given as a lift table, and only those")
+    return {"constants": constants, "lift_tables": tables,
             "stderr": {k: float(v) for k, v in zip(names, unc["stderr"])},
             "covariance": {"parameters": names, "matrix": matrix},
             "validity": validity}

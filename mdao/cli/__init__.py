@@ -31,6 +31,9 @@ def _parser():
     c.add_argument("runs", help="CSV of runs, each header with its unit in brackets")
     c.add_argument("--out", default="calibration", help="output folder (default: calibration)")
     c.add_argument("--no-plots", action="store_true", help="skip the PNG plots")
+    c.add_argument("--lift-bands", type=int, default=None, metavar="N",
+                   help="fit the constants in N bands of lift and write them as lift tables "
+                        "(1: one value per constant; default: decided from the runs)")
     r = sub.add_parser("review", help="design-review studies: sensitivities, break-even maps, "
                                       "uncertainty, report")
     r.add_argument("case")

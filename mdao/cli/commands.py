@@ -54,11 +54,12 @@ def _optimize(args, optimized=True):
 
 
 def _calibrate(args):
-    """``blownwing calibrate RUNS [--out DIR] [--no-plots]``."""
+    """``blownwing calibrate RUNS [--out DIR] [--no-plots] [--lift-bands N]``."""
     from mdao.report.calibration import format_summary
     from mdao.studies.calibration import calibrate_file
 
-    result = calibrate_file(args.runs, args.out, plots=not args.no_plots)
+    result = calibrate_file(args.runs, args.out, plots=not args.no_plots,
+                            lift_bands=args.lift_bands)
     print(format_summary(result))
     print(f"wrote {Path(args.out) / 'calibration.json'} and {Path(args.out) / 'calibration.toml'}")
     return EXIT_OK

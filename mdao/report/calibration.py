@@ -33,6 +33,7 @@ def format_summary(result):
             "  (mean of given column)" if "source" in entry else "")
         lines.append(f"{key:36s} {entry['value']:12.5g} {entry['stderr']:11.3g}   "
                      f"[{low:.5g}, {high:.5g}]{tag}")
+    lines += _table_lines(result)
     lines.append("")
     lines.append(f"{'fit':6s} {'runs':>5s} {'dof':>4s} {'R^2':>9s} {'resid std':>11s}  "
                  "C_mu range        slot ratio range")
@@ -61,6 +62,26 @@ def format_summary(result):
         lines += [f"  - {n}" for n in result["notes"]]
     lines.append(CAUTION)
     return "\n".join(lines)
+
+
+def _table_lines(result):
+    """The lift tables of a banded calibration: per constant, value +/- stderr at each band's
+    mean lift coefficient; per band, its runs and any warning."""
+    tables, bands = result.get("lift_tables"), result.get("lift_bands")
+    if not tables:
+        return []
+    lines = ["", f"Lift tables ({len(bands)} lift bands; the fragment gives these instead of "
+                 "the single values above):"]
+    lines.append(f"{'constant':36s} " + " ".join(f"{'C_L ' + format(b['lift_coefficient'], '.3f'):>19s}"
+                                                  for b in bands))
+    for key, t in tables.items():
+        lines.append(f"{key:36s} " + " ".join(f"{format(v, '.4g') + ' +/- ' + format(e, '.2g'):>19s}"
+                                              for v, e in zip(t["value"], t["stderr"])))
+    for k, b in enumerate(bands, 1):
+        lines.append(f"  band {k}: {b['runs']} runs, lift coefficient "
+                     f"{b['lift_coefficient_range'][0]:.3f} to {b['lift_coefficient_range'][1]:.3f}")
+        lines += [f"    - WARNING: {w}" for w in b["warnings"] + b["energy_balance_warnings"]]
+    return lines
 
 
 def _wrapped(items, indent="    ", width=100):

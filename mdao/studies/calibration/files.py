@@ -15,7 +15,7 @@ from mdao.studies.calibration.runs import read_runs
 __all__ = ["calibrate_file"]
 
 
-def calibrate_file(csv_path, out_dir, plots=True):
+def calibrate_file(csv_path, out_dir, plots=True, lift_bands=None):
     """Read runs, fit, and write ``calibration.json``, ``calibration.toml`` and the plots.
 
     Parameters
@@ -26,6 +26,8 @@ def calibrate_file(csv_path, out_dir, plots=True):
         Output folder (created if absent). Each file is written atomically.
     plots : bool
         Also write PNG plots when matplotlib is installed.
+    lift_bands : int, optional
+        Lift bands (see :func:`~mdao.studies.calibration.fitting.calibrate`).
 
     Returns
     -------
@@ -34,7 +36,7 @@ def calibrate_file(csv_path, out_dir, plots=True):
         (``csv``, ``sha256``) and ``files``.
     """
     runs = read_runs(csv_path)
-    result = calibrate(runs)
+    result = calibrate(runs, lift_bands=lift_bands)
     with open(csv_path, "rb") as handle:
         digest = hashlib.sha256(handle.read()).hexdigest()
     result["source"] = {"csv": os.fspath(csv_path), "sha256": digest}

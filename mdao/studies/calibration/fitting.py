@@ -342,8 +342,8 @@ def _plausibility(constants, ratio_range):
     return found
 
 
-def calibrate(runs):
-    """Fit the reduced-order constants to a table of runs.
+def _calibrate_all(runs):
+    """Fit the reduced-order constants to a table of runs (one value per constant).
 
     Parameters
     ----------
@@ -427,3 +427,185 @@ def calibrate(runs):
                            for k, v in PLAUSIBLE.items()},
         "caution": CAUTION,
     }
+
+
+#: Smallest spread of the runs' unblown lift coefficient that calls for lift bands (common
+#: practice, no source: about a tenth of a typical cruise-to-loiter lift range).
+MIN_LIFT_SPREAD = 0.1
+#: Most lift bands tried.
+MAX_LIFT_BANDS = 4
+#: Smallest distance between two bands' mean lift coefficients.
+MIN_BAND_GAP = 0.05
+
+
+def calibrate(runs, lift_bands=None):
+    """Fit the reduced-order constants to a table of runs, per lift band when the runs span a
+    range of lift.
+
+    Parameters
+    ----------
+    runs : dict of str to array_like
+        Columns in SI (see :data:`mdao.studies.calibration.runs.COLUMNS`), e.g. from
+        :func:`~mdao.studies.calibration.runs.read_runs`.
+    lift_bands : int, optional
+        Number of lift bands. None (default): decided from the runs (below); 1: one value per
+        constant, whatever the lift; 2 or more: exactly that many (a
+        :class:`CalibrationError` when the runs cannot identify the constants in each).
+
+    Returns
+    -------
+    dict
+        JSON-ready: ``constants`` (case key path -> ``value``, ``stderr``, ``ci95``; the fit to
+        all runs), ``covariance`` (``parameters``, ``matrix``; zero between separate fits),
+        ``fits`` (``duct``, ``drag``, ``lift``), ``validity`` (ranges over all runs),
+        ``warnings`` (the plausibility warnings), ``notes``, ``energy_balance`` (the runs and
+        the fitted model against the first law,
+        :func:`mdao.studies.calibration.energy.energy_balance`; its ``warnings`` are listed
+        there, not among the plausibility warnings), ``caution``. With lift bands also
+        ``lift_tables`` (case key path -> ``lift_coefficient`` (the bands' mean lift
+        coefficients), ``value``, ``stderr``, ``ci95``, one entry per band) and
+        ``lift_bands`` (per band: its rows, runs, lift range, warnings and energy balance).
+
+    Raises
+    ------
+    CalibrationError
+        Unusable runs, or a constant the runs cannot identify (the message names the column
+        that must vary).
+
+    Warns
+    -----
+    CalibrationWarning
+        A constant far from the usual values (see :data:`PLAUSIBLE`).
+
+    Notes
+    -----
+    Lift bands group runs of similar *unblown* lift, :math:`C_L - (dC_L/dC_\mu) C_\mu` with
+    the slope fitted to all runs: in effect runs at similar angles of attack, so that each band
+    spans the blowing range and its drag and duct fits are as well posed as the whole set's.
+    (Grouping by the measured lift itself would cut each blowing sweep into slices of momentum
+    coefficient and bias the lift slope, which is the response.) Bands are cut at the largest
+    gaps of the unblown lift; without ``lift_bands`` the most bands (up to
+    :data:`MAX_LIFT_BANDS`) whose fits all succeed are used, when the unblown lift spreads
+    over at least :data:`MIN_LIFT_SPREAD`. Each band's constants sit at the band's mean
+    measured lift coefficient, the breakpoint of the table a case interpolates
+    (:mod:`mdao.physics.lift_table`).
+    """
+    result = _calibrate_all(runs)
+    if lift_bands is not None and (isinstance(lift_bands, bool) or not isinstance(
+            lift_bands, int) or lift_bands < 1):
+        raise CalibrationError(f"lift_bands = {lift_bands!r}: allowed is a whole number >= 1")
+    if lift_bands == 1:
+        return result
+    checked = check_runs(runs)
+    if "lift_coefficient" not in checked:
+        if lift_bands is not None:
+            raise CalibrationError("lift bands need the column lift_coefficient")
+        return result
+    slope = result["fits"]["lift"]["parameters"]["airfoil.lift_per_momentum"]["value"]
+    cmu = derived(checked)["momentum_coefficient"]
+    unblown = checked["lift_coefficient"] - slope * cmu
+    spread = float(np.ptp(unblown))
+    if lift_bands is None and spread < MIN_LIFT_SPREAD:
+        result["notes"].append(
+            f"the runs' unblown lift coefficient spreads over {spread:.3g} only (less than "
+            f"{MIN_LIFT_SPREAD:g}): one value per constant, no lift tables")
+        return result
+    counts = [lift_bands] if lift_bands is not None else range(MAX_LIFT_BANDS, 1, -1)
+    failures = []
+    for count in counts:
+        try:
+            bands = _fit_bands(checked, unblown, count)
+        except CalibrationError as exc:
+            failures.append(f"{count} bands: {exc}")
+            continue
+        result.update(_tables(bands))
+        result["notes"].append(
+            f"constants fitted in {count} lift bands (unblown lift coefficient "
+            f"{unblown.min():.3g} to {unblown.max():.3g}); the fragment gives them as lift "
+            "tables, and the single values above (all runs) are for reference")
+        return result
+    if lift_bands is not None:
+        raise CalibrationError(failures[0])
+    result["notes"].append(
+        f"the runs' unblown lift coefficient spreads over {spread:.3g}, but no split into lift "
+        "bands identifies every constant in each band (" + "; ".join(failures)
+        + "): one value per constant, no lift tables")
+    return result
+
+
+def _band_masks(unblown, count):
+    """Masks of ``count`` bands cut at the largest gaps of the sorted unblown lift, in order."""
+    order = np.argsort(unblown, kind="stable")
+    gaps = np.diff(unblown[order])
+    cuts = np.sort(np.argsort(gaps, kind="stable")[::-1][:count - 1]) + 1
+    masks = []
+    for chunk in np.split(order, cuts):
+        mask = np.zeros(unblown.shape, bool)
+        mask[chunk] = True
+        masks.append(mask)
+    return masks
+
+
+def _fit_bands(runs, unblown, count):
+    """The fits of each band, or CalibrationError naming the band that cannot be fitted."""
+    bands = []
+    for k, mask in enumerate(_band_masks(unblown, count)):
+        sub = {name: np.asarray(col)[mask] for name, col in runs.items()}
+        where = (f"lift band {k + 1} (unblown lift coefficient {unblown[mask].min():.3g} to "
+                 f"{unblown[mask].max():.3g}, {int(mask.sum())} runs)")
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always", CalibrationWarning)
+            try:
+                fit = _calibrate_all(sub)
+            except CalibrationError as exc:
+                raise CalibrationError(f"{where}: {exc}") from None
+        rows = np.flatnonzero(mask) + 1
+        bands.append({"where": where, "mask": mask, "rows": rows, "fit": fit,
+                      "lift": float(np.mean(sub["lift_coefficient"])),
+                      "lift_range": [float(np.min(sub["lift_coefficient"])),
+                                     float(np.max(sub["lift_coefficient"]))],
+                      "warnings": [str(w.message) for w in caught]})
+    keys = [set(b["fit"]["constants"]) for b in bands]
+    if any(k != keys[0] for k in keys):
+        raise CalibrationError("the bands do not all identify the same constants (slot ratios "
+                               "or clean-drag columns differ between them)")
+    centres = [b["lift"] for b in bands]
+    if any(b - a < MIN_BAND_GAP for a, b in zip(centres, centres[1:])):
+        raise CalibrationError(f"band mean lift coefficients {[round(c, 3) for c in centres]} "
+                               f"lie closer than {MIN_BAND_GAP:g}")
+    for b in bands:
+        for message in b["warnings"]:
+            warnings.warn(f"{b['where']}: {message}", CalibrationWarning, stacklevel=3)
+    return bands
+
+
+def _tables(bands):
+    """``lift_tables`` and ``lift_bands`` of the result from the bands' fits."""
+    from mdao.parameters import BY_KEY
+
+    centres = [b["lift"] for b in bands]
+    tables = {}
+    for key in bands[0]["fit"]["constants"]:
+        if not BY_KEY[key].lift_table or bands[0]["fit"]["constants"][key].get("fixed"):
+            continue   # a fixed constant (the slot penalty without a clean column) stays one
+        entries = [b["fit"]["constants"][key] for b in bands]
+        tables[key] = {"lift_coefficient": centres, "value": [e["value"] for e in entries],
+                       "stderr": [e["stderr"] for e in entries],
+                       "ci95": [list(e["ci95"]) for e in entries]}
+    summary = []
+    for b in bands:
+        fit, rows = b["fit"], b["rows"]
+        balance = fit["energy_balance"]
+        summary.append({
+            "lift_coefficient": b["lift"], "runs": int(b["mask"].sum()),
+            "rows": rows.tolist(), "description": b["where"],
+            "lift_coefficient_range": b["lift_range"],
+            "r2": {name: f["r2"] for name, f in fit["fits"].items()},
+            "outlier_rows": sorted({int(rows[o["row"] - 1]) for f in fit["fits"].values()
+                                    for o in f["outliers"]}),
+            "warnings": b["warnings"],
+            "energy_balance_warnings": balance["warnings"],
+            "energy_balance_broken_rows": [int(rows[r["row"] - 1])
+                                           for r in balance["broken_runs"]],
+            "fitted_model_worst_margin": balance["fitted_model"]["worst"]["margin"]})
+    return {"lift_tables": tables, "lift_bands": summary}
