@@ -56,6 +56,10 @@ class BlownWingGroup(om.Group):
             raise ValueError("lift_tables: constants tabulated over the lift coefficient are "
                              "evaluated by the fused chain (fused=True, the default); the "
                              "per-discipline group takes one value per constant")
+        if o["compressible_jet"] and not o["fused"]:
+            raise ValueError("compressible_jet: the compressible jet is evaluated by the fused "
+                             "chain (fused=True, the default); the per-discipline group's jet "
+                             "is incompressible")
         if o["fused"]:
             self.add_subsystem("chain", ChainComp(**{k: o[k] for k in CHAIN_OPTIONS}),
                 promotes=["*"])
@@ -230,7 +234,9 @@ def chain_options(case):
     return chain.ChainOptions(duct_model=case.duct["model"], fan_model=case.fan["model"],
                               fans=case.duct["fans"], stations=case.duct["stations"],
                               schedule=case.duct["schedule"],
-                              compressible=case.fan["compressible"], aircraft=case.has_aircraft,
+                              compressible=case.fan["compressible"],
+                              compressible_jet=case.fan["compressible"],
+                              aircraft=case.has_aircraft,
                               lift_tables=tuple((registry.BY_KEY[key].name, table)
                                                 for key, table in lift_tables(case).items()))
 

@@ -29,6 +29,7 @@ OUTPUT_UNITS = {
     "section_drag": "N", "clean_section_drag": "N", "drag_saving": "N", "lift_increment": None,
     "propulsion_power_saving": "W", "fan_electric_power": "W", "net_power_saving": "W",
     "energy_margin": "W", "energy_saving": "J", "lift_coefficient": None,
+    "jet_head": "Pa", "jet_temperature": "K",
     "aircraft_clean_drag": "N", "main_thrust_clean": "N", "main_thrust": "N",
     "clean_source_power": "W", "clean_source_energy": "J"}
 #: Station outputs of the geometric duct: output name -> (station field, units).
@@ -54,7 +55,8 @@ class ChainComp(om.ExplicitComponent):
         return chain.ChainOptions(duct_model=o["duct_model"], fan_model=o["fan_model"],
                                   fans=o["fans"], stations=o["stations"], schedule=o["schedule"],
                                   compressible=o["compressible"], aircraft=o["aircraft"],
-                                  lift_tables=tuple(o["lift_tables"]))
+                                  lift_tables=tuple(o["lift_tables"]),
+                                  compressible_jet=o["compressible_jet"])
 
     def setup(self):
         o = self.options

@@ -60,6 +60,9 @@ CHAIN_OPTIONS = {
                      desc="section schedule along the transition (geometric duct)"),
     "compressible": dict(types=bool, default=False,
                          desc="isentropic compression power instead of Q dp / eta"),
+    "compressible_jet": dict(types=bool, default=False,
+                             desc="compressible jet: its head from the isentropic pressure ratio "
+                                  "at the slot, its temperature after the fan (fused chain)"),
     "aircraft": dict(types=bool, default=False,
                      desc="the aircraft around the wing (a case's [aircraft] table): lift "
                           "coefficient, main thrust, clean mission energy"),

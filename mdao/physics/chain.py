@@ -55,6 +55,10 @@ class ChainOptions:
     #: ``aircraft``) or the input ``lift_coefficient`` per point. A constant given explicitly
     #: among the parameters overrides its table (maps and studies that set it to a number).
     lift_tables: tuple = ()
+    #: The compressible jet (:func:`mdao.physics.jet.compressible_kinematics`): the jet's head
+    #: from the isentropic pressure ratio at the slot and its temperature after the fan. A
+    #: case's ``fan.compressible = true`` sets it with ``compressible``.
+    compressible_jet: bool = False
 
     def tabled(self, params=()):
         """Names of the constants this chain takes from lift tables (those not in ``params``)."""
@@ -154,15 +158,18 @@ def evaluate(params, options=ChainOptions(), blowing=True, derivatives=False):
     else:
         atm = atmosphere.isa(p["altitude"])
     out.update(atm._asdict())
-    jet_args = (p["momentum_coefficient"], p["slot_ratio"], p["speed"], atm.density, p["chord"],
-                p["blown_span"], atm.speed_of_sound)
-    if d:
-        js, djs = jet.kinematics(*jet_args, derivatives=True)
-        for field in js._fields:
-            tan[field] = _chain({k: djs[field, k] for k in jet.KINEMATICS_INPUTS
-                                 if (field, k) in djs}, tan)
+    if options.compressible_jet:
+        js = _compressible_jet(p, options, atm, out, tan if d else None)
     else:
-        js = jet.kinematics(*jet_args)
+        jet_args = (p["momentum_coefficient"], p["slot_ratio"], p["speed"], atm.density,
+                    p["chord"], p["blown_span"], atm.speed_of_sound)
+        if d:
+            js, djs = jet.kinematics(*jet_args, derivatives=True)
+            for field in js._fields:
+                tan[field] = _chain({k: djs[field, k] for k in jet.KINEMATICS_INPUTS
+                                     if (field, k) in djs}, tan)
+        else:
+            js = jet.kinematics(*jet_args)
     out.update(js._asdict())
 
     # The section's lift coefficient and the constants that follow it.
@@ -176,8 +183,12 @@ def evaluate(params, options=ChainOptions(), blowing=True, derivatives=False):
         st = duct_stations(p, options)
         out["diffusion_half_angle"] = st.half_angle
     out["jet_loss_factor"] = kj
-    res = duct.required_pressure_rise(kj, p["freestream_assist"], atm.density, js.jet_velocity,
-                                      js.dynamic_pressure, derivatives=d)
+    if options.compressible_jet:
+        res = duct.required_pressure_rise_from_head(kj, p["freestream_assist"], out["jet_head"],
+                                                    js.dynamic_pressure, derivatives=d)
+    else:
+        res = duct.required_pressure_rise(kj, p["freestream_assist"], atm.density,
+                                          js.jet_velocity, js.dynamic_pressure, derivatives=d)
     req = _step(tan, "required_pressure_rise", res, d)
     out["required_pressure_rise"] = req
     out["ram_driven"] = duct.ram_driven(req)
@@ -257,6 +268,28 @@ def evaluate(params, options=ChainOptions(), blowing=True, derivatives=False):
     if not d:
         return out
     return out, _partials(out, tan)
+
+
+def _compressible_jet(p, options, atm, out, tan):
+    """The compressible jet's state (returned), head and temperature (into ``out``), with their
+    tangents into ``tan`` when given. The fan efficiency that heats the jet is the constant
+    fan's, or the map's peak efficiency (its efficiency at the operating point would need the
+    jet's flow first)."""
+    heating = "fan_rated_efficiency" if options.fan_model == "constant" else "peak_efficiency"
+    names = dict(zip(jet.COMPRESSIBLE_INPUTS, jet.COMPRESSIBLE_INPUTS))
+    names["heating_efficiency"] = heating
+    args = (p["momentum_coefficient"], p["slot_ratio"], p["speed"], atm.density, atm.pressure,
+            atm.temperature, p["chord"], p["blown_span"], p[heating])
+    res = jet.compressible_kinematics(*args, derivatives=tan is not None)
+    cj = res[0] if tan is not None else res
+    out["jet_head"] = cj.jet_head
+    out["jet_temperature"] = cj.jet_temperature
+    if tan is not None:
+        fields = cj.state._fields + ("jet_head", "jet_temperature")
+        for field in fields:
+            tan[field] = _chain({names[k]: v for (f, k), v in res[1].items() if f == field},
+                                tan)
+    return cj.state
 
 
 def _lift(p, params, options, js, out, tan):

@@ -96,6 +96,59 @@ def required_pressure_rise(jet_loss_factor, freestream_assist, density, jet_velo
     }
 
 
+def required_pressure_rise_from_head(jet_loss_factor, freestream_assist, jet_head,
+                                     dynamic_pressure, derivatives=False):
+    r"""Fan total-pressure rise for a jet of given total-to-static head, [Pa].
+
+    .. math::
+        \Delta p_{req} = K_j H_j - K_\infty q
+
+    The compressible form of :func:`required_pressure_rise`: the jet's head :math:`H_j = p_{0j}
+    - p` from the isentropic relation (:func:`mdao.physics.jet.compressible_kinematics`) in
+    place of :math:`\tfrac12\rho V_j^2`; the loss factor is carried on the head unchanged
+    (losses in jet heads).
+
+    Parameters
+    ----------
+    jet_loss_factor, freestream_assist : array_like
+        :math:`K_j` and :math:`K_\infty`, [-].
+    jet_head : array_like
+        :math:`H_j`, [Pa], >= 0.
+    dynamic_pressure : array_like
+        Freestream dynamic pressure, [Pa].
+    derivatives : bool
+        Also return the partial derivatives, keyed by the argument names.
+
+    Returns
+    -------
+    dp : ndarray
+        Required pressure rise, [Pa].
+    partials : dict
+        Only with ``derivatives``.
+
+    References
+    ----------
+    .. [1] docs/theory.md, sections "Duct loss" and "Jet kinematics" (the compressible jet).
+
+    Examples
+    --------
+    By hand: 1.3 * 5200 - 1.0 * 980 = 5780 Pa.
+
+    >>> float(required_pressure_rise_from_head(1.3, 1.0, 5200.0, 980.0))
+    5780.0
+    """
+    kj = np.asarray(jet_loss_factor, float)
+    ki = np.asarray(freestream_assist, float)
+    head = np.asarray(jet_head, float)
+    q = np.asarray(dynamic_pressure, float)
+    dp = kj * head - ki * q
+    if not derivatives:
+        return dp
+    zero = 0 * dp
+    return dp, {"jet_loss_factor": head + zero, "freestream_assist": -q + zero,
+                "jet_head": kj + zero, "dynamic_pressure": -ki + zero}
+
+
 def ram_driven(required_rise):
     r"""True where the jet needs no fan: the freestream alone would drive it.
 

@@ -49,7 +49,7 @@ def segment_table(outcome, case):
         if error is not None and s["jet_mach"] > INCOMPRESSIBLE_MACH:
             lines.append(f"  {s['name']}: jet Mach {s['jet_mach']:.2f}: the incompressible jet "
                          f"head is low by about {100 * error:.1f} % (M^2/4); set [fan] "
-                         "compressible = true for the fan work")
+                         "compressible = true for the compressible jet and fan work")
         if s["ram_driven"]:
             lines.append(f"  {s['name']}: ram-driven: the jet needs no fan (required rise <= 0)")
         if s["blowing"] and s["energy_margin_W"] is not None \
