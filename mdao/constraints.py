@@ -50,8 +50,14 @@ class Constraint:
         optimizer's ``ref``, and the margin of a bound at zero) instead of its bounds.
     condition : str or None
         A further condition on the case: ``"slot ratio free"`` (the slot ratio is a design
-        variable), ``"minimum slot height"`` (the case sets one) or ``"aircraft"`` (the case
-        describes the aircraft around the wing, ``[aircraft]``).
+        variable), ``"minimum slot height"`` (the case sets one), ``"aircraft"`` (the case
+        describes the aircraft around the wing, ``[aircraft]``), ``"high-lift"`` (a segment
+        of kind ``"high-lift"``), ``"sized fan"`` (``[aircraft]`` and ``[mass]``: the rated
+        power is a design variable), ``"fan diameter free"`` (``duct.fan_diameter_bounds``) or
+        ``"fan fit"`` (the fan diameter is free and ``wing.thickness_ratio`` given).
+    segments : str
+        Where a per-segment constraint applies: ``"blowing"`` (every segment whose fan runs)
+        or ``"high-lift"`` (the high-lift segments).
     """
 
     name: str
@@ -65,6 +71,7 @@ class Constraint:
     fan_models: tuple = ("constant", "map")
     scale_by: str = None
     condition: str = None
+    segments: str = "blowing"
 
 
 #: The constraint set, in report order.
@@ -88,10 +95,27 @@ CONSTRAINTS = (
     Constraint("transition diffusion limit", "diffusion_half_angle",
                upper="duct.max_diffusion_half_angle", per_segment=False,
                duct_models=("geometric",)),
+    # the wall divergence limit, on each pair of walls; converging walls are not bounded (they
+    # accelerate the flow along them: docs/theory.md, "Wall divergence")
+    Constraint("span wall divergence limit", "span_wall_half_angle",
+               upper="duct.max_wall_half_angle", per_segment=False, duct_models=("geometric",)),
+    Constraint("thickness wall divergence limit", "thickness_wall_half_angle",
+               upper="duct.max_wall_half_angle", per_segment=False, duct_models=("geometric",)),
     Constraint("minimum slot height", "slot_height", lower="slot.min_height", per_segment=False,
                condition="minimum slot height"),
     Constraint("main thrust floor", "main_thrust", lower="aircraft.min_main_thrust",
                condition="aircraft"),
+    Constraint("high-lift requirement", "lift_reserve", lower=0.0, condition="high-lift",
+               segments="high-lift"),
+    Constraint("rated power bounds", "rated_shaft_power", lower=0.0, per_segment=False,
+               design_variable=True, condition="sized fan"),
+    Constraint("rated power", "power_headroom", lower=0.0, scale_by="rated_shaft_power",
+               condition="sized fan"),
+    Constraint("fan diameter bounds", "fan_diameter", lower="duct.fan_diameter_bounds[0]",
+               upper="duct.fan_diameter_bounds[1]", per_segment=False, design_variable=True,
+               condition="fan diameter free"),
+    Constraint("fan fit in the wing", "fan_thickness_fraction",
+               upper="duct.max_fan_thickness_fraction", per_segment=False, condition="fan fit"),
 )
 
 #: Constraint by name.
@@ -106,6 +130,23 @@ def slot_ratio_free(case):
     return bounds is not None and bounds[1] > bounds[0]
 
 
+def fan_diameter_free(case):
+    """Whether the fan diameter is a design variable (``duct.fan_diameter_bounds`` given and
+    apart)."""
+    bounds = case.duct.get("fan_diameter_bounds")
+    return bounds is not None and bounds[1] > bounds[0]
+
+
+def segment_mask(constraint, case, blowing=None):
+    """Per segment: does a per-segment constraint apply (its fan runs, and for
+    ``segments="high-lift"`` the segment is a high-lift one)?"""
+    mask = case.blowing if blowing is None else blowing
+    if constraint.segments == "high-lift":
+        kinds = np.array([s.get("kind", "cruise") == "high-lift" for s in case.segments])
+        mask = np.asarray(mask, bool) & kinds
+    return mask
+
+
 def _condition_holds(constraint, case):
     if constraint.condition is None:
         return True
@@ -115,6 +156,14 @@ def _condition_holds(constraint, case):
         return case.slot["min_height"] > 0 and slot_ratio_free(case)
     if constraint.condition == "aircraft":
         return bool(getattr(case, "has_aircraft", False))
+    if constraint.condition == "high-lift":
+        return bool(np.any(segment_mask(constraint, case)))
+    if constraint.condition == "sized fan":
+        return bool(getattr(case, "sizes_fan", False))
+    if constraint.condition == "fan diameter free":
+        return fan_diameter_free(case)
+    if constraint.condition == "fan fit":
+        return fan_diameter_free(case) and case.value("wing.thickness_ratio") is not None
     raise ValueError(f"unknown constraint condition {constraint.condition!r}")
 
 
@@ -207,7 +256,7 @@ def margin(constraint, case, values, blowing=None):
                 m = np.minimum(m, (hi - x) / (abs(hi) or big))
         m = np.where(np.isfinite(x), m, -np.inf)
     if constraint.per_segment:
-        m = np.where(case.blowing if blowing is None else blowing, m, np.nan)
+        m = np.where(segment_mask(constraint, case, blowing), m, np.nan)
     return m
 
 
@@ -297,7 +346,8 @@ def active(case, values, tol=ACTIVE_TOL, follow_requirement=False):
 
 def active_rows(case, values, tol=ACTIVE_TOL):
     """Active constraints as ``(constraint, index)`` pairs, equalities included: index is the
-    segment (per-segment constraints), the transition station (the diffusion limit) or 0."""
+    segment (per-segment constraints), the transition station (the diffusion and wall
+    divergence limits) or 0."""
     rows = []
     for c in applicable(case):
         m = margin(c, case, values)

@@ -59,6 +59,9 @@ class Parameter:
         May be a table over the section lift coefficient instead of one number
         (:class:`mdao.physics.lift_table.LiftTable`; case form ``{ lift_coefficient = [...],
         value = [...] }``).
+    fused_only : bool
+        Wired only by the fused chain (:class:`mdao.components.chain.ChainComp`), not by the
+        per-discipline group: the fan's fit in the wing and the high-lift requirement.
     aircraft : bool
         Used only when the case describes the aircraft around the wing (an ``[aircraft]``
         table): the aircraft's lift, drag and main-propulsor thrust (:mod:`mdao.physics.aircraft`).
@@ -84,6 +87,7 @@ class Parameter:
     calibrated: bool = False
     aircraft: bool = False
     lift_table: bool = False
+    fused_only: bool = False
     description: str = ""
 
     @property
@@ -130,6 +134,11 @@ CHAIN_PARAMETERS = (
               description="chord of the blown section"),
     Parameter("wing.blown_span", "blown_span", "m", "length", example=1.0, low=0, low_open=True,
               description="span with blowing"),
+    Parameter("wing.thickness_ratio", "thickness_ratio", default=None, example=0.15, low=0,
+              high=0.5, low_open=True, duct_models=_GEO, fan_models=_MAP, either=True,
+              uncertain=False,
+              fused_only=True,
+              description="section thickness over chord where the fan sits (the fan must fit)"),
     Parameter("slot.ratio", "slot_ratio", example=0.01, low=0, high=0.2, low_open=True,
               uncertain=False, description="injection slot height over chord"),
     Parameter("slot.suction_ratio", "suction_ratio", default=REQUIRED, example=0.02, low=0,
@@ -199,6 +208,10 @@ CHAIN_PARAMETERS = (
               high=100, calibrated=True,
               lift_table=True,
               description="lift coefficient change per unit momentum coefficient"),
+    Parameter("airfoil.max_lift_clean", "max_lift_clean", default=None, example=1.4, low=0,
+              high=5, low_open=True, aircraft=True,
+              fused_only=True,
+              description="maximum lift coefficient of the section without blowing"),
     Parameter("airfoil.thrust_power_ceiling", "thrust_power_ceiling", default=1.0, low=0,
               high=1, low_open=True, uncertain=False,
               description="share of the air power that may return as thrust power"),
@@ -221,6 +234,12 @@ CHAIN_PARAMETERS = (
     Parameter("aircraft.span_efficiency", "span_efficiency", example=0.8, low=0, high=1,
               low_open=True, uncertain=False, aircraft=True,
               description="span efficiency (Oswald) factor e of the drag polar"),
+    Parameter("aircraft.high_lift_margin", "high_lift_margin", default=1.69, low=1.0, high=4.0,
+              aircraft=True, uncertain=False,
+              fused_only=True,
+              description="maximum lift coefficient over the lift coefficient flown in a "
+                          "high-lift segment (1.69 = 1.3^2: flight at 1.3 times the stall "
+                          "speed; common practice, no source)"),
     Parameter("segment.altitude", "altitude", "m", "length", example=0.0, low=0, high=20000,
               per_segment=True, description="geometric altitude"),
     Parameter("segment.speed", "speed", "m/s", "speed", example=40.0, low=0, high=400,

@@ -56,6 +56,9 @@ class BlownWingGroup(om.Group):
             raise ValueError("lift_tables: constants tabulated over the lift coefficient are "
                              "evaluated by the fused chain (fused=True, the default); the "
                              "per-discipline group takes one value per constant")
+        if o["sized_fan"] and not o["fused"]:
+            raise ValueError("sized_fan: the fan sized across the mission is evaluated by the "
+                             "fused chain (fused=True, the default)")
         if o["compressible_jet"] and not o["fused"]:
             raise ValueError("compressible_jet: the compressible jet is evaluated by the fused "
                              "chain (fused=True, the default); the per-discipline group's jet "
@@ -119,7 +122,10 @@ def parameter_values(case):
     without ``[aircraft]`` the segments' ``lift_coefficient`` is then among the values)."""
     out = {}
     tables = lift_tables(case)
+    high_lift = bool(case.high_lift.any())
     for p in applicable_parameters(case):
+        if p.name in HIGH_LIFT_PARAMETERS and not high_lift:
+            continue    # the high-lift requirement's constants, unused without such a segment
         if p.per_segment:
             out[p.name] = np.array([s[p.field] for s in case.segments], float)
             continue
@@ -128,6 +134,10 @@ def parameter_values(case):
             out[p.name] = np.asarray(value, float)
     if tables and not case.has_aircraft:
         out["lift_coefficient"] = segment_lift(case)
+    if case.sizes_fan:
+        for p in registry.MASS_PARAMETERS:
+            if p.used_by(case.duct["model"], case.fan["model"]):
+                out[p.name] = np.asarray(case.value(p.key), float)
     return out
 
 
@@ -142,6 +152,8 @@ def set_case_values(prob, case, start=True, follow_requirement=False, point=None
         prob.set_val("momentum_coefficient", point.momentum_coefficient)
         if not follow_requirement:
             prob.set_val("fan_pressure_rise", point.fan_pressure_rise)
+        if point.rated_shaft_power is not None:
+            prob.set_val("rated_shaft_power", point.rated_shaft_power)
 
 
 @dataclass
@@ -166,6 +178,9 @@ class StartPoint:
     fan_pressure_rise: np.ndarray
     without_admissible_point: list
     outputs: dict
+    #: With the fan sized across the mission: the power margin times the largest shaft power
+    #: at the start [W] (else None).
+    rated_shaft_power: float = None
 
 
 #: Momentum coefficients per segment tried for the start point (log-spaced over the range).
@@ -201,12 +216,13 @@ def start_point(case):
         ratios += list(np.linspace(*case.slot["ratio_bounds"], START_RATIOS))
     grid = np.geomspace(lo, hi, START_GRID)[:, None]
     cons = [c for c in design_constraints.applicable(case, follow_requirement=True)
-            if c.per_segment]
+            if c.per_segment and c.name != "rated power"]   # the rating follows the start
+    rated = _start_rating(case)
     durations = np.array([s["duration"] for s in case.segments])
     best = None
     for ratio in ratios:   # a handful of wing geometries, each one vectorized call
-        out = chain.evaluate(chain_parameters(case, momentum_coefficient=grid, slot_ratio=ratio),
-                             chain_options(case), blowing=case.blowing)
+        out = chain.evaluate(chain_parameters(case, momentum_coefficient=grid, slot_ratio=ratio,
+                                              **rated), chain_options(case), blowing=case.blowing)
         out["momentum_coefficient"] = np.broadcast_to(grid, out["net_power_saving"].shape)
         ok = design_constraints.holds(case, out, cons) & np.isfinite(out["net_power_saving"])
         score = np.where(ok, out["net_power_saving"], -np.inf)
@@ -220,13 +236,48 @@ def start_point(case):
     _, ratio, cmu, found = best
     cmu = np.where(np.isnan(given), cmu, given)
     cmu = np.where(case.blowing, cmu, 0.0)
-    out = chain.evaluate(chain_parameters(case, momentum_coefficient=cmu, slot_ratio=ratio),
-                         chain_options(case), blowing=case.blowing)
+    out = chain.evaluate(chain_parameters(case, momentum_coefficient=cmu, slot_ratio=ratio,
+                                          **rated), chain_options(case), blowing=case.blowing)
+    rating = None
+    if case.sizes_fan:   # rate the fan for the start's largest need, and fly its mass
+        rating = float(case.mass["power_margin"] * np.max(out["fan_shaft_power"][case.blowing]))
+        out = chain.evaluate(chain_parameters(case, momentum_coefficient=cmu, slot_ratio=ratio,
+                                              rated_shaft_power=rating),
+                             chain_options(case), blowing=case.blowing)
+        out["rated_shaft_power"] = np.full(len(case.segments), rating)   # sizes its constraint
     dp = np.clip(out["required_pressure_rise"], case.fan["min_pressure_rise"],
                  case.fan["max_pressure_rise"])
     lacking = [s["name"] for s, on, ok, g in zip(case.segments, case.blowing, found, given)
                if on and not ok and np.isnan(g)]
-    return StartPoint(ratio, cmu, dp, lacking, out)
+    return StartPoint(ratio, cmu, dp, lacking, out, rating)
+
+
+def _start_rating(case):
+    """``{"rated_shaft_power": W}`` for the start grid of a sized fan: the rating of a fan that
+    blows the start of the calibrated range's geometric mean in every segment (the grid's own
+    rating is set after it), or ``{}``."""
+    if not case.sizes_fan:
+        return {}
+    lo, hi = case.airfoil["momentum_coefficient_range"]
+    cmu = np.where(case.blowing, np.sqrt(lo * hi), 0.0)
+    out = chain.evaluate(chain_parameters(case, momentum_coefficient=cmu, rated_shaft_power=0.0),
+                         chain_options(case), blowing=case.blowing)
+    return {"rated_shaft_power": float(case.mass["power_margin"]
+                                     * np.max(out["fan_shaft_power"][case.blowing]))}
+
+
+#: Constants of the high-lift requirement (used only with a high-lift segment).
+HIGH_LIFT_PARAMETERS = ("max_lift_clean", "high_lift_margin")
+
+#: Wing-level design variables besides the per-segment ones: the slot ratio, the rated shaft
+#: power of a sized fan and a free fan diameter.
+WING_DESIGN = ("slot_ratio", "rated_shaft_power", "fan_diameter")
+
+
+def design_point(values):
+    """``{name: value}`` of the wing-level design variables found in ``values`` (an optimum's
+    values, :func:`mdao.optimum.solve.read_values`), for the chain's parameters."""
+    return {k: np.asarray(values[k], float) for k in WING_DESIGN if k in values}
 
 
 def chain_options(case):
@@ -236,7 +287,7 @@ def chain_options(case):
                               schedule=case.duct["schedule"],
                               compressible=case.fan["compressible"],
                               compressible_jet=case.fan["compressible"],
-                              aircraft=case.has_aircraft,
+                              aircraft=case.has_aircraft, sized_fan=case.sizes_fan,
                               lift_tables=tuple((registry.BY_KEY[key].name, table)
                                                 for key, table in lift_tables(case).items()))
 
@@ -272,6 +323,14 @@ def build_problem(case, follow_requirement=False, driver=True, fused=None):
     """
     opts = group_options(case, fused)
     opts["follow_requirement"] = follow_requirement
+    fused_only = [what for what, used in (
+        ("lift tables", bool(opts["lift_tables"])), ("the compressible jet", opts["compressible_jet"]),
+        ("a sized fan", opts["sized_fan"]), ("high-lift segments", bool(case.high_lift.any())),
+        ("the fan's fit in the wing", case.value("wing.thickness_ratio") is not None))
+        if used]
+    if fused_only and not opts["fused"]:
+        raise ValueError(f"fused=False: the per-discipline group does not wire "
+                         f"{', '.join(fused_only)}; use the fused chain (the default)")
     prob = om.Problem(reports=False)
     prob.model.add_subsystem("wing", BlownWingGroup(**opts), promotes=["*"])
     blow = np.flatnonzero(case.blowing)
@@ -289,15 +348,20 @@ def _add_optimization(prob, case, blow, follow, point):
     scaled at the start ``point``."""
     model = prob.model
     for con in design_constraints.applicable(case, follow_requirement=follow):
+        if not moved_by_design(con, case):
+            continue   # a fixed duct's angle: the feasibility check of the optimum reads it
         lower, upper = design_constraints.bounds(con, case)
         ref = design_constraints.reference(con, case, point.outputs)
-        indices = blow if con.per_segment else None
+        indices = (np.flatnonzero(design_constraints.segment_mask(con, case))
+                   if con.per_segment else None)
         if con.quantity == "fan_pressure_rise" and follow:  # the fan gives what is required
             model.add_constraint("required_pressure_rise", lower=lower, upper=upper,
                                  indices=indices, ref=ref)
         elif con.design_variable:
             if con.quantity == "fan_pressure_rise":
                 model.set_input_defaults(con.quantity, point.fan_pressure_rise, units="Pa")
+            if con.quantity == "rated_shaft_power":   # sized at the start point's largest need
+                ref = point.rated_shaft_power
             model.add_design_var(con.quantity, lower=lower, upper=upper, indices=indices,
                                  ref=ref)
         elif con.quantity == "pressure_balance":
@@ -319,6 +383,20 @@ def _add_optimization(prob, case, blow, follow, point):
                             ref=-_power_scale(case))
     prob.driver = om.ScipyOptimizeDriver(optimizer="SLSQP", maxiter=case.optimize["max_iterations"],
                                          tol=case.optimize["tolerance"], disp=False)
+
+
+def moved_by_design(constraint, case):
+    """Whether a transition angle's constraint depends on a design variable (the slot ratio or
+    the fan diameter, when free); other constraints always do. With linear semi-axes the side
+    walls do not move with the slot ratio: the optimizer is not given a constraint it cannot
+    move, and the optimum's feasibility check still holds the duct to it."""
+    field = chain.ANGLE_OUTPUTS.get(constraint.quantity)
+    if field is None or case.duct["model"] != "geometric":
+        return True
+    free = {"slot_ratio"} if design_constraints.slot_ratio_free(case) else set()
+    if design_constraints.fan_diameter_free(case):
+        free.add("fan_diameter")
+    return bool(free & set(chain.station_dependencies(case.duct["schedule"])[field]))
 
 
 def _power_scale(case):

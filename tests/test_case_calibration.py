@@ -68,7 +68,8 @@ def _fan_points_case(tmp_path, cases_dir, header, rows):
 def test_fan_map_fitted_from_points_file(tmp_path, cases_dir):
     """Noise-free points of a known map (units in the header) give back its coefficients."""
     import numpy as np
-    c, peak, phi_pk, fall, d = (3.0, 0.5, -6.0), 0.78, 0.36, 1.5, 0.16
+    c, peak, phi_pk, fall = (3.0, 0.5, -6.0), 0.78, 0.36, 1.5
+    d = load_case(cases_dir / "coastal-patrol.toml").duct["fan_diameter"]   # the case's fan
     phi = np.linspace(0.2, 0.5, 7)
     speed = np.linspace(200.0, 400.0, 7)  # rev/s
     flow = phi * speed * d ** 3

@@ -23,7 +23,8 @@ BLOWNWING = Path(sys.executable).with_name("blownwing")
 CASES = Path(__file__).resolve().parents[1] / "cases"
 SURVEY = CASES / "survey-drone.toml"
 RUNS_CSV = CASES / "data" / "demo_runs.csv"
-SUBCOMMANDS = ("optimize", "evaluate", "calibrate", "review", "many")
+SUBCOMMANDS = ("optimize", "evaluate", "calibrate", "review", "many", "duct")
+COASTAL = CASES / "coastal-patrol.toml"
 
 pytestmark = pytest.mark.skipif(
     not BLOWNWING.exists(),
@@ -52,6 +53,7 @@ COMMANDS = {
     "many": (["many", str(SURVEY), "--kind", "multistart", "--samples", "2"], "many"),
     "not converging": (["optimize", "not-converging.toml"], "nc"),
     "calibrate": (["calibrate", str(RUNS_CSV), "--no-plots"], "calibrate"),
+    "duct": (["duct", str(COASTAL), "--start"], "duct"),
     **{f"bad: {label}": (["optimize", f"bad-{i}.toml"], f"bad-{i}")
        for i, label in enumerate(BAD_CASES)},
     "version": (["--version"], None),
@@ -179,6 +181,25 @@ def test_not_converged_exits_3(ran):
     assert "NOT CONVERGED" in done.stderr and "Traceback" not in done.stderr
     assert "optimum" not in done.stdout and "mission energy saved" not in done.stdout
     assert json.loads((out / "results.json").read_text())["converged"] is False
+
+
+def test_duct(ran):
+    """``duct --start`` on the geometric case: the stations, the section loops and the figure,
+    the stations those of the start point's duct (mdao.physics.chain.duct_stations)."""
+    from mdao.case import load_case
+    from mdao.optimum import evaluate_start_point
+    from mdao.studies.duct_export import duct_data
+
+    done, out = ran("duct")
+    _ok(done)
+    assert {p.name for p in out.iterdir()} == {"transition.csv", "sections.csv", "duct.png"}
+    rows = [r.split(",") for r in (out / "transition.csv").read_text().splitlines()
+            if not r.startswith("#")]
+    case = load_case(COASTAL)
+    here = duct_data(case, evaluate_start_point(case), "start point")
+    assert len(rows) == 1 + len(here["x_m"])
+    area = [float(r[rows[0].index("area [m^2]")]) for r in rows[1:]]
+    assert area == pytest.approx(here["area_m2"], rel=1e-11)
 
 
 def test_version(ran):

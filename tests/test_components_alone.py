@@ -35,7 +35,8 @@ def test_group_matches_direct_chain(path, cases_dir):
     prob.run_model()
     cmu = prob.get_val("momentum_coefficient")
     dp = prob.get_val("fan_pressure_rise")
-    direct = chain.evaluate(chain_parameters(case, momentum_coefficient=cmu, fan_pressure_rise=dp),
+    direct = chain.evaluate(chain_parameters(case, momentum_coefficient=cmu, fan_pressure_rise=dp,
+                                             slot_ratio=prob.get_val("slot_ratio")),
                             chain_options(case), blowing=case.blowing)
     for name in ("required_pressure_rise", "jet_velocity", "fan_shaft_power", "section_drag",
                  "net_power_saving", "energy_saving"):

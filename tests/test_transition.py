@@ -99,8 +99,11 @@ def test_station_derivatives(schedule):
             for f in FIELDS:
                 fd = (getattr(plus, f) - getattr(minus, f)) / (2 * h)
                 scale = max(np.abs(fd).max(), np.abs(d[f, k]).max(), 1e-300)
+                # round-off of the central difference itself: a few ulps of the field over h
+                # (an analytic zero, e.g. the slot's semi-thickness against its width, shows it)
+                noise = 4 * np.finfo(float).eps * np.abs(getattr(plus, f)).max() / h
                 assert d[f, k].shape == getattr(plus, f).shape
-                assert np.abs(fd - d[f, k]).max() <= 1e-6 * scale + 1e-14, (f, k)
+                assert np.abs(fd - d[f, k]).max() <= 1e-6 * scale + 1e-14 + noise, (f, k)
 
 
 def test_broadcast_inputs():

@@ -190,6 +190,19 @@ class Case:
     text: str = ""
     #: Where a segment lies outside the validated ranges (only with ``[validity] extrapolate``).
     extrapolation: list = field(default_factory=list)
+    #: Whether the case gives a ``[mass]`` table (with ``[aircraft]``: the fan is sized).
+    mass_given: bool = False
+
+    @property
+    def high_lift(self):
+        """Per segment: is it a high-lift segment (``kind = "high-lift"``)?"""
+        return np.array([s["kind"] == "high-lift" for s in self.segments], bool)
+
+    @property
+    def sizes_fan(self):
+        """Whether the fan is sized across the mission: ``[aircraft]`` and ``[mass]`` given, the
+        rated shaft power a design variable and the blowing system's mass in every segment."""
+        return self.has_aircraft and self.mass_given
 
     @property
     def blowing(self):
@@ -297,11 +310,13 @@ def parse_case(raw, base=Path("."), path=None, text=""):
     if dup:
         raise CaseError(f"segment.name = {sorted(dup)[0]!r} is used twice; names must be unique")
     case = Case(title=raw["title"], segments=segments, calibration=calibration, path=path,
-                text=text, **tables)
+                text=text, mass_given=isinstance(raw.get("mass"), dict), **tables)
     _check_consistency(case, base)
     _check_aircraft(case, raw)
+    _check_high_lift(case)
     _check_unused(case, raw)
     _check_segment_lift(case)
+    _check_fan_fit(case)
     _check_lift_tables(case)
     case.extrapolation = _check_validity(case)
     case.uncertainty = _read_uncertainty(raw.get("uncertainty", {}), case)
@@ -402,6 +417,63 @@ def _check_segment_lift(case):
     if given and case.has_aircraft:
         raise CaseError(f"segment {given[0]!r}: lift_coefficient is given and [aircraft] too; "
                         "the aircraft's weight gives the lift coefficient, remove one")
+
+
+def _check_high_lift(case):
+    """A high-lift segment needs the aircraft (its lift coefficient), the clean section's
+    maximum lift, and the fan running."""
+    for seg in case.segments:
+        if seg["kind"] != "high-lift":
+            continue
+        where = f"segment {seg['name']!r}: kind = \"high-lift\""
+        if not case.has_aircraft:
+            raise CaseError(f"{where} needs the [aircraft] table (its weight gives the lift "
+                            "coefficient the blown section must reach)")
+        if case.airfoil["max_lift_clean"] is None:
+            raise CaseError(f"{where} needs airfoil.max_lift_clean (the section's maximum "
+                            "lift coefficient without blowing)")
+        if not seg["blowing"]:
+            raise CaseError(f"{where} with blowing = false: a high-lift segment blows")
+    if case.airfoil["max_lift_clean"] is not None and not case.high_lift.any():
+        raise CaseError("airfoil.max_lift_clean is given but no segment has kind = "
+                        "\"high-lift\"; remove it or mark the take-off or landing segment")
+
+
+def fan_fit_limit(case):
+    """The largest fan diameter that fits: ``duct.max_fan_thickness_fraction`` times the
+    section's thickness (``wing.thickness_ratio`` times the chord) [m]; None without a
+    thickness."""
+    t = case.wing.get("thickness_ratio")
+    if t is None:
+        return None
+    return case.duct["max_fan_thickness_fraction"] * t * case.wing["chord"]
+
+
+def _check_fan_fit(case):
+    """The fan diameter's bounds need a fan diameter in them and a model that uses it; a fixed
+    fan must fit in the wing's thickness."""
+    d = case.duct
+    bounds = d["fan_diameter_bounds"]
+    if bounds is not None:
+        if d["fan_diameter"] is None:
+            raise CaseError("duct.fan_diameter_bounds needs duct.fan_diameter (the start value)")
+        if not bounds[0] <= d["fan_diameter"] <= bounds[1]:
+            raise CaseError(f"duct.fan_diameter = {d['fan_diameter'] * 1e3:g} mm is outside "
+                            f"duct.fan_diameter_bounds = [{bounds[0] * 1e3:g}, "
+                            f"{bounds[1] * 1e3:g}] mm")
+    limit = fan_fit_limit(case)
+    if limit is None or d["fan_diameter"] is None:
+        return
+    where = (f"duct.max_fan_thickness_fraction = {d['max_fan_thickness_fraction']:g} of the "
+             f"thickness (wing.thickness_ratio = {case.wing['thickness_ratio']:g} x chord "
+             f"{case.wing['chord']:g} m) allows {limit * 1e3:.4g} mm")
+    if bounds is not None and bounds[1] > bounds[0]:
+        if bounds[0] > limit:
+            raise CaseError(f"duct.fan_diameter_bounds = [{bounds[0] * 1e3:g}, "
+                            f"{bounds[1] * 1e3:g}] mm: no fan in them fits in the wing; {where}")
+    elif d["fan_diameter"] > limit * (1 + 1e-12):
+        raise CaseError(f"duct.fan_diameter = {d['fan_diameter'] * 1e3:g} mm does not fit in "
+                        f"the wing: {where}")
 
 
 def lift_tables(case):

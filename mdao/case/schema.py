@@ -104,6 +104,11 @@ SETTINGS = {
         "stations": integer(33, 5, 401),
         "max_diffusion_half_angle": quantity("angle", default=math.radians(3.5), low=0,
                                              high=math.pi / 4, low_open=True),
+        # each wall pair's divergence: plane-wall diffuser practice (docs/theory.md)
+        "max_wall_half_angle": quantity("angle", default=math.radians(7.0), low=0,
+                                        high=math.pi / 2, low_open=True, high_open=True),
+        "fan_diameter_bounds": pair("length", default=None, low=0, low_open=True),
+        "max_fan_thickness_fraction": number(default=0.8, low=0, high=1, low_open=True),
     },
     "fan": {
         "model": choice("constant", "constant", "map"),
@@ -147,6 +152,7 @@ SEGMENT_SETTINGS = {
     "blowing": Spec("bool", default=True),
     "momentum_coefficient": number(default=None, low=0, high=2.0, low_open=True),
     "lift_coefficient": number(default=None, low=-1.0, high=10.0),
+    "kind": choice("cruise", "cruise", "high-lift"),
 }
 
 

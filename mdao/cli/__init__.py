@@ -1,4 +1,4 @@
-"""The command line: ``blownwing optimize|evaluate|calibrate|review|many``.
+"""The command line: ``blownwing optimize|evaluate|calibrate|review|many|duct``.
 
 The top layer of the package: argument handling, exit codes, everything printed on the console
 and the progress display live here (:mod:`mdao.cli.commands`, :mod:`mdao.cli.progress`); the
@@ -47,6 +47,13 @@ def _parser():
     r.add_argument("--scheduler", default=None, help="Dask scheduler address, tcp://host:port")
     r.add_argument("--workers", type=int, default=None,
                    help="start a local Dask cluster with this many workers")
+    d = sub.add_parser("duct", help="the geometric duct for CAD at the optimum: stations and "
+                                    "section loops (CSV) and a figure, for one of the fans")
+    d.add_argument("case", help="case file (TOML) with duct.model = \"geometric\"")
+    d.add_argument("--out", default="duct", help="output folder (default: duct)")
+    d.add_argument("--start", action="store_true",
+                   help="the case's start point instead of the optimum (no optimization)")
+    d.add_argument("--no-plots", action="store_true", help="skip duct.png")
     m = sub.add_parser("many", help="many independent optimizations: one optimum per Monte Carlo "
                                     "sample or per random start, serially or on Dask")
     m.add_argument("case")

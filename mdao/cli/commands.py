@@ -123,5 +123,49 @@ def _many(args):
     return EXIT_OK if data["summary"]["converged"] else EXIT_NOT_CONVERGED
 
 
+def _duct(args):
+    """``blownwing duct CASE [--out DIR] [--start] [--no-plots]``: writes
+    ``DIR/transition.csv``, ``DIR/sections.csv`` and ``DIR/duct.png``.
+
+    0: written; 2: bad input, or a case whose duct is not geometric; 3: the optimizer did not
+    converge (nothing written; ``--start`` never optimizes).
+    """
+    from mdao.case import load_case
+    from mdao.studies.duct_export import duct_export, write_duct_files
+
+    case = load_case(args.case)
+    if case.duct["model"] != "geometric":
+        raise CaseError(f"duct.model = {case.duct['model']!r}: the duct command needs "
+                        "duct.model = \"geometric\" (the lumped duct has no geometry)")
+    export = duct_export(case, start=args.start)
+    if not export.converged:
+        o = export.outcome
+        print(f"blownwing: {case.title}\nNOT CONVERGED: {export.message} after {o.iterations} "
+              "iterations. No duct is written for a design that is not an optimum; check the "
+              "case, or export the start point with --start.", file=sys.stderr)
+        return EXIT_NOT_CONVERGED
+    data = export.data
+    files = write_duct_files(case, data, args.out, plots=not args.no_plots)
+    span = max(data["span_wall_half_angle_deg"])
+    thickness = max(data["thickness_wall_half_angle_deg"])
+    print(f"blownwing {__version__}: {case.title}\n"
+          f"transition duct at the {data['source']} (slot ratio {data['slot_ratio']:.5g}), one of "
+          f"{data['fans']} alike: fan circle {data['fan_diameter_m'] * 1e3:.4g} mm to a "
+          f"{data['slot_width_m'] * 1e3:.4g} x {data['slot_height_m'] * 1e3:.4g} mm slot over "
+          f"{data['length_m'] * 1e3:.4g} mm\n"
+          f"steepest walls: span {span:.2f} deg, thickness {thickness:.2f} deg (limit "
+          f"{data['max_wall_half_angle_deg']:.3g} deg, + diverging); equivalent cone "
+          f"{max(data['diffusion_half_angle_deg']):.2f} deg (limit "
+          f"{data['max_diffusion_half_angle_deg']:.3g} deg)"
+          + ("" if data["within_limits"] else "\nWARNING: the duct breaks a wall or diffusion "
+             "limit at this design"))
+    if not args.no_plots and len(files) < 3:
+        print("note: matplotlib is not installed: no duct.png (pip install matplotlib)")
+    for f in files:
+        print(f"wrote {f}")
+    print(CAUTION)
+    return EXIT_OK
+
+
 COMMANDS = {"optimize": _optimize, "evaluate": lambda a: _optimize(a, optimized=False),
-            "calibrate": _calibrate, "review": _review, "many": _many}
+            "calibrate": _calibrate, "review": _review, "many": _many, "duct": _duct}

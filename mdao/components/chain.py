@@ -16,6 +16,8 @@ from mdao.physics import chain
 
 #: Node inputs that are design variables rather than model parameters: start values.
 DESIGN_INPUTS = {"momentum_coefficient": (0.03, None), "fan_pressure_rise": (1000.0, "Pa")}
+#: Wing-level design input of the fan sized across the mission: start value, units.
+RATED_POWER = ("rated_shaft_power", 500.0, "W")
 #: Start value of the section lift coefficient input (lift tables without the aircraft).
 LIFT_START = 0.5
 #: Units of the outputs, the same names as the per-discipline components'.
@@ -23,13 +25,16 @@ OUTPUT_UNITS = {
     "temperature": "K", "pressure": "Pa", "density": "kg/m**3", "speed_of_sound": "m/s",
     "viscosity": "Pa*s", "dynamic_pressure": "Pa", "jet_velocity": "m/s", "mass_flow": "kg/s",
     "volume_flow": "m**3/s", "jet_mach": None, "slot_height": "m", "jet_loss_factor": None,
-    "diffusion_half_angle": "rad", "required_pressure_rise": "Pa", "fan_efficiency": None,
+    "diffusion_half_angle": "rad", "span_wall_half_angle": "rad",
+    "thickness_wall_half_angle": "rad", "required_pressure_rise": "Pa", "fan_efficiency": None,
     "air_power": "W", "fan_shaft_power": "W", "fan_speed": "rev/s", "flow_coefficient": None,
     "pressure_coefficient": None, "tip_mach": None, "drag_coefficient": None,
     "section_drag": "N", "clean_section_drag": "N", "drag_saving": "N", "lift_increment": None,
     "propulsion_power_saving": "W", "fan_electric_power": "W", "net_power_saving": "W",
     "energy_margin": "W", "energy_saving": "J", "lift_coefficient": None,
-    "jet_head": "Pa", "jet_temperature": "K",
+    "jet_head": "Pa", "jet_temperature": "K", "blowing_system_mass": "kg",
+    "mass_thrust_penalty": "N", "thrust_saving": "N", "power_headroom": "W",
+    "max_lift_coefficient": None, "lift_reserve": None, "fan_thickness_fraction": None,
     "aircraft_clean_drag": "N", "main_thrust_clean": "N", "main_thrust": "N",
     "clean_source_power": "W", "clean_source_energy": "J"}
 #: Station outputs of the geometric duct: output name -> (station field, units).
@@ -37,7 +42,9 @@ STATION_OUTPUTS = {"station_position": ("position", "m"), "station_area": ("area
                    "station_perimeter": ("perimeter", "m"),
                    "station_hydraulic_diameter": ("hydraulic_diameter", "m")}
 #: Outputs that are one value (or one array) for the wing, not one per node.
-WING_OUTPUTS = ("slot_height", "diffusion_half_angle")
+WING_OUTPUTS = ("slot_height", "diffusion_half_angle", "span_wall_half_angle",
+                "thickness_wall_half_angle", "blowing_system_mass",
+                "fan_thickness_fraction")
 
 
 class ChainComp(om.ExplicitComponent):
@@ -56,7 +63,8 @@ class ChainComp(om.ExplicitComponent):
                                   fans=o["fans"], stations=o["stations"], schedule=o["schedule"],
                                   compressible=o["compressible"], aircraft=o["aircraft"],
                                   lift_tables=tuple(o["lift_tables"]),
-                                  compressible_jet=o["compressible_jet"])
+                                  compressible_jet=o["compressible_jet"],
+                                  sized_fan=o["sized_fan"])
 
     def setup(self):
         o = self.options
@@ -67,6 +75,9 @@ class ChainComp(om.ExplicitComponent):
         params = [p for p in registry.chain_parameters(o["duct_model"], o["fan_model"],
                                                        aircraft=o["aircraft"])
                   if p.name not in tabled]
+        if o["sized_fan"]:   # the blowing system's mass from the rated power (issue: sizing)
+            params += [p for p in registry.MASS_PARAMETERS
+                       if p.used_by(o["duct_model"], o["fan_model"])]
         self._chain_node = [p.name for p in params if p.per_segment]
         self._chain_wing = [p.name for p in params if not p.per_segment]
         probe = {}
@@ -79,6 +90,12 @@ class ChainComp(om.ExplicitComponent):
             probe["lift_coefficient"] = LIFT_START * np.ones(n)
             self.add_input("lift_coefficient", val=probe["lift_coefficient"],
                            desc="section lift coefficient (the lift tables' argument)")
+        if o["sized_fan"]:
+            name, start, units = RATED_POWER
+            self._chain_wing.append(name)
+            probe[name] = np.atleast_1d(start)
+            self.add_input(name, val=probe[name], units=units,
+                           desc="rated shaft power of all fans together")
         for name, (start, units) in DESIGN_INPUTS.items():
             if name == "fan_pressure_rise" and o["follow_requirement"]:
                 continue

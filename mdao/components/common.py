@@ -63,6 +63,9 @@ CHAIN_OPTIONS = {
     "compressible_jet": dict(types=bool, default=False,
                              desc="compressible jet: its head from the isentropic pressure ratio "
                                   "at the slot, its temperature after the fan (fused chain)"),
+    "sized_fan": dict(types=bool, default=False,
+                      desc="the fan sized across the mission (with aircraft): input "
+                           "rated_shaft_power, the blowing system's mass flies in every segment"),
     "aircraft": dict(types=bool, default=False,
                      desc="the aircraft around the wing (a case's [aircraft] table): lift "
                           "coefficient, main thrust, clean mission energy"),

@@ -180,6 +180,10 @@ def add_blowing_system_mass(model, case=None, name="blowing_mass", **options):
         The added component. Call :func:`set_mass_values` after ``setup``.
     """
     opts = {}
+    if case is not None and getattr(case, "sizes_fan", False):
+        raise ValueError("the case sizes the fan in the group ([aircraft] and [mass]): the "
+                         "group itself outputs blowing_system_mass and power_headroom from its "
+                         "rated_shaft_power; add no separate mass component")
     if case is not None:
         opts = dict(num_nodes=len(case.segments), duct_model=case.duct["model"],
                     fans=case.duct["fans"], stations=case.duct["stations"],

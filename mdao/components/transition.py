@@ -4,7 +4,7 @@ import numpy as np
 from mdao import om
 
 from mdao.components.common import add_parameter_inputs
-from mdao.physics.transition import SCHEDULES, stations
+from mdao.physics.transition import BETWEEN, SCHEDULES, stations
 
 TRANSITION_CITE = """@book{rennels2012,
   author = {Rennels, Donald C. and Hudson, Hobart M.}, title = {Pipe Flow: A Practical and
@@ -23,7 +23,11 @@ _OUTPUTS = (("station_position", "position", "m", "distance from the fan face"),
             ("station_perimeter", "perimeter", "m", "section perimeter"),
             ("station_hydraulic_diameter", "hydraulic_diameter", "m", "hydraulic diameter 4A/P"),
             ("diffusion_half_angle", "half_angle", "rad",
-             "equivalent cone half-angle between stations (positive when diffusing)"))
+             "equivalent cone half-angle between stations (positive when diffusing)"),
+            ("span_wall_half_angle", "span_wall_half_angle", "rad",
+             "half-angle of the spanwise side walls between stations (positive diverging)"),
+            ("thickness_wall_half_angle", "thickness_wall_half_angle", "rad",
+             "half-angle of the thickness-wise walls between stations (positive diverging)"))
 
 
 class TransitionComp(om.ExplicitComponent):
@@ -43,21 +47,29 @@ class TransitionComp(om.ExplicitComponent):
         m = self.options["stations"]
         add_parameter_inputs(self, INPUTS)
         for name, field, units, desc in _OUTPUTS:
-            size = m - 1 if field == "half_angle" else m
+            size = m - 1 if field in BETWEEN else m
             self.add_output(name, val=np.ones(size), units=units, desc=desc)
 
     def _dependencies(self):
         """Inputs each output depends on: the position on the length only, the sections on all
-        but the length; with the monotone-area schedule the areas (hence the angles) not on the
-        slot exponent (the outlet area is w h whatever the exponent)."""
+        but the length; with the monotone-area schedule the areas (hence the equivalent cone's
+        angles) not on the slot exponent (the outlet area is w h whatever the exponent); the
+        walls' angles on every input (the semi-axes move with the exponent), except with linear
+        semi-axes, where the slot's semi-width does not depend on its height nor its
+        semi-height on its width."""
         names = list(INPUTS)
         sections = [k for k in names if k != "transition_length"]
         area_wrt = sections
+        span_wrt = thickness_wrt = names
         if self.options["schedule"] == "monotone-area":
             area_wrt = [k for k in sections if k != "slot_exponent"]
+        else:
+            span_wrt = [k for k in names if k not in ("slot_ratio", "chord")]
+            thickness_wrt = [k for k in names if k != "blown_span"]
         return {"station_position": ["transition_length"], "station_area": area_wrt,
                 "station_perimeter": sections, "station_hydraulic_diameter": sections,
-                "diffusion_half_angle": area_wrt + ["transition_length"]}
+                "diffusion_half_angle": area_wrt + ["transition_length"],
+                "span_wall_half_angle": span_wrt, "thickness_wall_half_angle": thickness_wrt}
 
     def setup_partials(self):
         # dense columns against the scalar inputs

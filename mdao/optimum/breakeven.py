@@ -21,6 +21,10 @@ from mdao.physics import airfoil
 from mdao.physics.airfoil import drag_per_momentum_at, slot_drag_at
 from mdao.system import chain_options, chain_parameters
 
+#: Constraints a break-even point need not meet: the rating (the answer is about the fan's
+#: efficiency, whatever its size) and the high-lift requirement (a high-lift segment blows for
+#: lift, not to save; its break-even efficiency is not reported).
+NOT_FOR_BREAK_EVEN = ("rated power", "high-lift requirement")
 GRID = 81
 GOLDEN_STEPS = 45  # the bracket shrinks to 1e-9 of one grid step
 
@@ -54,7 +58,7 @@ def _admissible_constraints(case):
     """The constraints a break-even point must meet: all per-segment ones but the fan map's own
     limits (the answer is the efficiency the fan must reach, whatever fan gives it)."""
     return [c for c in constraints.applicable(case, follow_requirement=True)
-            if c.per_segment and c.name not in constraints.FAN_MAP_LIMITS]
+            if c.per_segment and c.name not in constraints.FAN_MAP_LIMITS + NOT_FOR_BREAK_EVEN]
 
 
 def _air_power_per_saving(case, params, cmu):
@@ -69,7 +73,7 @@ def _air_power_per_saving(case, params, cmu):
     return np.where(ok, r, np.inf)
 
 
-def break_even_efficiency(case, slot_ratio=None, params=None):
+def break_even_efficiency(case, slot_ratio=None, params=None, design=None):
     """Break-even fan efficiency of each segment; NaN where no efficiency up to 1 breaks even.
 
     Parameters
@@ -79,13 +83,16 @@ def break_even_efficiency(case, slot_ratio=None, params=None):
         Slot ratio to use (default: the case's).
     params : dict, optional
         Chain parameters (default: the case's); any may carry extra leading axes for maps.
+    design : dict, optional
+        Wing-level design values of an optimum (:func:`mdao.system.design_point`) that replace
+        the case's (the slot ratio, a sized fan's rating, a free fan diameter).
 
     Returns
     -------
     ndarray
         Per segment (and leading axes of ``params``); NaN for non-blowing segments too.
     """
-    p = chain_parameters(case) if params is None else dict(params)
+    p = chain_parameters(case, **(design or {})) if params is None else dict(params)
     # constants tabulated over the lift as numbers at each segment's lift (the closed forms
     # take numbers; the segment's lift does not move in this search)
     p = chain.lift_dependent(p, chain_options(case))
@@ -123,6 +130,7 @@ def break_even_efficiency(case, slot_ratio=None, params=None):
     eff[(eff > 1.0) | ~np.isfinite(eff) | (hi <= lo)] = np.nan
     if params is None:
         eff[..., ~case.blowing] = np.nan
+        eff[..., case.high_lift] = np.nan
     return eff
 
 

@@ -14,7 +14,7 @@ from mdao import constraints
 from mdao.optimum.breakeven import break_even_efficiency
 from mdao.case.loading import lift_tables, segment_reynolds
 from mdao.physics.lift_table import interpolate
-from mdao.system import build_problem, start_point
+from mdao.system import build_problem, design_point, start_point
 
 
 @dataclass
@@ -35,6 +35,10 @@ class Outcome:
     problem: object = field(repr=False, default=None)
     #: Where segments lie outside the validated ranges (empty: inside everywhere).
     extrapolation: list = field(default_factory=list)
+    #: The blowing system as hardware: ``fan_rated_shaft_power_W``, ``sizing_segment``,
+    #: ``blowing_system_mass_kg``, ``fan_diameter_m`` and whether the fan was sized in the
+    #: optimization (``sized``).
+    hardware: dict = field(default_factory=dict)
 
     @property
     def mission_energy_clean_J(self):
@@ -63,9 +67,22 @@ class Outcome:
             "mission_energy_clean_J": self.mission_energy_clean_J,
             "mission_energy_saving_fraction": self.mission_energy_saving_fraction,
             "wing_active_constraints": self.wing_active_constraints,
+            # the geometric duct's steepest walls (largest half-angle of each pair, diverging
+            # positive); None with the lumped duct
+            "wall_half_angles_deg": self.wall_half_angles_deg,
             "extrapolated": bool(self.extrapolation), "extrapolation": self.extrapolation,
+            **self.hardware,
             "segments": self.segments,
         }
+
+    @property
+    def wall_half_angles_deg(self):
+        """``{"span": max, "thickness": max}`` of the transition's wall half-angles [deg]
+        (positive diverging), or None without the geometric duct."""
+        if "span_wall_half_angle" not in self.values:
+            return None
+        return {side: float(np.degrees(np.max(self.values[f"{side}_wall_half_angle"])))
+                for side in ("span", "thickness")}
 
 
 #: Per-segment outputs read back from the problem (besides the constrained quantities).
@@ -76,7 +93,8 @@ RESULT_OUTPUTS = ("momentum_coefficient", "fan_pressure_rise", "required_pressur
                   "energy_saving", "dynamic_pressure", "density", "air_power", "energy_margin")
 #: Outputs that only some models have.
 MODEL_OUTPUTS = {"map": ("fan_speed", "flow_coefficient", "tip_mach"),
-                 "geometric": ("jet_loss_factor", "diffusion_half_angle")}
+                 "geometric": ("jet_loss_factor", "diffusion_half_angle", "span_wall_half_angle",
+                               "thickness_wall_half_angle")}
 #: Outputs of the aircraft around the wing (cases with an ``[aircraft]`` table).
 AIRCRAFT_OUTPUTS = ("lift_coefficient", "aircraft_clean_drag", "main_thrust_clean",
                     "main_thrust", "clean_source_power", "clean_source_energy")
@@ -90,9 +108,18 @@ def read_values(prob, case):
     names += list(MODEL_OUTPUTS.get(case.duct["model"], ()))
     if case.has_aircraft:
         names += list(AIRCRAFT_OUTPUTS)
+        if case.high_lift.any():
+            names += ["max_lift_coefficient"]
+        if case.sizes_fan:
+            names += ["blowing_system_mass", "mass_thrust_penalty"]
+    names += [c.quantity for c in constraints.applicable(case)
+              if c.quantity != "pressure_balance" and c.quantity not in names]
     vals = {k: np.array(prob.get_val(k), float) for k in names}
     wing = ("slot_ratio", "slot_height", "mission_energy_saving")
-    for k in wing + (("mission_clean_energy",) if case.has_aircraft else ()):
+    wing += (("mission_clean_energy",) if case.has_aircraft else ())
+    wing += (("rated_shaft_power", "blowing_system_mass") if case.sizes_fan else ())
+    wing += (("fan_diameter",) if constraints.fan_diameter_free(case) else ())
+    for k in wing:
         vals[k] = float(prob.get_val(k)[0])
     return vals
 
@@ -157,6 +184,9 @@ def _segments(case, vals, be):
             "break_even_fan_efficiency": None if not np.isfinite(be[i]) else float(be[i]),
             "active_constraints": per[i],
         }
+        row["kind"] = seg["kind"]
+        if "max_lift_coefficient" in vals:
+            row["max_lift_coefficient"] = float(vals["max_lift_coefficient"][i]) if on else None
         row["lift_coefficient"] = seg["lift_coefficient"]   # given, or None (no aircraft)
         row["reynolds_number"] = float(reynolds[i])
         for key, name in (("lift_coefficient", "lift_coefficient"),
@@ -177,14 +207,56 @@ def _segments(case, vals, be):
 
 def _outcome(case, prob, converged, message, iterations, evals, devals, wall):
     vals = read_values(prob, case)
-    be = break_even_efficiency(case, slot_ratio=vals["slot_ratio"])
+    be = break_even_efficiency(case, design=design_point(vals))
     _, wing = active_constraints(case, vals)
     return Outcome(converged=converged, message=message, iterations=iterations,
                    model_evaluations=evals, derivative_evaluations=devals, wall_time_s=wall,
                    slot_ratio=vals["slot_ratio"],
                    mission_energy_saving_J=vals["mission_energy_saving"],
                    segments=_segments(case, vals, be), wing_active_constraints=wing, values=vals,
-                   problem=prob, extrapolation=list(case.extrapolation))
+                   problem=prob, extrapolation=list(case.extrapolation),
+                   hardware=hardware(case, vals))
+
+
+#: Relative closeness of two shaft powers that counts as a tie for the sizing segment.
+SIZING_TIE = 1e-6
+
+
+def hardware(case, vals):
+    """The blowing system as hardware at a design: the rated shaft power of all fans [W] (the
+    optimized rating when the fan is sized in the optimization, else ``[mass] power_margin``
+    times the largest shaft power), the segment that sets it (the largest shaft power; on a
+    tie within :data:`SIZING_TIE`, a high-lift segment, whose momentum coefficient the lift
+    fixes, before one the rating caps), the installed mass [kg] (:mod:`mdao.physics.mass`)
+    and the fan diameter [m] (None for a lumped duct with a constant-efficiency fan)."""
+    from mdao.physics import chain, mass
+
+    shaft = np.where(case.blowing, vals["fan_shaft_power"], -np.inf)
+    top = shaft.max()
+    tied = np.flatnonzero(shaft >= top * (1 - SIZING_TIE))
+    preferred = [i for i in tied if case.high_lift[i]] or list(tied)
+    sizing = case.segment_names[int(preferred[0])]
+    margin = case.mass["power_margin"]
+    if case.sizes_fan:
+        rated, system = float(vals["rated_shaft_power"]), float(vals["blowing_system_mass"])
+    else:
+        rated = float(margin * top)
+        p = dict(case.mass)
+        rotating = mass.rotating_mass(rated, p["fan_specific_power"], p["motor_specific_power"])
+        if case.duct["model"] == "lumped":
+            wetted = mass.lumped_wetted_area(case.wing["chord"], case.wing["blown_span"],
+                                             p["duct_wetted_ratio"])
+        else:
+            from mdao.system import chain_options, chain_parameters
+            st = chain.duct_stations(chain_parameters(case, **design_point(vals)),
+                                     chain_options(case))
+            wetted = mass.transition_wetted_area(st.position, st.perimeter, case.duct["fans"])
+        system = float(mass.blowing_system_mass(rotating, wetted, p["duct_areal_density"],
+                                                p["installation_factor"]))
+    diameter = vals.get("fan_diameter", case.duct.get("fan_diameter"))
+    return {"fan_rated_shaft_power_W": rated, "sizing_segment": sizing,
+            "blowing_system_mass_kg": system, "sized": bool(case.sizes_fan),
+            "fan_diameter_m": None if diameter is None else float(diameter)}
 
 
 def optimize(case, problem=None, warm_start=None):
@@ -208,8 +280,10 @@ def optimize(case, problem=None, warm_start=None):
     t0 = time.perf_counter()
     prob = problem if problem is not None else build_problem(case)
     if warm_start is not None:
-        for name in ("slot_ratio", "momentum_coefficient", "fan_pressure_rise"):
+        for name in ("momentum_coefficient", "fan_pressure_rise"):
             prob.set_val(name, warm_start.values[name])
+        for name, value in design_point(warm_start.values).items():
+            prob.set_val(name, value)
     result = prob.run_driver()
     wall = time.perf_counter() - t0
     vals = read_values(prob, case)

@@ -175,3 +175,80 @@ def clean_source_power(main_thrust_clean, speed, chain_efficiency, derivatives=F
     if not derivatives:
         return p0
     return p0, {"main_thrust_clean": v / eta, "speed": t0 / eta, "chain_efficiency": -p0 / eta}
+
+
+#: Arguments of :func:`added_mass_thrust`, in order (the partials' keys).
+ADDED_MASS_INPUTS = ("aircraft_mass", "added_mass", "wing_area", "aspect_ratio",
+                     "span_efficiency", "climb_rate", "dynamic_pressure", "speed")
+
+
+def added_mass_thrust(aircraft_mass, added_mass, wing_area, aspect_ratio, span_efficiency,
+                      climb_rate, dynamic_pressure, speed, derivatives=False):
+    r"""Main-propulsor thrust that an added mass costs in steady flight, [N].
+
+    The difference of :func:`flight_condition`'s ``main_thrust_clean`` between the masses
+    :math:`m + \Delta m` and :math:`m`, written so that the zero-lift drag cancels exactly:
+
+    .. math::
+        \Delta T = \frac{g^2 \cos^2\gamma}{\pi A\!R\, e\, q S}\left[(m + \Delta m)^2 - m^2\right]
+                   + \Delta m\, g \sin\gamma
+
+    (induced drag of the extra lift, and the extra weight's component along the path).
+
+    Parameters
+    ----------
+    aircraft_mass : array_like
+        m [kg], > 0.
+    added_mass : array_like
+        :math:`\Delta m` [kg], >= 0.
+    wing_area, aspect_ratio, span_efficiency, climb_rate, dynamic_pressure, speed : array_like
+        As for :func:`flight_condition`.
+    derivatives : bool
+        Also return the partial derivatives (keys :data:`ADDED_MASS_INPUTS`).
+
+    Returns
+    -------
+    thrust : ndarray
+        :math:`\Delta T` [N].
+    partials : dict
+        Only with ``derivatives``.
+
+    References
+    ----------
+    As :func:`flight_condition` (parabolic polar, steady climb; from memory).
+
+    Examples
+    --------
+    Level flight, 1 kg added to 10 kg, q S = 98.0665 N, AR e = 8: by hand
+    9.80665^2 (121 - 100) / (8 pi 98.0665) = 0.819408 N, the same as the difference of the
+    clean thrusts:
+
+    >>> dt = added_mass_thrust(10.0, 1.0, 1.0, 10.0, 0.8, 0.0, 98.0665, 20.0)
+    >>> a = flight_condition(11.0, 1.0, 0.03, 10.0, 0.8, 0.0, 98.0665, 20.0).main_thrust_clean
+    >>> b = flight_condition(10.0, 1.0, 0.03, 10.0, 0.8, 0.0, 98.0665, 20.0).main_thrust_clean
+    >>> round(float(dt), 6), round(float(a - b), 6)
+    (0.819408, 0.819408)
+    """
+    m, dm, s, ar, e, w, q, v = np.broadcast_arrays(
+        *(np.asarray(x, float) for x in (aircraft_mass, added_mass, wing_area, aspect_ratio,
+                                          span_efficiency, climb_rate, dynamic_pressure, speed)))
+    g = STANDARD_GRAVITY
+    sin_g = w / v
+    cos2 = 1.0 - sin_g ** 2
+    base = g * g / (np.pi * ar * e * q * s)       # A / cos^2(gamma)
+    extra = (2.0 * m + dm) * dm                    # (m + dm)^2 - m^2
+    induced = base * cos2 * extra
+    thrust = induced + dm * g * sin_g
+    if not derivatives:
+        return thrust
+    d = {
+        "aircraft_mass": base * cos2 * 2.0 * dm,
+        "added_mass": base * cos2 * 2.0 * (m + dm) + g * sin_g,
+        "wing_area": -induced / s,
+        "aspect_ratio": -induced / ar,
+        "span_efficiency": -induced / e,
+        "dynamic_pressure": -induced / q,
+        "climb_rate": base * extra * (-2.0 * w / v ** 2) + dm * g / v,
+        "speed": base * extra * (2.0 * w ** 2 / v ** 3) - dm * g * w / v ** 2,
+    }
+    return thrust, d

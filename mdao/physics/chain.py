@@ -25,14 +25,19 @@ from dataclasses import dataclass
 import numpy as np
 
 from mdao import parameters as registry
-from mdao.physics import (aircraft, airfoil, atmosphere, duct, fan, jet, lift_table, power,
-                          transition)
+from mdao.physics import (aircraft, airfoil, atmosphere, duct, fan, jet, lift_table, mass,
+                          power, transition)
 
 #: Internal root names of the three fan-map pressure coefficients (stacked on a last axis of
 #: length 3 under ``"pressure_coefficients"`` in the returned partials).
 _COEFFICIENTS = tuple(("pressure_coefficients", i) for i in range(3))
 #: Station fields whose tangents the chain carries, and the wing-level inputs that shape them.
-STATION_FIELDS = ("position", "area", "perimeter", "hydraulic_diameter", "half_angle")
+STATION_FIELDS = ("position", "area", "perimeter", "hydraulic_diameter", "half_angle",
+                  "span_wall_half_angle", "thickness_wall_half_angle")
+#: Wing-level angle outputs of the geometric duct (stations - 1 each): output -> station field.
+ANGLE_OUTPUTS = {"diffusion_half_angle": "half_angle",
+                 "span_wall_half_angle": "span_wall_half_angle",
+                 "thickness_wall_half_angle": "thickness_wall_half_angle"}
 STATION_ROOTS = ("fan_diameter", "blown_span", "slot_ratio", "chord", "transition_length",
                  "slot_exponent")
 
@@ -59,6 +64,11 @@ class ChainOptions:
     #: from the isentropic pressure ratio at the slot and its temperature after the fan. A
     #: case's ``fan.compressible = true`` sets it with ``compressible``.
     compressible_jet: bool = False
+    #: The fan sized across the mission (with ``aircraft``): the rated shaft power
+    #: ``rated_shaft_power`` [W] is an input, the blowing system's mass
+    #: (:mod:`mdao.physics.mass`, the ``[mass]`` constants) flies in every segment, and each
+    #: segment reports its ``power_headroom``.
+    sized_fan: bool = False
 
     def tabled(self, params=()):
         """Names of the constants this chain takes from lift tables (those not in ``params``)."""
@@ -119,7 +129,8 @@ def evaluate(params, options=ChainOptions(), blowing=True, derivatives=False):
         ``fan_pressure_rise`` [Pa], ``fan_efficiency``, ``air_power`` [W] (Q dp, or the
         isentropic work rate), ``fan_shaft_power`` [W], the map's ``fan_speed`` [rev/s],
         ``flow_coefficient``, ``pressure_coefficient`` and ``tip_mach``; the geometric duct's
-        ``diffusion_half_angle`` [rad] (stations - 1, wing-level); ``drag_coefficient``,
+        ``diffusion_half_angle``, ``span_wall_half_angle`` and ``thickness_wall_half_angle``
+        [rad] (stations - 1 each, wing-level: :data:`ANGLE_OUTPUTS`); ``drag_coefficient``,
         ``section_drag`` [N], ``clean_section_drag`` [N], ``drag_saving`` [N],
         ``lift_increment``, ``propulsion_power_saving`` [W], ``fan_electric_power`` [W],
         ``net_power_saving`` [W] and ``energy_saving`` [J] (SI). With ``options.aircraft``
@@ -172,6 +183,17 @@ def evaluate(params, options=ChainOptions(), blowing=True, derivatives=False):
             js = jet.kinematics(*jet_args)
     out.update(js._asdict())
 
+    # The fan's diameter over the section's thickness (the fan must fit in the wing).
+    if "thickness_ratio" in p and "fan_diameter" in p:
+        thickness = np.asarray(p["thickness_ratio"], float) * np.asarray(p["chord"], float)
+        ratio = np.atleast_1d(np.asarray(p["fan_diameter"], float) / thickness)
+        out["fan_thickness_fraction"] = ratio
+        if d:
+            tan["fan_thickness_fraction"] = {
+                "fan_diameter": ratio / np.asarray(p["fan_diameter"], float),
+                "thickness_ratio": -ratio / np.asarray(p["thickness_ratio"], float),
+                "chord": -ratio / np.asarray(p["chord"], float)}
+
     # The section's lift coefficient and the constants that follow it.
     fc = _lift(p, params, options, js, out, tan if d else None)
 
@@ -181,7 +203,8 @@ def evaluate(params, options=ChainOptions(), blowing=True, derivatives=False):
     else:
         kj = _geometric_loss_factor(p, options, atm, js, tan if d else None)
         st = duct_stations(p, options)
-        out["diffusion_half_angle"] = st.half_angle
+        for name, field in ANGLE_OUTPUTS.items():
+            out[name] = getattr(st, field)
     out["jet_loss_factor"] = kj
     if options.compressible_jet:
         res = duct.required_pressure_rise_from_head(kj, p["freestream_assist"], out["jet_head"],
@@ -246,14 +269,32 @@ def evaluate(params, options=ChainOptions(), blowing=True, derivatives=False):
                           tan)
 
     # Segment power and energy.
-    res = power.segment_power(out["drag_saving"], p["speed"], out["fan_shaft_power"],
+    if options.sized_fan:
+        # the blowing system's weight costs main thrust in every segment
+        out["thrust_saving"] = out["drag_saving"] - out["mass_thrust_penalty"]
+        if d:
+            tan["thrust_saving"] = _chain({"drag_saving": 1.0, "mass_thrust_penalty": -1.0}, tan)
+        saving_name = "thrust_saving"
+    else:
+        saving_name = "drag_saving"
+    res = power.segment_power(out[saving_name], p["speed"], out["fan_shaft_power"],
                               p["chain_efficiency"], p["motor_efficiency"], blowing=blowing,
                               derivatives=d)
     for i, name in enumerate(("propulsion_power_saving", "fan_electric_power",
                               "net_power_saving")):
         out[name] = res[i]
         if d:
-            tan[name] = _chain({k: v for (o, k), v in res[3].items() if o == name}, tan)
+            tan[name] = _chain({(saving_name if k == "drag_saving" else k): v
+                                for (o, k), v in res[3].items() if o == name}, tan)
+    if options.sized_fan:
+        res = mass.power_headroom(p["rated_shaft_power"], out["fan_shaft_power"],
+                                  p["power_margin"], derivatives=d)
+        out["power_headroom"] = _step(tan, "power_headroom", res, d,
+                                      {"rated_shaft_power": "rated_shaft_power",
+                                       "fan_shaft_power": "fan_shaft_power",
+                                       "power_margin": "power_margin"})
+    if options.aircraft and "max_lift_clean" in p:
+        _high_lift(p, out, tan if d else None)
     # The first law: no more net thrust power than the fans put into the air.
     res = power.energy_margin(out["air_power"], out["section_drag"], p["speed"],
                               p["thrust_power_ceiling"], derivatives=d)
@@ -264,7 +305,7 @@ def evaluate(params, options=ChainOptions(), blowing=True, derivatives=False):
             tan["energy_saving"] = _chain({"net_power_saving": p["duration"],
                                            "duration": out["net_power_saving"]}, tan)
     if options.aircraft:
-        _aircraft(p, fc, out, tan if d else None)
+        _aircraft(p, out, tan if d else None)
     if not d:
         return out
     return out, _partials(out, tan)
@@ -306,6 +347,8 @@ def _lift(p, params, options, js, out, tan):
         if d:
             for field in fc._fields:
                 tan[field] = _chain({k: v for (o, k), v in res[1].items() if o == field}, tan)
+        if options.sized_fan:
+            fc = _sized_flight(p, options, js, fc, out, tan)
     tabled = [(name, table) for name, table in options.lift_tables if name not in params]
     if not tabled:
         return fc
@@ -322,6 +365,97 @@ def _lift(p, params, options, js, out, tan):
         if d:
             tan[name] = _chain({"lift_coefficient": res[1]}, tan)
     return fc
+
+
+def _system_mass(p, options, out, tan):
+    """The blowing system's installed mass [kg] (wing-level) into ``out`` and ``tan``."""
+    d = tan is not None
+    res_rot = mass.rotating_mass(p["rated_shaft_power"], p["fan_specific_power"],
+                                 p["motor_specific_power"], derivatives=d)
+    rotating = res_rot[0] if d else res_rot
+    if options.duct_model == "lumped":
+        res_wet = mass.lumped_wetted_area(p["chord"], p["blown_span"], p["duct_wetted_ratio"],
+                                          derivatives=d)
+        wetted = res_wet[0] if d else res_wet
+    else:
+        geo = _geometry(p)
+        st = _stations(*geo, options.fans, options.schedule, options.stations)
+        res_wet = mass.transition_wetted_area(st.position, st.perimeter, options.fans,
+                                              derivatives=d)
+        wetted = res_wet[0] if d else res_wet
+    res = mass.blowing_system_mass(rotating, wetted, p["duct_areal_density"],
+                                   p["installation_factor"], derivatives=d)
+    value = np.atleast_1d(res[0] if d else res)
+    out["blowing_system_mass"] = value
+    if not d:
+        return value
+    tan["rotating_mass"] = _chain({"rated_shaft_power": res_rot[1]["rated_shaft_power"],
+                                   "fan_specific_power": res_rot[1]["fan_specific_power"],
+                                   "motor_specific_power": res_rot[1]["motor_specific_power"]},
+                                  tan)
+    if options.duct_model == "lumped":
+        tan["wetted_area"] = _chain({"chord": res_wet[1]["chord"],
+                                     "blown_span": res_wet[1]["blown_span"],
+                                     "duct_wetted_ratio": res_wet[1]["wetted_ratio"]}, tan)
+    else:
+        sd = _station_tangents(*geo, options.fans, options.schedule, options.stations)
+        grads = {"position": res_wet[1], "perimeter": res_wet[2]}
+        wet = {}
+        for field in ("position", "perimeter"):
+            for k, t in sd[field].items():
+                wet[k] = wet.get(k, 0.0) + np.sum(grads[field] * t, axis=-1)
+        tan["wetted_area"] = wet
+    tan["blowing_system_mass"] = {k: np.atleast_1d(v) for k, v in _chain({
+        "rotating_mass": res[1]["rotating"], "wetted_area": res[1]["wetted_area"],
+        "duct_areal_density": res[1]["duct_areal_density"],
+        "installation_factor": res[1]["installation_factor"]}, tan).items()}
+    return value
+
+
+def _sized_flight(p, options, js, clean, out, tan):
+    """With the blowing system's mass: the flight condition the aircraft flies (returned; its
+    lift coefficient into ``out``, read by the lift tables and the high-lift requirement), and
+    the main thrust the mass costs, ``mass_thrust_penalty`` (the clean aircraft's drag and
+    thrust stay those without the system, the baseline of every saving)."""
+    d = tan is not None
+    system = _system_mass(p, options, out, tan)
+    flight_mass = np.asarray(p["aircraft_mass"], float) + system
+    args = [flight_mass] + [p[k] for k in aircraft.FLIGHT_INPUTS[1:6]]
+    res = aircraft.flight_condition(*args, js.dynamic_pressure, p["speed"], derivatives=d)
+    fc = res[0] if d else res
+    res_t = aircraft.added_mass_thrust(p["aircraft_mass"], system, p["wing_area"],
+                                       p["aspect_ratio"], p["span_efficiency"], p["climb_rate"],
+                                       js.dynamic_pressure, p["speed"], derivatives=d)
+    out["lift_coefficient"] = fc.lift_coefficient
+    out["mass_thrust_penalty"] = res_t[0] if d else res_t
+    if d:
+        tan["flight_mass"] = _chain({"aircraft_mass": 1.0, "blowing_system_mass": 1.0}, tan)
+        tan["lift_coefficient"] = _chain(
+            {("flight_mass" if k == "aircraft_mass" else k): v
+             for (o, k), v in res[1].items() if o == "lift_coefficient"}, tan)
+        tan["mass_thrust_penalty"] = _chain(
+            {("blowing_system_mass" if k == "added_mass" else k): v
+             for k, v in res_t[1].items()}, tan)
+    return fc
+
+
+def _high_lift(p, out, tan):
+    """The section's maximum lift with blowing and its reserve over the lift a high-lift
+    segment needs: ``max_lift_clean + lift_per_momentum C_mu - high_lift_margin C_L``."""
+    cmu = np.asarray(p["momentum_coefficient"], float)
+    out["max_lift_coefficient"] = (np.asarray(p["max_lift_clean"], float)
+                                   + np.asarray(p["lift_per_momentum"], float) * cmu)
+    out["lift_reserve"] = (out["max_lift_coefficient"]
+                           - np.asarray(p["high_lift_margin"], float) * out["lift_coefficient"])
+    if tan is None:
+        return
+    tan["max_lift_coefficient"] = _chain({"max_lift_clean": 1.0,
+                                          "lift_per_momentum": cmu,
+                                          "momentum_coefficient": p["lift_per_momentum"]}, tan)
+    tan["lift_reserve"] = _chain({"max_lift_coefficient": 1.0,
+                                  "high_lift_margin": -out["lift_coefficient"],
+                                  "lift_coefficient": -np.asarray(p["high_lift_margin"], float)},
+                                 tan)
 
 
 def lift_dependent(params, options=ChainOptions()):
@@ -345,19 +479,25 @@ class _Dynamic:
     dynamic_pressure: object
 
 
-def _aircraft(p, fc, out, tan):
+def _aircraft(p, out, tan):
     """The aircraft's thrust and source power into ``out`` (and their tangents into ``tan`` when
-    given); the flight condition ``fc`` is already there (:func:`_lift`)."""
+    given); the clean aircraft's flight condition is already there (:func:`_lift`). The main
+    thrust with blowing is the clean aircraft's less the thrust saving (the section's drag
+    saving, less what the blowing system's weight costs when the fan is sized)."""
     d = tan is not None
-    out["main_thrust"] = aircraft.main_thrust(fc.main_thrust_clean, out["drag_saving"])
-    res_p = aircraft.clean_source_power(fc.main_thrust_clean, p["speed"], p["chain_efficiency"],
+    saving = out["thrust_saving"] if "thrust_saving" in out else out["drag_saving"]
+    clean = out["main_thrust_clean"]
+    out["main_thrust"] = aircraft.main_thrust(clean, saving)
+    res_p = aircraft.clean_source_power(clean, p["speed"], p["chain_efficiency"],
                                         derivatives=d)
     out["clean_source_power"] = res_p[0] if d else res_p
     if "duration" in p:
         out["clean_source_energy"] = out["clean_source_power"] * np.asarray(p["duration"], float)
     if not d:
         return
-    tan["main_thrust"] = _chain({"main_thrust_clean": 1.0, "drag_saving": -1.0}, tan)
+    tan["main_thrust"] = _chain({"main_thrust_clean": 1.0,
+                                 ("thrust_saving" if "thrust_saving" in out else "drag_saving"):
+                                 -1.0}, tan)
     _step(tan, "clean_source_power", res_p, True)
     if "duration" in p:
         tan["clean_source_energy"] = _chain({"clean_source_power": p["duration"],
@@ -403,15 +543,22 @@ def _stations(fan_diameter, blown_span, slot_ratio, chord, length, slot_exponent
                                slot_exponent, schedule=schedule, count=count)
 
 
-def _station_dependencies(schedule):
+def station_dependencies(schedule):
     """Inputs each station field depends on: the position on the length only, the sections on
-    all but the length; with the monotone-area schedule the areas (hence the angles) not on the
-    slot exponent (the outlet area is w h whatever the exponent)."""
+    all but the length; with the monotone-area schedule the areas (hence the equivalent cone's
+    angles) not on the slot exponent (the outlet area is w h whatever the exponent); the walls'
+    angles on every input (the semi-axes move with the exponent), except with linear semi-axes,
+    where the slot's semi-width does not depend on its height nor its semi-height on its width."""
     sections = [k for k in STATION_ROOTS if k != "transition_length"]
     area = sections if schedule != "monotone-area" else [k for k in sections
                                                          if k != "slot_exponent"]
+    span = thickness = sections + ["transition_length"]
+    if schedule == "linear":
+        span = [k for k in span if k not in ("slot_ratio", "chord")]
+        thickness = [k for k in thickness if k != "blown_span"]
     return {"position": ["transition_length"], "area": area, "perimeter": sections,
-            "hydraulic_diameter": sections, "half_angle": area + ["transition_length"]}
+            "hydraulic_diameter": sections, "half_angle": area + ["transition_length"],
+            "span_wall_half_angle": span, "thickness_wall_half_angle": thickness}
 
 
 @functools.lru_cache(maxsize=64)
@@ -424,7 +571,7 @@ def _station_tangents(fan_diameter, blown_span, slot_ratio, chord, length, slot_
            "slot_ratio": ("slot_height", chord), "chord": ("slot_height", slot_ratio),
            "transition_length": ("length", 1.0), "slot_exponent": ("slot_exponent", 1.0)}
     return {field: {k: ds[field, via[k][0]] * via[k][1] for k in roots}
-            for field, roots in _station_dependencies(schedule).items()}
+            for field, roots in station_dependencies(schedule).items()}
 
 
 def _geometric_loss_factor(p, options, atm, js, tan):
@@ -449,7 +596,8 @@ def _geometric_loss_factor(p, options, atm, js, tan):
         return kj
     db = {k: v.reshape(shape + v.shape[1:]) for k, v in res[1].items()}
     sd = _station_tangents(*geo, options.fans, options.schedule, options.stations)
-    tan["diffusion_half_angle"] = sd["half_angle"]
+    for name, field in ANGLE_OUTPUTS.items():
+        tan[name] = sd[field]
     terms = [_chain({"volume_flow": db["volume_flow"] / options.fans, "density": db["density"],
                      "viscosity": db["viscosity"]}, tan),
              {"roughness": db["roughness"], "extra_loss": 1.0}]

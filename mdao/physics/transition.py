@@ -15,20 +15,25 @@ import numpy as np
 
 from mdao.physics import superellipse
 
-__all__ = ["TransitionStations", "SCHEDULES", "INPUTS", "FIELDS", "stations",
+__all__ = ["TransitionStations", "SCHEDULES", "INPUTS", "FIELDS", "BETWEEN", "stations",
            "equivalent_cone_half_angle", "friction_integral"]
 
 TransitionStations = namedtuple(
     "TransitionStations",
-    "position area perimeter hydraulic_diameter semi_axis_y semi_axis_z exponent half_angle")
+    "position area perimeter hydraulic_diameter semi_axis_y semi_axis_z exponent half_angle "
+    "span_wall_half_angle thickness_wall_half_angle")
 TransitionStations.__doc__ = (
     "Duct stations: position [m], area [m**2], perimeter [m], hydraulic_diameter [m], "
-    "semi_axis_y [m], semi_axis_z [m], exponent [-] (all count long) and half_angle [rad] "
-    "(count-1 long, between stations).")
+    "semi_axis_y [m], semi_axis_z [m], exponent [-] (all count long); half_angle [rad] (the "
+    "equivalent cone's), span_wall_half_angle and thickness_wall_half_angle [rad] (the walls' "
+    "own), count-1 long, between stations, positive where they diverge.")
 
 SCHEDULES = ("monotone-area", "linear")
 INPUTS = ("fan_diameter", "slot_width", "slot_height", "length", "slot_exponent")
-FIELDS = ("position", "area", "perimeter", "hydraulic_diameter", "half_angle")
+FIELDS = ("position", "area", "perimeter", "hydraulic_diameter", "semi_axis_y", "semi_axis_z",
+          "exponent", "half_angle", "span_wall_half_angle", "thickness_wall_half_angle")
+#: Fields between stations (count - 1 long); the others are at the stations.
+BETWEEN = ("half_angle", "span_wall_half_angle", "thickness_wall_half_angle")
 
 
 def _positive(name, value):
@@ -38,16 +43,22 @@ def _positive(name, value):
     return value
 
 
+def _slope_angle(position, height, d_position=None, d_height=None):
+    """atan(diff(height) / diff(x)) between stations, and its differential."""
+    dh, dx = np.diff(height, axis=-1), np.diff(position, axis=-1)
+    angle = np.arctan2(dh, dx)
+    if d_height is None:
+        return angle
+    ddh, ddx = np.diff(d_height, axis=-1), np.diff(d_position, axis=-1)
+    return angle, (dx * ddh - dh * ddx) / (dx * dx + dh * dh)
+
+
 def _half_angle(position, area, d_position=None, d_area=None):
     """atan(diff(sqrt(A/pi)) / diff(x)) between stations, and its differential."""
     radius = np.sqrt(area / np.pi)
-    dr, dx = np.diff(radius, axis=-1), np.diff(position, axis=-1)
-    angle = np.arctan2(dr, dx)
     if d_area is None:
-        return angle
-    d_radius = d_area / (2.0 * np.sqrt(np.pi * area))
-    ddr, ddx = np.diff(d_radius, axis=-1), np.diff(d_position, axis=-1)
-    return angle, (dx * ddr - dr * ddx) / (dx * dx + dr * dr)
+        return _slope_angle(position, radius)
+    return _slope_angle(position, radius, d_position, d_area / (2.0 * np.sqrt(np.pi * area)))
 
 
 def stations(fan_diameter, slot_width, slot_height, length, slot_exponent,
@@ -64,7 +75,16 @@ def stations(fan_diameter, slot_width, slot_height, length, slot_exponent,
     the semi-axes solved by :func:`mdao.physics.superellipse.semi_axes`; for ``"linear"`` the
     semi-axes run linearly from inlet to outlet. Hydraulic diameter :math:`4A/P`; equivalent cone
     half-angle between stations :math:`\arctan(\Delta\sqrt{A/\pi}/\Delta x)` (positive when
-    diffusing).
+    diffusing). The walls' own half-angles between stations, spanwise (the side walls, at
+    :math:`y = \pm a`) and thickness-wise (at :math:`z = \pm b`),
+
+    .. math::
+        \theta_y = \arctan\frac{\Delta a}{\Delta x},\qquad
+        \theta_z = \arctan\frac{\Delta b}{\Delta x},
+
+    positive where the wall diverges: a round-to-slot transition can contract overall (small
+    equivalent cone angle) while its side walls diverge steeply (docs/theory.md, "Wall
+    divergence").
 
     Parameters
     ----------
@@ -87,8 +107,10 @@ def stations(fan_diameter, slot_width, slot_height, length, slot_exponent,
     -------
     stations : TransitionStations
         position [m], area [m**2], perimeter [m], hydraulic_diameter [m], semi_axis_y [m],
-        semi_axis_z [m], exponent [-], each of shape ``(..., count)``; half_angle [rad] of shape
-        ``(..., count - 1)``, positive where the duct diffuses.
+        semi_axis_z [m], exponent [-], each of shape ``(..., count)``; half_angle [rad] (the
+        equivalent cone's, positive where the duct diffuses), span_wall_half_angle and
+        thickness_wall_half_angle [rad] (positive where the wall diverges), each of shape
+        ``(..., count - 1)`` (the fields of :data:`BETWEEN`).
     derivs : dict
         ``{(field, input): ndarray}`` for field in ``FIELDS`` and input in ``INPUTS``, each the
         field's shape (only when ``derivatives`` is true).
@@ -107,6 +129,14 @@ def stations(fan_diameter, slot_width, slot_height, length, slot_exponent,
     >>> s = stations(0.08, 0.25, 0.005, 0.3, 8.0, count=5)
     >>> round(float(s.area[-1]), 12), round(float(s.area[0]), 12)
     (0.00125, 0.005026548246)
+
+    With linear semi-axes the side wall runs straight from the fan's radius 0.04 to the slot's
+    semi-width 0.25 / (2 sqrt(G(8))): atan((0.126368... - 0.04) / 0.3) = 16.0608 deg (by hand,
+    G(8) = Gamma(1.125)**2 / Gamma(1.25) = 0.978461...):
+
+    >>> s = stations(0.08, 0.25, 0.005, 0.3, 8.0, schedule="linear", count=5)
+    >>> [round(float(np.degrees(v)), 4) for v in s.span_wall_half_angle]
+    [16.0608, 16.0608, 16.0608, 16.0608]
     """
     if schedule not in SCHEDULES:
         raise ValueError(f"schedule must be one of {SCHEDULES}; got {schedule!r}")
@@ -147,22 +177,23 @@ def stations(fan_diameter, slot_width, slot_height, length, slot_exponent,
         d_b = {k: db["area"] * d_area[k] + db["aspect"] * d_aspect[k] + db["n"] * d_n[k]
                for k in INPUTS}
     else:
-        a1, b1, da1, db1 = superellipse.semi_axes(area1, aspect1, n1, derivatives=True)
+        # outlet semi-axes of area w h and aspect w / h: a1 = w / (2 sqrt G(n1)) and
+        # b1 = h / (2 sqrt G(n1)), each solved as the semi-axis of a "round" super-ellipse of
+        # area w**2 (h**2) so that a1 holds no round-off of h, nor b1 of w
+        a1, _, da1, _ = superellipse.semi_axes(w * w, 1.0, n1, derivatives=True)
+        _, b1, _, db1 = superellipse.semi_axes(h * h, 1.0, n1, derivatives=True)
         a = np.broadcast_to(0.5 * d * (1.0 - t) + a1 * t, shape)
         b = np.broadcast_to(0.5 * d * (1.0 - t) + b1 * t, shape)
         area, area_a, area_b, area_n = superellipse.enclosed_area(a, b, n, derivatives=True)
-        # outlet semi-axes against the inputs: through area1 = w h and aspect1 = w / h
-        d1 = {"slot_width": (h, 1.0 / h), "slot_height": (w, -w / h**2)}
         d_a, d_b = {}, {}
         for k in INPUTS:
-            if k in d1:
-                dA1, dAR1 = d1[k]
-                d_a1 = da1["area"] * dA1 + da1["aspect"] * dAR1
-                d_b1 = db1["area"] * dA1 + db1["aspect"] * dAR1
+            d_a1 = d_b1 = 0.0
+            if k == "slot_width":
+                d_a1 = da1["area"] * 2.0 * w
+            elif k == "slot_height":
+                d_b1 = db1["area"] * 2.0 * h
             elif k == "slot_exponent":
                 d_a1, d_b1 = da1["n"], db1["n"]
-            else:
-                d_a1 = d_b1 = 0.0
             d_inlet = 0.5 * (1.0 - t) if k == "fan_diameter" else 0.0
             d_a[k] = d_inlet + d_a1 * t + zero
             d_b[k] = d_inlet + d_b1 * t + zero
@@ -172,20 +203,29 @@ def stations(fan_diameter, slot_width, slot_height, length, slot_exponent,
     perimeter = result[0] if derivatives else result
     hydraulic = 4.0 * area / perimeter
     if not derivatives:
-        angle = _half_angle(position, area)
-        return TransitionStations(position, area, perimeter, hydraulic, a, b, n, angle)
+        return TransitionStations(position, area, perimeter, hydraulic, a, b, n,
+                                  _half_angle(position, area), _slope_angle(position, a),
+                                  _slope_angle(position, b))
 
     _, p_a, p_b, p_n = result
     derivs = {}
     for k in INPUTS:
         d_perimeter = p_a * d_a[k] + p_b * d_b[k] + p_n * d_n[k]
         angle, d_angle = _half_angle(position, area, d_pos[k], d_area[k])
+        span, d_span = _slope_angle(position, a, d_pos[k], d_a[k])
+        thickness, d_thickness = _slope_angle(position, b, d_pos[k], d_b[k])
         derivs["position", k] = d_pos[k]
         derivs["area", k] = d_area[k]
         derivs["perimeter", k] = d_perimeter
         derivs["hydraulic_diameter", k] = 4.0 * (d_area[k] - area * d_perimeter / perimeter) / perimeter
+        derivs["semi_axis_y", k] = d_a[k] + zero
+        derivs["semi_axis_z", k] = d_b[k] + zero
+        derivs["exponent", k] = d_n[k] + zero
         derivs["half_angle", k] = d_angle
-    return TransitionStations(position, area, perimeter, hydraulic, a, b, n, angle), derivs
+        derivs["span_wall_half_angle", k] = d_span
+        derivs["thickness_wall_half_angle", k] = d_thickness
+    return (TransitionStations(position, area, perimeter, hydraulic, a, b, n, angle, span,
+                               thickness), derivs)
 
 
 def equivalent_cone_half_angle(area_in, area_out, length):

@@ -79,10 +79,30 @@ def summary(outcome, case, optimized=True):
              + _clean_share(outcome)
              + ("" if e >= 0 else "  -> blowing costs energy on this mission"),
              *_no_aircraft(outcome),
+             *_hardware(outcome, case),
              f"{outcome.message}; {outcome.iterations} iterations, "
              f"{outcome.model_evaluations} model evaluations, {outcome.wall_time_s:.2f} s",
              "", CAUTION]
     return "\n".join(lines)
+
+
+def _hardware(outcome, case):
+    """The blowing system as hardware: rated power, the segment that sets it, mass, fan."""
+    hw = getattr(outcome, "hardware", None)
+    if not hw:
+        return []
+    how = ("sized in the optimization, its mass flown in every segment" if hw["sized"] else
+           "estimated after the optimization (no [mass] table: its mass is not flown)")
+    fan = ("" if hw["fan_diameter_m"] is None
+           else f", fan diameter {hw['fan_diameter_m'] * 1e3:.1f} mm")
+    lines = [f"blowing system: rated shaft power {hw['fan_rated_shaft_power_W'] / 1e3:.3g} kW "
+             f"({case.mass['power_margin']:g} x the {hw['sizing_segment']} segment's need), "
+             f"installed mass {hw['blowing_system_mass_kg']:.3g} kg{fan}; {how}"]
+    if case.high_lift.any():
+        lines.append("high-lift segments (" + ", ".join(
+            n for n, h in zip(case.segment_names, case.high_lift) if h)
+            + ") blow for lift: no break-even efficiency is given for them")
+    return lines
 
 
 def _no_aircraft(outcome):

@@ -123,6 +123,8 @@ def review_markdown(data, figures=(), note=None):
             + (" (ram-driven)" if s["ram_driven"] else "") + " |")
     lines += ["", "Binding constraints of the wing: "
               + ("; ".join(o["wing_active_constraints"]) or "none") + ".", ""]
+    lines += _hardware_md(o) + _high_lift_md(data.get("high_lift_cost"))
+    lines += _duct_md(data, figures)
     lines += _sensitivity_md(data) + _sweep_md(data, figures) + _uncertainty_md(data, figures)
     if note:
         lines += [f"*Note: {note}.*", ""]
@@ -132,6 +134,72 @@ def review_markdown(data, figures=(), note=None):
               ", ".join(f"{k.replace('_', ' ')} {v:.2f} s" for k, v in data["timings_s"].items()),
               "", f"> {data['caution']}", ""]
     return "\n".join(lines)
+
+
+def _hardware_md(o):
+    """The blowing system as hardware at the optimum."""
+    if o.get("fan_rated_shaft_power_W") is None:
+        return []
+    fan = ("" if o.get("fan_diameter_m") is None
+           else f", fan diameter {o['fan_diameter_m'] * 1e3:.1f} mm")
+    how = ("sized in the optimization; its mass flies in every segment" if o.get("sized")
+           else "estimated after the optimization (no [mass] table: its mass is not flown)")
+    return ["## The blowing system", "",
+            f"Rated shaft power of all fans {o['fan_rated_shaft_power_W'] / 1e3:.4g} kW, set by "
+            f"the {o['sizing_segment']} segment; installed mass "
+            f"{o['blowing_system_mass_kg']:.4g} kg{fan}; {how}.", ""]
+
+
+def _high_lift_md(cost):
+    """What the high-lift requirement costs the other segments."""
+    if not cost:
+        return []
+    w, f = cost["with_requirement"], cost["without_requirement"]
+    rows = ["## What the high-lift requirement costs", "",
+            f"High-lift segments: {', '.join(cost['high_lift_segments'])}. The same case "
+            "re-optimized with them flown as ordinary segments (no maximum-lift requirement; the "
+            "fan sized by the saving alone):", "",
+            "| | with the requirement | without |", "|---|---|---|",
+            f"| mission energy saved [kWh] | {w['mission_energy_saving_J'] / KWH:.4f} | "
+            f"{f['mission_energy_saving_J'] / KWH:.4f} |",
+            f"| saved in the other segments [kWh] | {w['other_segments_saving_J'] / KWH:.4f} | "
+            f"{f['other_segments_saving_J'] / KWH:.4f} |",
+            f"| rated shaft power [kW] | {w['fan_rated_shaft_power_W'] / 1e3:.4g} | "
+            f"{f['fan_rated_shaft_power_W'] / 1e3:.4g} |",
+            f"| set by | {w['sizing_segment']} | {f['sizing_segment']} |",
+            f"| blowing system mass [kg] | {w['blowing_system_mass_kg']:.4g} | "
+            f"{f['blowing_system_mass_kg']:.4g} |"]
+    if w["fan_diameter_m"] is not None:
+        rows.append(f"| fan diameter [mm] | {w['fan_diameter_m'] * 1e3:.1f} | "
+                    f"{f['fan_diameter_m'] * 1e3:.1f} |")
+    rows.append("")
+    if cost["cost_J"] is None:
+        rows += ["The optimum without the requirement did not converge: no cost is stated.", ""]
+    else:
+        rows += [f"The requirement costs the other segments {cost['cost_J'] / KWH:.4f} kWh of "
+                 "saving (negative: it helps them).", ""]
+    return rows
+
+
+def _duct_md(data, figures):
+    """The geometric duct at the optimum (nothing for the lumped duct)."""
+    d = data.get("duct")
+    if not d:
+        return []
+    lines = ["## Transition duct", "",
+             f"One of the {d['fans']} identical ducts at the optimum: fan circle "
+             f"{d['fan_diameter_m'] * 1e3:.4g} mm to a {d['slot_width_m'] * 1e3:.4g} x "
+             f"{d['slot_height_m'] * 1e3:.4g} mm slot over {d['length_m'] * 1e3:.4g} mm "
+             f"(schedule {d['schedule']}). Steepest walls: span "
+             f"{max(d['span_wall_half_angle_deg']):.2f} deg, thickness "
+             f"{max(d['thickness_wall_half_angle_deg']):.2f} deg (limit "
+             f"{d['max_wall_half_angle_deg']:.3g} deg, positive diverging); equivalent cone "
+             f"{max(d['diffusion_half_angle_deg']):.2f} deg (limit "
+             f"{d['max_diffusion_half_angle_deg']:.3g} deg). `blownwing duct` writes its "
+             "stations and section loops for CAD.", ""]
+    if "duct.png" in figures:
+        lines += ["![transition duct](duct.png)", ""]
+    return lines
 
 
 def _sensitivity_md(data):
@@ -256,6 +324,10 @@ def write_figures(data, out_dir):
         fig.savefig(out_dir / f"break_even_{i + 1}.png", dpi=110)
         plt.close(fig)
         files.append(out_dir / f"break_even_{i + 1}.png")
+    if data.get("duct"):
+        from mdao.studies.duct_export import draw_duct
+
+        files.append(draw_duct(data["duct"], out_dir / "duct.png", title=data["case"]["title"]))
     return files
 
 

@@ -12,7 +12,8 @@ import time
 import numpy as np
 
 from mdao import CAUTION, __version__
-from mdao.studies import scaleout, sensitivity, sweeps, uncertainty
+from mdao.studies import duct_export, scaleout, sensitivity, sweeps, uncertainty
+from mdao.studies.high_lift import high_lift_cost
 
 
 def _steps(progress, timings):
@@ -140,6 +141,12 @@ def run_review(case, samples=None, optimum_per_sample=False, scheduler=None, wor
         head["timings_s"] = timings
         return head
 
+    cost = None
+    if case.high_lift.any():
+        with step("high_lift_cost", "the optimum without the high-lift requirement"):
+            cost = high_lift_cost(case, outcome)
+    head["high_lift_cost"] = cost
+
     keys = sensitivity.sensitivity_keys(case)
     with step("fixed_design_derivatives",
               f"fixed-design derivatives of {len(keys)} inputs (OpenMDAO totals)"):
@@ -185,6 +192,9 @@ def run_review(case, samples=None, optimum_per_sample=False, scheduler=None, wor
         "sweeps": {"net_power": sweep, "break_even_maps": maps},
         "uncertainty": mc,
         "optimum_per_sample": per_sample,
+        # the geometric duct at the optimum (one of the fans' ducts), for its figure
+        "duct": (duct_export.duct_data(case, outcome) if case.duct["model"] == "geometric"
+                 else None),
         "timings_s": timings,
         "_outcome": outcome,
     })

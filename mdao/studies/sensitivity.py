@@ -36,7 +36,8 @@ from mdao.case.loading import lift_tables
 from mdao.optimum.solve import feasibility, read_values
 from mdao.physics import chain
 from mdao.units import SI_UNITS
-from mdao.system import applicable_parameters, build_problem, chain_options, chain_parameters
+from mdao.system import (applicable_parameters, build_problem, chain_options, chain_parameters,
+                         design_point)
 
 #: Inputs the geometric duct takes as one value for the wing (cannot vary along samples).
 WING_GEOMETRY = ("fan_diameter", "blown_span", "slot_ratio", "chord", "transition_length",
@@ -94,7 +95,7 @@ def unit_label(key):
 
 def design_parameters(case, outcome):
     """Chain parameters at the optimal design, the fan following the requirement."""
-    return chain_parameters(case, slot_ratio=np.asarray(outcome.slot_ratio, float),
+    return chain_parameters(case, **design_point(outcome.values),
                             momentum_coefficient=np.asarray(
                                 outcome.values["momentum_coefficient"], float))
 
@@ -167,8 +168,8 @@ def evaluate_design(case, outcome, columns):
                                opts, blowing=case.blowing) for i in range(n)]
         sizes = [1] * n
     out = {k: np.concatenate([np.broadcast_to(r[k], (m, nseg)) for r, m in zip(rows, sizes)])
-           for k in rows[0] if k != "diffusion_half_angle"}
-    out["diffusion_half_angle"] = rows[0].get("diffusion_half_angle")
+           for k in rows[0] if k not in chain.ANGLE_OUTPUTS}
+    out.update({k: rows[0].get(k) for k in chain.ANGLE_OUTPUTS})   # wing-level, per station
     out["mission_energy_saving"] = out["energy_saving"].sum(axis=-1)
     return out
 
@@ -196,7 +197,8 @@ def fixed_design_derivatives(case, outcome, keys=None):
     """
     keys = sensitivity_keys(case) if keys is None else list(keys)
     prob = build_problem(case, follow_requirement=True, driver=False)
-    prob.set_val("slot_ratio", outcome.slot_ratio)
+    for name, value in design_point(outcome.values).items():
+        prob.set_val(name, value)
     prob.set_val("momentum_coefficient", outcome.values["momentum_coefficient"])
     prob.run_model()
     names = sorted({promoted(case, k)[0] for k in keys})

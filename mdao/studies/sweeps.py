@@ -24,7 +24,7 @@ from mdao.physics import chain
 from mdao.physics.lift_table import LiftTable, interpolate
 from mdao.optimum.breakeven import break_even_efficiency
 from mdao.studies.sensitivity import WING_GEOMETRY, chunk_rows, design_parameters, promoted
-from mdao.system import chain_options, chain_parameters
+from mdao.system import chain_options, chain_parameters, design_point
 
 #: Fan efficiencies of the sweep when ``[review] fan_efficiencies`` is not given.
 DEFAULT_EFFICIENCIES = (0.5, 0.6, 0.7, 0.8, 0.9)
@@ -81,13 +81,14 @@ def net_power_sweep(case, outcome, efficiencies=None, points=201, cmu_max=None):
     p[name] = effs[:, None, None]
     nseg = len(case.segments)
     size = max(1, chunk_rows(case) // len(effs))
+    keep = set(KEEP) | {c.quantity for c in constraints.applicable(case, follow_requirement=True)}
     parts = []
     for a in range(0, points, size):  # chunks of the grid: bounded memory, each vectorized
         p["momentum_coefficient"] = grid[None, a:a + size, None]
         part = chain.evaluate(p, chain_options(case), blowing=True)
         m = len(grid[a:a + size])
         parts.append({k: np.broadcast_to(v, (len(effs), m, nseg)) for k, v in part.items()
-                      if k in KEEP})
+                      if k in keep and np.ndim(v) and np.shape(v)[-1] == nseg})
     out = {k: np.concatenate([q[k] for q in parts], axis=1) for k in parts[0]}
     shape = (points, nseg)
     first = {k: v[0] for k, v in out.items()}
@@ -140,7 +141,7 @@ def break_even_map(case, outcome, x_key, x_values, y_key, y_values):
             raise ValueError(f"key = {k!r}: break-even maps take wing-level inputs, not "
                              "segment inputs")
         names[k] = name
-    base = chain_parameters(case, slot_ratio=np.asarray(outcome.slot_ratio, float))
+    base = chain_parameters(case, **design_point(outcome.values))
     base.pop("momentum_coefficient", None)
     nseg = len(case.segments)
     geo_x = case.duct["model"] == "geometric" and names[x_key] in WING_GEOMETRY
