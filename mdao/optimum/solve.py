@@ -149,6 +149,8 @@ def _segments(case, vals, be):
     reynolds = segment_reynolds(case)
     per, _ = active_constraints(case, vals)
     tables = lift_tables(case)
+    fan_diameter = vals.get("fan_diameter", case.duct.get("fan_diameter"))
+    fan_diameter = None if fan_diameter is None else float(fan_diameter)
     for i, seg in enumerate(case.segments):
         on = bool(seg["blowing"])
 
@@ -185,6 +187,7 @@ def _segments(case, vals, be):
             "active_constraints": per[i],
         }
         row["kind"] = seg["kind"]
+        row["fan_diameter_m"] = fan_diameter     # the one fan every segment runs on
         if "max_lift_coefficient" in vals:
             row["max_lift_coefficient"] = float(vals["max_lift_coefficient"][i]) if on else None
         row["lift_coefficient"] = seg["lift_coefficient"]   # given, or None (no aircraft)
