@@ -22,19 +22,36 @@ from mdao.case.fragment import load_fragment
 from mdao.case.schema import (DISTRIBUTIONS, REQUIRED, SCHEMA, SEGMENT, TOP_LEVEL, Spec,
                               dimension_of)
 from mdao.parameters import CHAIN_PARAMETERS, PARAMETERS, RENAMED, chain_parameters, parameter
-from mdao.units import UnitError, read_table, to_si
+from mdao.units import (MAX_CASE_BYTES, UnitError, read_table, read_text, shown, shown_path,
+                        to_si)
 
 #: Prefix of a one-segment objective, ``"segment:NAME"``.
 SEGMENT_OBJECTIVE = "segment:"
+#: Most segments a case may have (each is a column of every vectorized evaluation).
+MAX_SEGMENTS = 200
+#: Longest title and segment name [characters].
+MAX_TITLE = 200
+MAX_NAME = 60
+#: Most Monte Carlo samples times segments of a review: the samples are evaluated in one
+#: vectorized call (:mod:`mdao.studies.uncertainty`); 10 000 000 samples took 9 GB, about
+#: 0.9 kB each, counted here per sample and segment (under about 2 GB).
+MAX_SAMPLE_SEGMENTS = 2_000_000
 
 
 def _check_range(key, value, spec, shown):
     lo, hi, lo_open, hi_open = spec.range
     bad = (value < lo or value > hi or (lo_open and value == lo) or (hi_open and value == hi)
-           or (isinstance(value, float) and math.isnan(value)))
+           or not math.isfinite(value))
     if bad:
         suffix = "" if spec.dimension == "dimensionless" else f" (in SI, {spec.dimension})"
-        raise CaseError(f"{key} = {shown!r} is out of range: allowed {spec.allowed()}{suffix}")
+        finite = "" if math.isfinite(value) else "a finite value "
+        raise CaseError(f"{key} = {_show(shown)} is out of range: allowed {finite}"
+                        f"{spec.allowed()}{suffix}")
+
+
+def _show(value):
+    """A value for a message: repr, control characters escaped, at most 80 characters."""
+    return shown(value)
 
 
 def _read_value(key, raw, spec):
@@ -44,8 +61,8 @@ def _read_value(key, raw, spec):
             if isinstance(raw, (int, float)) and not isinstance(raw, bool) and raw == 0:
                 value = 0.0
             else:
-                raise CaseError(f"{key} = {raw!r}: give a quantity with units as a string, "
-                                f"e.g. \"{_example(spec.dimension)}\"")
+                raise CaseError(f"{key} = {_show(raw)}: give a quantity with units as a "
+                                f"string, e.g. \"{_example(spec.dimension)}\"")
         else:
             try:
                 value = to_si(raw, spec.dimension)
@@ -61,46 +78,54 @@ def _read_value(key, raw, spec):
                 try:
                     value = to_si(raw, "dimensionless")
                 except UnitError as exc:
-                    raise CaseError(f"{key} = {raw!r}: a pure number is allowed ({exc})") from None
+                    raise CaseError(f"{key} = {_show(raw)}: a pure number is allowed "
+                                    f"({exc})") from None
             else:
-                raise CaseError(f"{key} = {raw!r}: a number is allowed")
+                raise CaseError(f"{key} = {_show(raw)}: a number is allowed")
         else:
             value = float(raw)
         _check_range(key, value, spec, raw)
         return value
     if typ == "int":
         if isinstance(raw, bool) or not isinstance(raw, int):
-            raise CaseError(f"{key} = {raw!r}: an integer is allowed")
+            raise CaseError(f"{key} = {_show(raw)}: an integer is allowed")
         _check_range(key, raw, spec, raw)
         return raw
     if typ == "bool":
         if not isinstance(raw, bool):
-            raise CaseError(f"{key} = {raw!r}: true or false is allowed")
+            raise CaseError(f"{key} = {_show(raw)}: true or false is allowed")
         return raw
     if typ == "str":
         if not isinstance(raw, str):
-            raise CaseError(f"{key} = {raw!r}: a string is allowed")
+            raise CaseError(f"{key} = {_show(raw)}: a string is allowed")
+        if len(raw) > 4096 or "\0" in raw:
+            raise CaseError(f"{key} = {_show(raw)}: a string of at most 4096 characters "
+                            "without NUL is allowed")
         return raw
     if typ == "choice":
         if raw not in spec.choices:
-            raise CaseError(f"{key} = {raw!r}: allowed values are "
+            raise CaseError(f"{key} = {_show(raw)}: allowed values are "
                             + ", ".join(f'"{c}"' for c in spec.choices))
         return raw
     if typ == "list":
         if not isinstance(raw, list) or (spec.length and len(raw) != spec.length):
-            raise CaseError(f"{key} = {raw!r}: a list of {spec.length or 'some'} numbers "
+            raise CaseError(f"{key} = {_show(raw)}: a list of {spec.length or 'some'} numbers "
                             "is allowed")
+        if len(raw) > 1000:
+            raise CaseError(f"{key}: a list of {len(raw)} entries; at most 1000 are allowed")
         if not all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in raw):
-            raise CaseError(f"{key} = {raw!r}: every entry must be a number")
+            raise CaseError(f"{key} = {_show(raw)}: every entry must be a number")
+        if not all(math.isfinite(v) for v in raw):
+            raise CaseError(f"{key} = {_show(raw)}: every entry must be a finite number")
         return [float(v) for v in raw]
     if typ == "pair":
         if not isinstance(raw, list) or len(raw) != 2:
-            raise CaseError(f"{key} = {raw!r}: a list of two values [low, high] is allowed")
+            raise CaseError(f"{key} = {_show(raw)}: a list of two values [low, high] is allowed")
         sub = replace(spec, type="quantity" if spec.dimension != "dimensionless" else "number")
         lo = _read_value(f"{key}[0]", raw[0], sub)
         hi = _read_value(f"{key}[1]", raw[1], sub)
         if not lo < hi:
-            raise CaseError(f"{key} = {raw!r}: the low bound must be below the high bound")
+            raise CaseError(f"{key} = {_show(raw)}: the low bound must be below the high bound")
         return (lo, hi)
     raise AssertionError(typ)
 
@@ -116,13 +141,16 @@ def _read_lift_table(key, raw, spec):
 
     form = "{ lift_coefficient = [0.3, 0.6, 0.9], value = [...] }"
     if set(raw) != {"lift_coefficient", "value"}:
-        raise CaseError(f"{key} = {raw!r}: a lift table has exactly the keys lift_coefficient and "
+        raise CaseError(f"{key} = {_show(raw)}: a lift table has exactly the keys lift_coefficient and "
                         f"value, e.g. {form}")
     cl, val = raw["lift_coefficient"], raw["value"]
     for name, seq in (("lift_coefficient", cl), ("value", val)):
         if not isinstance(seq, list) or not seq or not all(
                 isinstance(v, (int, float)) and not isinstance(v, bool) for v in seq):
-            raise CaseError(f"{key}.{name} = {seq!r}: a list of numbers is allowed, e.g. {form}")
+            raise CaseError(f"{key}.{name} = {_show(seq)}: a list of numbers is allowed, "
+                            f"e.g. {form}")
+    if len(cl) > 1000:
+        raise CaseError(f"{key}: a lift table of {len(cl)} rows; at most 1000 are allowed")
     if len(cl) < 2 or len(cl) != len(val):
         raise CaseError(f"{key}: a lift table needs at least two lift coefficients and one value "
                         f"for each; got {len(cl)} lift coefficients and {len(val)} values")
@@ -130,7 +158,7 @@ def _read_lift_table(key, raw, spec):
     for i, v in enumerate(cl):
         _check_range(f"{key}.lift_coefficient[{i}]", float(v), cl_spec, v)
     if any(b <= a for a, b in zip(cl, cl[1:])):
-        raise CaseError(f"{key}.lift_coefficient = {cl!r}: the lift coefficients must increase "
+        raise CaseError(f"{key}.lift_coefficient = {_show(cl)}: the lift coefficients must increase "
                         "strictly")
     for i, v in enumerate(val):
         _check_range(f"{key}.value[{i}]", float(v), spec, v)
@@ -143,26 +171,40 @@ def _example(dimension):
             "areal_density": "1.5 kg/m**2"}.get(dimension, "1")
 
 
-def _read_table(name, raw, schema):
+def _key_text(key):
+    """A key the user typed, for messages: as it is when printable and short, else escaped."""
+    return key if isinstance(key, str) and key.isprintable() and len(key) <= 60 else _show(key)
+
+
+def _read_table(name, raw, schema, errors=None):
+    """Read one table against its schema. With ``errors`` (a list), every key's error is
+    appended there (the key then left out) instead of raising the first."""
     if not isinstance(raw, dict):
-        raise CaseError(f"[{name}] must be a table, got {raw!r}")
+        raise CaseError(f"[{name}] must be a table, got {_show(raw)}")
+    found = []
     for old in sorted(set(raw)):
         if f"{name}.{old}" in RENAMED:
-            raise CaseError(f"{name}.{old} is no longer a case key: it is now "
-                            f"{RENAMED[name + '.' + old]} (same meaning and value)")
-    unknown = sorted(set(raw) - set(schema))
-    if unknown:
-        raise CaseError(f"{name}.{unknown[0]}: unknown key; allowed keys in [{name}] are "
-                        + ", ".join(sorted(schema)))
+            found.append(CaseError(f"{name}.{old} is no longer a case key: it is now "
+                                   f"{RENAMED[name + '.' + old]} (same meaning and value)"))
+    for key in sorted(set(raw) - set(schema) - {k for k in raw if f"{name}.{k}" in RENAMED}):
+        found.append(CaseError(f"{name}.{_key_text(key)}: unknown key; allowed keys in [{name}] "
+                               "are " + ", ".join(sorted(schema))))
     out = {}
     for key, spec in schema.items():
         full = f"{name}.{key}"
-        if key in raw:
-            out[key] = _read_value(full, raw[key], spec)
-        elif spec.default is REQUIRED:
-            raise CaseError(f"{full} is missing (required)")
-        else:
-            out[key] = spec.default
+        try:
+            if key in raw:
+                out[key] = _read_value(full, raw[key], spec)
+            elif spec.default is REQUIRED:
+                raise CaseError(f"{full} is missing (required)")
+            else:
+                out[key] = spec.default
+        except CaseError as exc:
+            found.append(exc)
+    if found and errors is None:
+        raise found[0]
+    if errors is not None:
+        errors.extend(found)
     return out
 
 
@@ -275,71 +317,196 @@ def load_case(path):
     CaseError
         For any bad input, naming the key, the value and what is allowed.
     """
+    text = read_text(path, MAX_CASE_BYTES, CaseError, "case file")
     path = Path(path)
-    try:
-        text = path.read_text(encoding="utf-8")
-    except OSError as exc:
-        raise CaseError(f"cannot read the case file {str(path)!r}: {exc.strerror}") from None
-    try:
-        raw = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise CaseError(f"{path.name} is not valid TOML: {exc}") from None
+    raw = _parse_toml(text, path.name)
     return parse_case(raw, base=path.parent, path=path, text=text)
 
 
+def _parse_toml(text, name):
+    """TOML text to a dict; CaseError (naming the file ``name``) when it is not TOML."""
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise CaseError(f"{shown_path(name)} is not valid TOML: {exc}") from None
+    except RecursionError:
+        raise CaseError(f"{shown_path(name)}: tables or arrays nested too deep to read") from None
+
+
 def parse_case(raw, base=Path("."), path=None, text=""):
-    """Validate a case given as a dict (as TOML reads it); see :func:`load_case`."""
-    unknown = sorted(set(raw) - TOP_LEVEL)
-    if unknown:
-        raise CaseError(f"{unknown[0]}: unknown top-level key; allowed: " + ", ".join(sorted(TOP_LEVEL)))
-    if not isinstance(raw.get("title"), str) or not raw["title"].strip():
-        raise CaseError("title is missing (required: a one-line description of the case)")
+    """Validate a case given as a dict (as TOML reads it); see :func:`load_case`.
+
+    Independent errors (every key of every table, the title, the segments' names) are reported
+    together, one per line, up to :data:`mdao.case.errors.MAX_ERRORS`; the cross-field checks
+    run when the fields they need read fine.
+    """
+    where = shown_path(Path(path).name) if path is not None else "the case"
+    if not isinstance(raw, dict):
+        raise CaseError(f"{where}: a case is a TOML table of tables")
+    errors = []
+    for key in sorted(set(raw) - TOP_LEVEL, key=str):
+        errors.append(CaseError(f"{_key_text(key)}: unknown top-level key; allowed: "
+                                + ", ".join(sorted(TOP_LEVEL))))
+    title = raw.get("title")
+    if title is None or (isinstance(title, str) and not title.strip()):
+        errors.append(CaseError("title is missing (required: a one-line description of the "
+                                "case)"))
+    elif not isinstance(title, str):
+        errors.append(CaseError(f"title = {_show(title)}: title must be a string (a one-line "
+                                "description of the case)"))
+    elif len(title) > MAX_TITLE or not title.isprintable():
+        errors.append(CaseError(f"title = {_show(title)}: one line of at most {MAX_TITLE} "
+                                "printable characters is allowed (no newlines or control "
+                                "characters)"))
     raw = copy.deepcopy(raw)
     calibration = None
     if "calibration" in raw:
-        calibration = _apply_calibration(raw, base)
+        try:
+            calibration = _apply_calibration(raw, base)
+        except CaseError as exc:  # the case's other keys depend on the fragment's: stop here
+            raise CaseError.joined(errors + [exc], where) from None
     tables = {}
     for name, schema in SCHEMA.items():
-        tables[name] = _read_table(name, raw.get(name, {}), schema)
+        try:
+            tables[name] = _read_table(name, raw.get(name, {}), schema, errors)
+        except CaseError as exc:
+            errors.append(exc)
     segs = raw.get("segment")
+    segments = []
     if not isinstance(segs, list) or not segs:
-        raise CaseError("segment is missing: give at least one [[segment]] table")
-    segments = [_read_table(f"segment[{i}]", s, SEGMENT) for i, s in enumerate(segs)]
-    names = [s["name"] for s in segments]
-    dup = {n for n in names if names.count(n) > 1}
-    if dup:
-        raise CaseError(f"segment.name = {sorted(dup)[0]!r} is used twice; names must be unique")
-    case = Case(title=raw["title"], segments=segments, calibration=calibration, path=path,
+        errors.append(CaseError("segment is missing: give at least one [[segment]] table"))
+    elif len(segs) > MAX_SEGMENTS:
+        errors.append(CaseError(f"segment: {len(segs)} [[segment]] tables; at most "
+                                f"{MAX_SEGMENTS} are allowed"))
+    else:
+        for i, seg in enumerate(segs):
+            try:
+                segments.append(_read_table(f"segment[{i}]", seg, SEGMENT, errors))
+            except CaseError as exc:
+                errors.append(exc)
+                continue
+            name = segments[-1].get("name")
+            if isinstance(name, str) and not _good_name(name):
+                errors.append(CaseError(
+                    f"segment[{i}].name = {_show(name)}: a name of 1 to {MAX_NAME} printable "
+                    "characters without dots is allowed (names are used in key paths "
+                    "\"segment.NAME.speed\")"))
+        names = [s.get("name") for s in segments]
+        dup = sorted({n for n in names if isinstance(n, str) and names.count(n) > 1})
+        if dup:
+            errors.append(CaseError(f"segment.name = {_show(dup[0])} is used twice; names must "
+                                    "be unique"))
+    if errors and calibration is not None:
+        errors = [_from_fragment(exc, calibration) for exc in errors]
+    if errors:
+        raise CaseError.joined(errors, where)
+    case = Case(title=title, segments=segments, calibration=calibration, path=path,
                 text=text, mass_given=isinstance(raw.get("mass"), dict), **tables)
-    _check_consistency(case, base)
-    _check_aircraft(case, raw)
-    _check_high_lift(case)
-    _check_unused(case, raw)
-    _check_segment_lift(case)
-    _check_fan_fit(case)
+    _check_all(case, raw, base, where)
+    return case
+
+
+def _from_fragment(exc, calibration):
+    """Name the calibration fragment in an error about a constant that came from it."""
+    message = str(exc)
+    for key in calibration["constants"]:
+        if message.startswith(key + " ") or message.startswith(key + "."):
+            return CaseError(f"{message} (from the calibration fragment "
+                             f"{shown_path(calibration['file'])})")
+    return exc
+
+
+def _good_name(name):
+    """A segment name usable in a key path: 1 to MAX_NAME printable characters, no dot."""
+    return 0 < len(name.strip()) and len(name) <= MAX_NAME and name.isprintable() \
+        and "." not in name
+
+
+def _check_all(case, raw, base, where):
+    """The cross-field checks. The first needs every model's fields (it also fits a fan map
+    from its points file) and stops at its error; the next ones are independent and report
+    together; the last need the segments' lift coefficients and run when those are sound."""
+    try:
+        _check_consistency(case, base)
+    except CaseError as exc:
+        raise CaseError.joined([exc], where) from None
+    errors = []
+    for check in (lambda: _check_aircraft(case, raw), lambda: _check_high_lift(case),
+                  lambda: _check_unused(case, raw), lambda: _check_segment_lift(case),
+                  lambda: _check_fan_fit(case), lambda: _check_fan_span(case),
+                  lambda: _check_samples(case)):
+        try:
+            check()
+        except CaseError as exc:
+            errors.append(exc)
+    if errors:
+        raise CaseError.joined(errors, where)
     _check_lift_tables(case)
     case.extrapolation = _check_validity(case)
     case.uncertainty = _read_uncertainty(raw.get("uncertainty", {}), case)
-    return case
+
+
+def _check_fan_span(case):
+    """The fans sit side by side along the blown span, each serving a slot of width
+    ``blown_span / fans``: a fan wider than its share does not fit (fans * fan_diameter <=
+    blown_span). Checked where a fan diameter is used (geometric duct or fan map); with
+    ``duct.fan_diameter_bounds`` for the smallest diameter allowed."""
+    d = case.duct
+    if d["fan_diameter"] is None:
+        return
+    span, fans = case.wing["blown_span"], d["fans"]
+    bounds = d["fan_diameter_bounds"]
+    smallest = bounds[0] if bounds is not None else d["fan_diameter"]
+    if fans * smallest > span * (1 + 1e-12):
+        what = ("the smallest of duct.fan_diameter_bounds" if bounds is not None
+                else "duct.fan_diameter")
+        raise CaseError(f"duct.fans = {fans}: {fans} fans of {smallest * 1e3:g} mm ({what}) "
+                        f"need {fans * smallest:g} m of span, wing.blown_span is {span:g} m; "
+                        "allowed: fans * fan_diameter <= blown_span")
+
+
+def _check_samples(case):
+    """Monte Carlo samples times segments within :data:`MAX_SAMPLE_SEGMENTS` (memory)."""
+    n, m = case.review["samples"], len(case.segments)
+    if n * m > MAX_SAMPLE_SEGMENTS:
+        raise CaseError(f"review.samples = {n}: with {m} segments that is {n * m} sample "
+                        f"evaluations; at most {MAX_SAMPLE_SEGMENTS} (samples x segments) are "
+                        f"allowed, so that the review fits in memory: at most "
+                        f"{MAX_SAMPLE_SEGMENTS // m} samples here")
 
 
 def _apply_calibration(raw, base):
     table = raw.pop("calibration")
     if not isinstance(table, dict) or set(table) != {"file"} or not isinstance(table["file"], str):
         raise CaseError(f"calibration = {table!r}: allowed is a table with one key, file = \"PATH\"")
-    fpath = (base / table["file"]).resolve()
+    shown_file = _show(table["file"])
+    if "\0" in table["file"] or len(table["file"]) > 4096:
+        raise CaseError(f"calibration.file = {shown_file}: a path without NUL characters, at "
+                        "most 4096 characters, is allowed")
+    try:
+        fpath = (base / table["file"]).resolve()
+    except (OSError, RuntimeError, ValueError) as exc:  # a symlink loop, a bad path
+        raise CaseError(f"calibration.file = {shown_file}: cannot resolve the path "
+                        f"({type(exc).__name__})") from None
+    try:
+        missing = not fpath.exists()
+    except OSError:
+        missing = False  # let the reader name what is wrong
+    if missing:
+        raise CaseError(f"calibration.file = {shown_file}: no such file "
+                        f"({shown_path(fpath)})")
     try:
         frag = load_fragment(fpath)
-    except FileNotFoundError:
-        raise CaseError(f"calibration.file = {table['file']!r}: no such file ({fpath})") from None
-    except Exception as exc:
-        raise CaseError(f"calibration.file = {table['file']!r}: cannot read it ({exc})") from None
+    except CaseError as exc:
+        raise CaseError(f"calibration.file = {shown_file}: cannot use it ({exc})") from None
     for key, value in frag["constants"].items():
         section, name = key.split(".")
         target = raw.setdefault(section, {})
+        if not isinstance(target, dict):
+            raise CaseError(f"[{section}] must be a table, got {_show(target)}")
         if name in target:
             raise CaseError(f"{key} is set both in the case and in the calibration "
-                            f"{table['file']!r}; remove one")
+                            f"{shown_file}; remove one")
         target[name] = value
     validity = frag.get("validity", {})
     cmu = validity.get("momentum_coefficient_range")
@@ -355,7 +522,11 @@ def _check_map_efficiency(f):
     from mdao.physics.fan import map_efficiency
 
     low, high = f["flow_coefficient_range"]
-    phi = np.array([low, high, min(max(f["peak_flow_coefficient"], low), high)])
+    peak = f["peak_flow_coefficient"]
+    if not low <= peak <= high:
+        raise CaseError(f"fan.peak_flow_coefficient = {peak:g} is outside fan.flow_coefficient_"
+                        f"range = [{low:g}, {high:g}]; allowed: a peak inside the map's range")
+    phi = np.array([low, high, min(max(peak, low), high)])
     eta = map_efficiency(phi, f["peak_efficiency"], f["peak_flow_coefficient"],
                          f["efficiency_falloff"])
     worst = int(np.argmin(eta))
@@ -674,15 +845,15 @@ def _fit_fan_points(case, base):
     try:
         cols = read_table(fpath, FAN_POINT_COLUMNS, CaseError)
     except CaseError as exc:
-        raise CaseError(f"fan.points_file {f['points_file']!r}: {exc}") from None
+        raise CaseError(f"fan.points_file {_show(f['points_file'])}: {exc}") from None
     except OSError as exc:
-        raise CaseError(f"fan.points_file {f['points_file']!r}: cannot read it "
+        raise CaseError(f"fan.points_file {_show(f['points_file'])}: cannot read it "
                         f"({exc.strerror})") from None
     for need in ("volume_flow", "pressure_rise", "speed"):
         if need not in cols:
-            raise CaseError(f"fan.points_file {f['points_file']!r}: column {need!r} is missing")
+            raise CaseError(f"fan.points_file {_show(f['points_file'])}: column {need!r} is missing")
     if ("efficiency" in cols) == ("electrical_power" in cols):
-        raise CaseError(f"fan.points_file {f['points_file']!r}: give exactly one of the columns "
+        raise CaseError(f"fan.points_file {_show(f['points_file'])}: give exactly one of the columns "
                         "'efficiency' or 'electrical_power'")
     density = cols.get("density", np.full_like(cols["speed"], 1.225))
     try:
@@ -691,12 +862,15 @@ def _fit_fan_points(case, base):
                                  electrical_power=cols.get("electrical_power"),
                                  motor_efficiency=f["motor_efficiency"])
     except ValueError as exc:
-        raise CaseError(f"fan.points_file {f['points_file']!r}: {exc}") from None
+        raise CaseError(f"fan.points_file {_show(f['points_file'])}: {exc}") from None
     for key in ("pressure_coefficients", "peak_efficiency", "peak_flow_coefficient",
                 "efficiency_falloff", "flow_coefficient_range"):
         if f[key] is not None:
             raise CaseError(f"fan.{key} is given and fan.points_file too; give one of them")
         value = getattr(fmap, key)
+        if not np.all(np.isfinite(np.asarray(value, float))):
+            raise CaseError(f"fan.points_file {_show(f['points_file'])}: the fitted "
+                            f"fan.{key} is not finite; check the points")
         f[key] = list(map(float, value)) if key == "pressure_coefficients" else (
             tuple(map(float, value)) if key == "flow_coefficient_range" else float(value))
 
@@ -707,9 +881,11 @@ def _read_uncertainty(raw, case):
     out = {}
     for key, spec in raw.items():
         try:
+            if not _key_text(key) == key:
+                raise KeyError(key)
             base = case.value(key)
         except (CaseError, KeyError, IndexError):
-            raise CaseError(f"uncertainty.\"{key}\": not a case key path (e.g. "
+            raise CaseError(f"uncertainty.\"{_key_text(key)}\": not a case key path (e.g. "
                             "\"airfoil.drag_per_momentum\" or \"segment.NAME.speed\")") from None
         try:
             declared = parameter(key)
@@ -724,7 +900,7 @@ def _read_uncertainty(raw, case):
             raise CaseError(f"uncertainty.\"{key}\": only model parameters the case uses can be "
                             f"uncertain ({allowed}; per segment as \"segment.NAME.speed\")")
         if not isinstance(spec, dict) or spec.get("distribution") not in DISTRIBUTIONS:
-            raise CaseError(f"uncertainty.\"{key}\" = {spec!r}: give distribution = "
+            raise CaseError(f"uncertainty.\"{key}\" = {_show(spec)}: give distribution = "
                             + " or ".join(f'"{d}"' for d in DISTRIBUTIONS))
         need = DISTRIBUTIONS[spec["distribution"]]
         extra = set(spec) - set(need) - {"distribution"}
@@ -732,12 +908,21 @@ def _read_uncertainty(raw, case):
             raise CaseError(f"uncertainty.\"{key}\": a {spec['distribution']} distribution takes "
                             + ", ".join(need))
         vals = {}
+        dimension = dimension_of(key)
         for k in need:
             v = spec[k]
             if isinstance(v, str):
                 v = _quantity_like(key, k, v)
+            elif (dimension != "dimensionless" and isinstance(v, (int, float))
+                  and not isinstance(v, bool) and v != 0):
+                raise CaseError(f"uncertainty.\"{key}\".{k} = {_show(v)}: {key} is a "
+                                f"{dimension.replace('_', ' ')}; give the spread with its unit "
+                                f"as a string, e.g. \"{_example(dimension)}\"")
             if isinstance(v, bool) or not isinstance(v, (int, float)):
-                raise CaseError(f"uncertainty.\"{key}\".{k} = {v!r}: a number is allowed")
+                raise CaseError(f"uncertainty.\"{key}\".{k} = {_show(v)}: a number is allowed")
+            if not math.isfinite(v):
+                raise CaseError(f"uncertainty.\"{key}\".{k} = {_show(v)}: a finite number "
+                                "is allowed")
             vals[k] = float(v)
         if spec["distribution"] == "normal" and not vals["sd"] > 0:
             raise CaseError(f"uncertainty.\"{key}\".sd = {vals['sd']!r}: must be > 0")

@@ -94,7 +94,7 @@ SETTINGS = {
     "wing": {},
     "slot": {
         "ratio_bounds": pair(default=None, low=0, high=0.2, low_open=True),
-        "min_height": quantity("length", default=0.0, low=0),
+        "min_height": quantity("length", default=0.0, low=0, high=1.0),
         "max_jet_mach": number(default=0.4, low=0, high=1.0, low_open=True),
     },
     "duct": {
@@ -107,16 +107,19 @@ SETTINGS = {
         # each wall pair's divergence: plane-wall diffuser practice (docs/theory.md)
         "max_wall_half_angle": quantity("angle", default=math.radians(7.0), low=0,
                                         high=math.pi / 2, low_open=True, high_open=True),
-        "fan_diameter_bounds": pair("length", default=None, low=0, low_open=True),
+        "fan_diameter_bounds": pair("length", default=None, low=0, high=10, low_open=True),
         "max_fan_thickness_fraction": number(default=0.8, low=0, high=1, low_open=True),
     },
     "fan": {
         "model": choice("constant", "constant", "map"),
-        "min_pressure_rise": quantity("pressure", default=50.0, low=0, low_open=True),
-        "max_pressure_rise": quantity("pressure", default=30000.0, low=0, low_open=True),
+        # up to 1 MPa: ten atmospheres, beyond any fan or blower of a wing
+        "min_pressure_rise": quantity("pressure", default=50.0, low=0, high=1e6, low_open=True),
+        "max_pressure_rise": quantity("pressure", default=30000.0, low=0, high=1e6,
+                                      low_open=True),
         "compressible": Spec("bool", default=False),
-        "flow_coefficient_range": pair(default=None, low=0, low_open=True),
-        "max_speed": quantity("rotational_speed", default=None, low=0, low_open=True),
+        "flow_coefficient_range": pair(default=None, low=0, high=5, low_open=True),
+        "max_speed": quantity("rotational_speed", default=None, low=0, high=1e4,
+                              low_open=True),
         "points_file": Spec("str", default=None),
     },
     "airfoil": {
@@ -129,19 +132,19 @@ SETTINGS = {
         "tolerance": number(default=1e-9, low=0, high=1e-2, low_open=True),
     },
     "review": {
-        "samples": integer(2000, 10, 10_000_000),
+        "samples": integer(2000, 10, 200_000),
         "seed": integer(12345, 0, 2**63 - 1),
         "band": number(default=0.1, low=0, high=1, low_open=True),
         "fan_efficiencies": Spec("list", default=None, length=None),
     },
     "mass": {},
     "aircraft": {
-        "min_main_thrust": quantity("force", default=0.0, low=0),
+        "min_main_thrust": quantity("force", default=0.0, low=0, high=1e7),
     },
     "validity": {
-        "reynolds_range": pair(default=None, low=0, low_open=True),
-        "speed_range": pair("speed", default=None, low=0, low_open=True),
-        "lift_coefficient_range": pair(default=None),
+        "reynolds_range": pair(default=None, low=0, high=1e10, low_open=True),
+        "speed_range": pair("speed", default=None, low=0, high=400, low_open=True),
+        "lift_coefficient_range": pair(default=None, low=-1.0, high=10.0),
         "extrapolate": Spec("bool", default=False),
     },
 }

@@ -1,32 +1,167 @@
-"""What each command does: load the input, run the study, write the files, print, and return the
-exit code.
+"""What each command does: check the options and the output folder, load the input, run the study,
+write the files as a set, print, and return the exit code.
 
-The studies return data; every console line and exit code of the command line is here.
+The studies return data; every console line and exit code of the command line is here. Every
+command first checks its options and its ``--out`` folder (:class:`mdao.files.OutputSet`), so a
+bad option or folder is refused before any computation; it writes into the output set's staging
+folder and commits the set at the end.
 """
+import socket
 import sys
+import time
 from pathlib import Path
+from urllib.parse import urlsplit
 
 from mdao import CAUTION, __version__
 from mdao.case import CaseError
 from mdao.cli.progress import OptimizationCounter, StepDisplay
+from mdao.files import MESSAGE_LIMIT, OutputError, OutputSet, safe_text
 from mdao.studies.calibration.runs import CalibrationError
+from mdao.units import UnitError
 
-#: Exit codes: success (a converged optimum), bad input, the optimizer did not converge.
-EXIT_OK, EXIT_INPUT, EXIT_NOT_CONVERGED = 0, 2, 3
+#: Exit codes: success (a converged optimum), bad input, the optimizer did not converge, an
+#: internal error (a bug: one line, ``--debug`` shows the traceback), interrupted (Ctrl-C).
+EXIT_OK, EXIT_INPUT, EXIT_NOT_CONVERGED, EXIT_INTERNAL, EXIT_INTERRUPTED = 0, 2, 3, 4, 130
 
 #: Errors that mean bad input: a message naming the key or column, exit 2, no traceback.
-INPUT_ERRORS = (CaseError, CalibrationError)
+INPUT_ERRORS = (CaseError, CalibrationError, UnitError, OutputError)
+
+#: Seconds to wait for a ``--scheduler`` to accept a connection before refusing it.
+SCHEDULER_TIMEOUT = 3.0
+
+#: Longest report text printed on stdout (the summary tables) [characters].
+REPORT_LIMIT = 200_000
+
+#: The files each command can write in its output folder (shell patterns): files of these names
+#: that a run did not write are removed when it commits, so a folder never mixes two runs.
+OUTPUTS = {
+    "optimize": ("results.json",),
+    "evaluate": ("results.json",),
+    "calibrate": ("calibration.json", "calibration.toml", "duct_collapse.png",
+                  "drag_momentum.png", "residuals.png"),
+    "review": ("review.md", "review.json", "tornado.png", "net_power.png", "uncertainty.png",
+               "break_even_*.png", "duct.png"),
+    "many": ("many.json",),
+    "duct": ("transition.csv", "sections.csv", "duct.png"),
+}
 
 
 def run(args):
-    """Run the parsed command ``args.command``; returns the exit code."""
+    """Run the parsed command ``args.command``; returns the exit code.
+
+    Bad input (a case, a table, a unit, a path, an option, a value the model cannot evaluate)
+    prints one message of at most :data:`mdao.files.MESSAGE_LIMIT` characters, control
+    characters escaped, and returns 2; an unexpected exception prints one line and returns 4
+    (with ``args.debug`` it is raised, traceback and all).
+    """
+    debug = getattr(args, "debug", False)
     try:
         return COMMANDS[args.command](args)
+    except KeyboardInterrupt:
+        _error("interrupted; nothing new written")
+        return EXIT_INTERRUPTED
     except INPUT_ERRORS as exc:
-        print(f"blownwing: error: {exc}", file=sys.stderr)
+        _error(f"error: {exc}")
         return EXIT_INPUT
+    except Exception as exc:            # noqa: BLE001 - every other exception is sorted here
+        if debug:
+            raise
+        code, text = classify(exc)
+        _error(text)
+        return code
 
 
+def classify(exc):
+    """The exit code and message of an exception that is not one of :data:`INPUT_ERRORS`.
+
+    Returns
+    -------
+    (int, str)
+        2 for an unreadable or unwritable path (``OSError``), a file that is not UTF-8 text, a
+        number or nesting too large, or a value the model cannot evaluate (``ValueError``,
+        "model error"); 4 (internal error) for anything else.
+    """
+    if isinstance(exc, OSError):
+        name = exc.filename if exc.filename is not None else ""
+        reason = exc.strerror or str(exc) or type(exc).__name__
+        return EXIT_INPUT, (f"error: {safe_text(name, 300, False)}: {reason}" if name != ""
+                            else f"error: {reason}")
+    if isinstance(exc, UnicodeError):
+        return EXIT_INPUT, f"error: the input is not UTF-8 text ({exc})"
+    if isinstance(exc, RecursionError):
+        return EXIT_INPUT, "error: the input is nested too deeply to read"
+    if isinstance(exc, MemoryError):
+        return EXIT_INPUT, ("error: not enough memory for this input (fewer samples, segments "
+                            "or points)")
+    if isinstance(exc, OverflowError):
+        return EXIT_INPUT, f"error: a number is too large: {exc}"
+    if isinstance(exc, ValueError):
+        return EXIT_INPUT, (f"model error: {exc} (the model cannot evaluate this input; check the "
+                            "case's values)")
+    return EXIT_INTERNAL, (f"internal error (a bug, not your input): {type(exc).__name__}: "
+                           f"{safe_text(exc, 500, newlines=False)}; run again with --debug for "
+                           "the traceback and report it")
+
+
+def _error(text):
+    """``blownwing: TEXT`` on stderr, escaped and cut (:func:`mdao.files.safe_text`)."""
+    print("blownwing: " + safe_text(text, MESSAGE_LIMIT), file=sys.stderr, flush=True)
+
+
+def _say(text):
+    """A report on stdout, control characters escaped (titles and names come from the user)."""
+    print(safe_text(text, REPORT_LIMIT), flush=True)
+
+
+# --- options ------------------------------------------------------------------------------------
+def _at_least(option, value, low):
+    if value is not None and value < low:
+        raise CaseError(f"{option} {value}: a whole number >= {low} is needed")
+
+
+def check_scheduler(address, timeout=None):
+    """Refuse a ``--scheduler`` that is not ``tcp://host:port`` (or ``tls://``) or that does not
+    accept a connection within ``timeout`` seconds (raises :class:`mdao.case.CaseError`)."""
+    if address is None:
+        return
+    timeout = SCHEDULER_TIMEOUT if timeout is None else timeout
+    text = safe_text(address, 200, False)
+    parts = urlsplit(address if "://" in address else "tcp://" + address)
+    try:
+        port = parts.port
+    except ValueError:
+        port = None
+    if parts.scheme not in ("tcp", "tls") or not parts.hostname or port is None:
+        raise CaseError(f"--scheduler {text}: expected tcp://host:port")
+    start = time.monotonic()
+    try:
+        with socket.create_connection((parts.hostname, port), timeout=timeout) as sock:
+            if parts.scheme == "tcp":
+                # a Dask scheduler writes its handshake as soon as it accepts; a port that
+                # accepts and stays silent (a firewall, a proxy, another program) is refused
+                sock.settimeout(max(timeout - (time.monotonic() - start), 0.1))
+                if not sock.recv(1):
+                    raise ConnectionResetError(0, "closed without a handshake")
+    except (OSError, UnicodeError) as exc:
+        reason = "no handshake" if isinstance(exc, TimeoutError) else (
+            getattr(exc, "strerror", None) or str(exc) or type(exc).__name__)
+        raise CaseError(f"--scheduler {text}: no Dask scheduler answers there within "
+                        f"{timeout:g} s ({reason})") from None
+
+
+def _outputs(args):
+    """The command's checked output set (staging folder created), or None without ``--out``."""
+    if getattr(args, "out", None) is None:
+        return None
+    return OutputSet(args.out, OUTPUTS[args.command]).open()
+
+
+def _wrote(outputs, files):
+    for f in files:
+        _say(f"wrote {outputs.final(f) if outputs.path in Path(f).parents else f}")
+
+
+# --- commands -----------------------------------------------------------------------------------
 def _optimize(args, optimized=True):
     """``blownwing optimize|evaluate CASE [--out DIR]``."""
     from mdao.case import load_case
@@ -34,22 +169,29 @@ def _optimize(args, optimized=True):
     from mdao.optimum import evaluate_start_point, optimize
     from mdao.report.console import summary
 
-    case = load_case(args.case)
-    outcome = optimize(case) if optimized else evaluate_start_point(case)
-    if optimized and not outcome.converged:
-        print(f"blownwing: {case.title}\nNOT CONVERGED: {outcome.message} after "
-              f"{outcome.iterations} iterations ({outcome.model_evaluations} model evaluations). "
-              "No optimum is reported; check the bounds, the start point "
-              "([[segment]] momentum_coefficient) or [optimize] max_iterations.", file=sys.stderr)
-        if args.out:
-            write_json(Path(args.out) / "results.json", outcome.to_json())
-        return EXIT_NOT_CONVERGED
-    print(summary(outcome, case, optimized=optimized))
-    if args.out:
-        data = outcome.to_json()
-        data.update(case=str(args.case), title=case.title, version=__version__, caution=CAUTION)
-        write_json(Path(args.out) / "results.json", data)
-        print(f"wrote {Path(args.out) / 'results.json'}")
+    outputs = _outputs(args)
+    with outputs or _Nothing():
+        case = load_case(args.case)
+        outcome = optimize(case) if optimized else evaluate_start_point(case)
+        if optimized and not outcome.converged:
+            _error(f"{safe_text(case.title, 300, False)}\nNOT CONVERGED: {outcome.message} after "
+                   f"{outcome.iterations} iterations ({outcome.model_evaluations} model "
+                   "evaluations). No optimum is reported; check the bounds, the start point "
+                   "([[segment]] momentum_coefficient) or [optimize] max_iterations.")
+            if outputs:
+                write_json(outputs.path / "results.json", outcome.to_json())
+                outputs.commit()
+            return EXIT_NOT_CONVERGED
+        text = summary(outcome, case, optimized=optimized)
+        if outputs:
+            data = outcome.to_json()
+            data.update(case=str(args.case), title=case.title, version=__version__,
+                        caution=CAUTION)
+            write_json(outputs.path / "results.json", data)
+            outputs.commit()
+        _say(text)
+        if outputs:
+            _say(f"wrote {outputs.shown / 'results.json'}")
     return EXIT_OK
 
 
@@ -58,10 +200,13 @@ def _calibrate(args):
     from mdao.report.calibration import format_summary
     from mdao.studies.calibration import calibrate_file
 
-    result = calibrate_file(args.runs, args.out, plots=not args.no_plots,
-                            lift_bands=args.lift_bands)
-    print(format_summary(result))
-    print(f"wrote {Path(args.out) / 'calibration.json'} and {Path(args.out) / 'calibration.toml'}")
+    with _outputs(args) as outputs:
+        result = calibrate_file(args.runs, outputs.path, plots=not args.no_plots,
+                                lift_bands=args.lift_bands, named_in=outputs.shown)
+        outputs.commit()
+    _say(format_summary(result))
+    _say(f"wrote {outputs.shown / 'calibration.json'} and "
+         f"{outputs.shown / 'calibration.toml'}")
     return EXIT_OK
 
 
@@ -76,26 +221,28 @@ def _review(args):
     from mdao.report.review import review_summary, write_review, write_review_failure
     from mdao.studies.review import run_review
 
-    case = load_case(args.case)
-    if args.samples is not None and args.samples < 10:
-        raise CaseError(f"--samples = {args.samples!r}: at least 10 are needed")
-    steps = StepDisplay("review")
-    data = run_review(case, samples=args.samples, optimum_per_sample=args.optimum_per_sample,
-                      scheduler=args.scheduler, workers=args.workers, progress=steps)
-    out = Path(args.out)
-    if not data["converged"]:
-        o = data["optimum"]
-        print(f"blownwing: {case.title}\nNOT CONVERGED: {o['message']} after {o['iterations']} "
-              "iterations. No review is written as an optimum; check the bounds, the start point "
-              "or [optimize] max_iterations.", file=sys.stderr)
-        write_review_failure(data, out)
-        return EXIT_NOT_CONVERGED
-    steps("writing the report", 0, 1)
-    files = write_review(data, out, plots=not args.no_plots)
-    steps("writing the report", 1, 1)
-    print(review_summary(data))
-    for f in files:
-        print(f"wrote {f}")
+    _at_least("--samples", args.samples, 10)
+    _at_least("--workers", args.workers, 1)
+    check_scheduler(args.scheduler)
+    with _outputs(args) as outputs:
+        case = load_case(args.case)
+        steps = StepDisplay("review")
+        data = run_review(case, samples=args.samples, optimum_per_sample=args.optimum_per_sample,
+                          scheduler=args.scheduler, workers=args.workers, progress=steps)
+        if not data["converged"]:
+            o = data["optimum"]
+            _error(f"{safe_text(case.title, 300, False)}\nNOT CONVERGED: {o['message']} after "
+                   f"{o['iterations']} iterations. No review is written as an optimum; check the "
+                   "bounds, the start point or [optimize] max_iterations.")
+            write_review_failure(data, outputs.path)
+            outputs.commit()
+            return EXIT_NOT_CONVERGED
+        steps("writing the report", 0, 1)
+        files = write_review(data, outputs.path, plots=not args.no_plots)
+        outputs.commit()
+        steps("writing the report", 1, 1)
+    _say(review_summary(data))
+    _wrote(outputs, files)
     print(CAUTION)
     return EXIT_OK
 
@@ -111,15 +258,20 @@ def _many(args):
     from mdao.report.console import many_summary
     from mdao.studies.scaleout import run_many
 
-    case = load_case(args.case)
-    data = run_many(case, args.kind, samples=args.samples, seed=args.seed,
-                    scheduler=args.scheduler, workers=args.workers,
-                    progress=OptimizationCounter())
-    data["case"] = str(args.case)
-    path = Path(args.out) / "many.json"
-    write_json(path, data)
-    print(many_summary(data))
-    print(f"wrote {path}")
+    _at_least("--samples", args.samples, 1)
+    _at_least("--seed", args.seed, 0)
+    _at_least("--workers", args.workers, 1)
+    check_scheduler(args.scheduler)
+    with _outputs(args) as outputs:
+        case = load_case(args.case)
+        data = run_many(case, args.kind, samples=args.samples, seed=args.seed,
+                        scheduler=args.scheduler, workers=args.workers,
+                        progress=OptimizationCounter())
+        data["case"] = str(args.case)
+        write_json(outputs.path / "many.json", data)
+        outputs.commit()
+    _say(many_summary(data))
+    _say(f"wrote {outputs.shown / 'many.json'}")
     return EXIT_OK if data["summary"]["converged"] else EXIT_NOT_CONVERGED
 
 
@@ -133,38 +285,49 @@ def _duct(args):
     from mdao.case import load_case
     from mdao.studies.duct_export import duct_export, write_duct_files
 
-    case = load_case(args.case)
-    if case.duct["model"] != "geometric":
-        raise CaseError(f"duct.model = {case.duct['model']!r}: the duct command needs "
-                        "duct.model = \"geometric\" (the lumped duct has no geometry)")
-    export = duct_export(case, start=args.start)
-    if not export.converged:
-        o = export.outcome
-        print(f"blownwing: {case.title}\nNOT CONVERGED: {export.message} after {o.iterations} "
-              "iterations. No duct is written for a design that is not an optimum; check the "
-              "case, or export the start point with --start.", file=sys.stderr)
-        return EXIT_NOT_CONVERGED
-    data = export.data
-    files = write_duct_files(case, data, args.out, plots=not args.no_plots)
+    with _outputs(args) as outputs:
+        case = load_case(args.case)
+        if case.duct["model"] != "geometric":
+            raise CaseError(f"duct.model = {case.duct['model']!r}: the duct command needs "
+                            "duct.model = \"geometric\" (the lumped duct has no geometry)")
+        export = duct_export(case, start=args.start)
+        if not export.converged:
+            o = export.outcome
+            _error(f"{safe_text(case.title, 300, False)}\nNOT CONVERGED: {export.message} after "
+                   f"{o.iterations} iterations. No duct is written for a design that is not an "
+                   "optimum; check the case, or export the start point with --start.")
+            return EXIT_NOT_CONVERGED
+        data = export.data
+        files = write_duct_files(case, data, outputs.path, plots=not args.no_plots)
+        outputs.commit()
     span = max(data["span_wall_half_angle_deg"])
     thickness = max(data["thickness_wall_half_angle_deg"])
-    print(f"blownwing {__version__}: {case.title}\n"
-          f"transition duct at the {data['source']} (slot ratio {data['slot_ratio']:.5g}), one of "
-          f"{data['fans']} alike: fan circle {data['fan_diameter_m'] * 1e3:.4g} mm to a "
-          f"{data['slot_width_m'] * 1e3:.4g} x {data['slot_height_m'] * 1e3:.4g} mm slot over "
-          f"{data['length_m'] * 1e3:.4g} mm\n"
-          f"steepest walls: span {span:.2f} deg, thickness {thickness:.2f} deg (limit "
-          f"{data['max_wall_half_angle_deg']:.3g} deg, + diverging); equivalent cone "
-          f"{max(data['diffusion_half_angle_deg']):.2f} deg (limit "
-          f"{data['max_diffusion_half_angle_deg']:.3g} deg)"
-          + ("" if data["within_limits"] else "\nWARNING: the duct breaks a wall or diffusion "
-             "limit at this design"))
+    _say(f"blownwing {__version__}: {safe_text(case.title, 300, False)}\n"
+         f"transition duct at the {data['source']} (slot ratio {data['slot_ratio']:.5g}), one of "
+         f"{data['fans']} alike: fan circle {data['fan_diameter_m'] * 1e3:.4g} mm to a "
+         f"{data['slot_width_m'] * 1e3:.4g} x {data['slot_height_m'] * 1e3:.4g} mm slot over "
+         f"{data['length_m'] * 1e3:.4g} mm\n"
+         f"steepest walls: span {span:.2f} deg, thickness {thickness:.2f} deg (limit "
+         f"{data['max_wall_half_angle_deg']:.3g} deg, + diverging); equivalent cone "
+         f"{max(data['diffusion_half_angle_deg']):.2f} deg (limit "
+         f"{data['max_diffusion_half_angle_deg']:.3g} deg)"
+         + ("" if data["within_limits"] else "\nWARNING: the duct breaks a wall or diffusion "
+            "limit at this design"))
     if not args.no_plots and len(files) < 3:
         print("note: matplotlib is not installed: no duct.png (pip install matplotlib)")
-    for f in files:
-        print(f"wrote {f}")
+    _wrote(outputs, files)
     print(CAUTION)
     return EXIT_OK
+
+
+class _Nothing:
+    """A ``with`` block that does nothing (a command run without ``--out``)."""
+
+    def __enter__(self):
+        return None
+
+    def __exit__(self, *exc):
+        return False
 
 
 COMMANDS = {"optimize": _optimize, "evaluate": lambda a: _optimize(a, optimized=False),

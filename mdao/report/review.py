@@ -9,7 +9,7 @@ from pathlib import Path
 
 import numpy as np
 
-from mdao.files import write_atomic, write_json
+from mdao.files import safe_text, write_atomic, write_json
 from mdao.parameters import parameter
 
 KWH = 3.6e6
@@ -72,7 +72,7 @@ def review_summary(data):
     e = data["optimum"]["mission_energy_saving_J"]
     u = data["uncertainty"]
     return "\n".join([
-        f"blownwing {data['version']}: {data['case']['title']}",
+        f"blownwing {data['version']}: {safe_text(data['case']['title'], 300, False)}",
         f"optimum mission energy saved: {e / KWH:.4f} kWh; probability of saving "
         f"{u['probability_of_saving']:.3f} over {u['samples']} samples; dominant input "
         f"{u['dominant_input']}"])
@@ -87,10 +87,10 @@ def review_markdown(data, figures=(), note=None):
     """The review.md text."""
     c, o, u = data["case"], data["optimum"], data["uncertainty"]
     e = o["mission_energy_saving_J"]
-    lines = [f"# Design review: {c['title']}", "",
+    lines = [f"# Design review: {_md(c['title'])}", "",
              f"> {data['caution']}", "",
              f"- Tool: blownwing {data['version']}",
-             f"- Case: `{c['path']}`, sha256 `{c['sha256']}`",
+             f"- Case: `{_md(c['path'])}`, sha256 `{c['sha256']}`",
              f"- Optimizer: {o['message']} ({o['iterations']} iterations)", ""]
     for text in o.get("extrapolation", []):
         lines += [f"> **WARNING: extrapolated.** {text}", ""]
@@ -111,7 +111,8 @@ def review_markdown(data, figures=(), note=None):
     for s in o["segments"]:
         on = s["blowing"]
         lines.append(
-            f"| {s['name']} | {'yes' if on else 'no'} | {_g(s['momentum_coefficient'] if on else None)} "
+            f"| {_md(s['name'])} | {'yes' if on else 'no'} "
+            f"| {_g(s['momentum_coefficient'] if on else None)} "
             f"| {_g(s['fan_pressure_rise_Pa'] if on else None, '.0f')} "
             f"| {_g(s['jet_velocity_m_s'] if on else None, '.1f')} "
             f"| {_g(s['jet_mach'] if on else None, '.3f')} | {_g(s['fan_efficiency'], '.3f')} "
@@ -129,11 +130,12 @@ def review_markdown(data, figures=(), note=None):
     if note:
         lines += [f"*Note: {note}.*", ""]
     lines += ["## Case (SI units)", "", "| key | value | unit |", "|---|---|---|"]
-    lines += [f"| {r['key']} | {_echo_value(r['value'])} | {r['unit']} |" for r in c["echo"]]
+    lines += [f"| {_md(r['key'])} | {_md(_echo_value(r['value']), 2000)} | {_md(r['unit'])} |"
+              for r in c["echo"]]
     lines += ["", "## Timings", "",
               ", ".join(f"{k.replace('_', ' ')} {v:.2f} s" for k, v in data["timings_s"].items()),
               "", f"> {data['caution']}", ""]
-    return "\n".join(lines)
+    return safe_text("\n".join(lines), 10_000_000)   # no control character from any source
 
 
 def _hardware_md(o):
@@ -312,23 +314,37 @@ def write_figures(data, out_dir):
 
     out_dir = Path(out_dir)
     files = []
+
+    def save(fig, name):   # atomically: a killed run never leaves a 0-byte or partial PNG
+        try:
+            write_atomic(out_dir / name, lambda handle: fig.savefig(handle, format="png", dpi=110))
+        finally:
+            plt.close(fig)
+        files.append(out_dir / name)
+
     for name, draw in (("tornado.png", _fig_tornado), ("net_power.png", _fig_sweep),
                        ("uncertainty.png", _fig_uncertainty)):
         fig = draw(plt, data)
         if fig is not None:
-            fig.savefig(out_dir / name, dpi=110)
-            plt.close(fig)
-            files.append(out_dir / name)
+            save(fig, name)
     for i, m in enumerate(data["sweeps"]["break_even_maps"]):
-        fig = _fig_map(plt, data, m)
-        fig.savefig(out_dir / f"break_even_{i + 1}.png", dpi=110)
-        plt.close(fig)
-        files.append(out_dir / f"break_even_{i + 1}.png")
+        save(_fig_map(plt, data, m), f"break_even_{i + 1}.png")
     if data.get("duct"):
         from mdao.studies.duct_export import draw_duct
 
         files.append(draw_duct(data["duct"], out_dir / "duct.png", title=data["case"]["title"]))
     return files
+
+
+def _label(text):
+    """User text (a title, a segment name) for a figure: one line, control characters escaped,
+    dollar signs literal (not matplotlib mathtext)."""
+    return safe_text(text, 120, newlines=False).replace("$", r"\$")
+
+
+def _md(text, limit=300):
+    """User text for review.md: one line, control characters escaped, table bars escaped."""
+    return safe_text(text, limit, newlines=False).replace("|", "\\|")
 
 
 def _fig_tornado(plt, data):
@@ -381,7 +397,7 @@ def _fig_sweep(plt, data):
                 mec="k", label="optimum", zorder=5)
         ax.axhline(0.0, color="k", lw=0.8)
         ax.set_xlabel("momentum coefficient C_mu [-]")
-        ax.set_title(f"{names[i]}")
+        ax.set_title(_label(names[i]))
         ax.grid(alpha=0.3)
     axes[0][0].set_ylabel("net power saved [kW]")
     axes[0][-1].legend(title=sw["efficiency_key"], fontsize=7, title_fontsize=7)
@@ -407,7 +423,7 @@ def _fig_map(plt, data, m):
             ax.clabel(line, fmt={own: f"case fan {own:.2f}"}, fontsize=7)
         ax.plot(*m["case_point"], "o", ms=9, color="w", mec="k", label="design point",
                 clip_on=False, zorder=5)
-        ax.set_title(segs[i]["name"])
+        ax.set_title(_label(segs[i]["name"]))
     axes[0][0].legend(fontsize=7, loc="upper right")
     axes[0][0].set_ylabel(_axis_label(m["y_key"]))
     fig.supxlabel(_axis_label(m["x_key"]), fontsize=10)

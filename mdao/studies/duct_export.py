@@ -17,7 +17,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from mdao import CAUTION, __version__
-from mdao.files import write_atomic
+from mdao.files import safe_text, write_atomic
 from mdao.physics import chain
 from mdao.system import chain_options, chain_parameters, design_point
 
@@ -246,7 +246,8 @@ def section_loops(semi_span, semi_thickness, exponent, quadrant_points=SECTION_Q
 
 # --- files --------------------------------------------------------------------------------------
 def _header(case, data, what):
-    return [f"# blownwing {__version__}: {what} of the transition duct, {case.title}",
+    title = safe_text(case.title, 300, newlines=False)     # one comment line, whatever it holds
+    return [f"# blownwing {__version__}: {what} of the transition duct, {title}",
             f"# at the {data['source']} (slot ratio {data['slot_ratio']:.6g}); ONE of the "
             f"{data['fans']} identical ducts (one per fan): fan circle "
             f"{data['fan_diameter_m'] * 1e3:.4g} mm to a slot of {data['slot_width_m'] * 1e3:.4g}"
@@ -370,6 +371,7 @@ def draw_duct(data, path, title=None):
     ax.set_ylabel("half-angle [deg] (+ diverging)")
     ax.set_title("wall half-angles between stations")
     ax.legend(fontsize=8)
+    title = safe_text(title, 120, newlines=False).replace("$", r"\$") if title else ""
     fig.suptitle(f"{title + ': ' if title else ''}one of {data['fans']} transition ducts at the "
                  f"{data['source']} (slot ratio {data['slot_ratio']:.4g})", fontsize=10)
     fig.tight_layout()

@@ -13,7 +13,10 @@ from mdao.files import write_atomic
 from mdao.studies.calibration.fitting import OUTLIER_LIMIT
 from mdao.studies.calibration.runs import derived
 
-__all__ = ["write_plots"]
+__all__ = ["PLOTS", "write_plots"]
+
+#: The figures, in the order written.
+PLOTS = ("duct_collapse.png", "drag_momentum.png", "residuals.png")
 
 
 def write_plots(runs, result, out_dir):

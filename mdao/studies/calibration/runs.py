@@ -74,6 +74,14 @@ COLUMNS = {
 _ALWAYS = ("speed", "chord", "span", "slot_height", "fan_pressure_rise", "drag_coefficient")
 _POSITIVE = ("speed", "density", "chord", "span", "slot_height")
 _NON_NEGATIVE = ("mass_flow", "volume_flow")
+#: Largest magnitude of each column [SI] that any wind-tunnel or CFD run of a wing section could
+#: have (beyond it a value is a typing or unit slip, and one such value can make a fit
+#: non-finite): speeds up to 400 m/s (the case's limit), chord and span up to 100 m, densities up
+#: to 100 kg/m^3 (a pressurized tunnel runs at a few), pressure rises up to 1 MPa, flows up to
+#: 1e4 kg/s or m^3/s, force coefficients up to 100 in magnitude.
+LIMITS = {"speed": 400.0, "density": 100.0, "chord": 100.0, "span": 100.0, "slot_height": 10.0,
+          "fan_pressure_rise": 1e6, "mass_flow": 1e4, "volume_flow": 1e4,
+          "drag_coefficient": 100.0, "drag_coefficient_clean": 100.0, "lift_coefficient": 100.0}
 
 
 def fit_plan(runs):
@@ -163,11 +171,25 @@ def check_runs(runs):
             if bad.size:
                 raise CalibrationError(f"row {bad[0] + 1}, column '{name}': {out[name][bad[0]]:g} "
                                        f"{COLUMNS[name][0]}; must be >= 0 (0 = jet off)")
+    for name, limit in LIMITS.items():
+        if name in out:
+            bad = np.flatnonzero(np.abs(out[name]) > limit)
+            if bad.size:
+                raise CalibrationError(
+                    f"row {bad[0] + 1}, column '{name}': {out[name][bad[0]]:g} "
+                    f"{COLUMNS[name][0] or '[-]'} is out of range: allowed magnitudes up to "
+                    f"{limit:g} {COLUMNS[name][0] or '[-]'} ({COLUMNS[name][2]})")
     if "altitude" in out:
         bad = np.flatnonzero((out["altitude"] < 0) | (out["altitude"] > 20000))
         if bad.size:
             raise CalibrationError(f"row {bad[0] + 1}, column 'altitude': {out['altitude'][bad[0]]:g}"
                                    " m; the ISA is used from 0 to 20 000 m")
+    variables = derived(out)
+    for name in ("momentum_coefficient", "reynolds", "jet_velocity", "air_power"):
+        bad = np.flatnonzero(~np.isfinite(variables[name]))
+        if bad.size:
+            raise CalibrationError(f"row {bad[0] + 1}: the derived {name.replace('_', ' ')} is "
+                                   "not finite; check the row's values and units")
     plan = fit_plan(out)
     for fit in ("duct", "drag", "lift"):
         if fit in plan:
