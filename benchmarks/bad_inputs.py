@@ -89,7 +89,7 @@ def to_toml(data):
 
 
 # --- generators ------------------------------------------------------------------------------------
-def _paths(data):
+def paths(data):
     """Every (table, key) and (segment index, key) of a case dict."""
     out = []
     for table, value in data.items():
@@ -108,13 +108,13 @@ def case_inputs(rng, count):
         base = copy.deepcopy(rng.choice(bases))
         kind = rng.random()
         if kind < 0.62:      # a value replaced
-            table, key = rng.choice(_paths(base))
+            table, key = rng.choice(paths(base))
             value = rng.choice(BAD_VALUES)
             target = base["segment"][table[1]] if isinstance(table, tuple) else base[table]
             target[key] = value
             out.append((f"{table}.{key} = {str(value)[:30]!r}", to_toml(base).encode()))
         elif kind < 0.72:    # a key removed, or an unknown one added
-            table, key = rng.choice(_paths(base))
+            table, key = rng.choice(paths(base))
             target = base["segment"][table[1]] if isinstance(table, tuple) else base[table]
             if rng.random() < 0.5:
                 del target[key]

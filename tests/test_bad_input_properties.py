@@ -26,7 +26,7 @@ from mdao.cli import main
 
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT / "benchmarks"))
-from bad_inputs import BAD_CELLS, BAD_NAMES, BAD_VALUES, to_toml  # noqa: E402
+from bad_inputs import BAD_CELLS, BAD_NAMES, BAD_VALUES, paths, to_toml  # noqa: E402
 
 BASES = {p.name: tomllib.loads(p.read_text()) for p in sorted((ROOT / "cases").glob("*.toml"))}
 RUN_LINES = (ROOT / "cases" / "data" / "demo_runs.csv").read_text().splitlines()
@@ -40,23 +40,13 @@ values = st.one_of(scalars, st.lists(scalars, max_size=4),
                    st.dictionaries(st.text(max_size=8), scalars, max_size=3))
 
 
-def _paths(data):
-    out = []
-    for table, value in data.items():
-        if isinstance(value, dict):
-            out += [(table, k) for k in value]
-        elif table == "segment":
-            out += [(("segment", i), k) for i, s in enumerate(value) for k in s]
-    return out
-
-
 @st.composite
 def changed_cases(draw):
     """A bundled case with one to three values replaced (or removed)."""
     name = draw(st.sampled_from(sorted(BASES)))
     data = copy.deepcopy(BASES[name])
     for _ in range(draw(st.integers(1, 3))):
-        table, key = draw(st.sampled_from(_paths(data)))
+        table, key = draw(st.sampled_from(paths(data)))
         target = data["segment"][table[1]] if isinstance(table, tuple) else data[table]
         if key not in target:
             continue

@@ -343,34 +343,8 @@ def _plausibility(constants, ratio_range):
 
 
 def _calibrate_all(runs):
-    """Fit the reduced-order constants to a table of runs (one value per constant).
-
-    Parameters
-    ----------
-    runs : dict of str to array_like
-        Columns in SI (see :data:`mdao.studies.calibration.runs.COLUMNS`), e.g. from
-        :func:`~mdao.studies.calibration.runs.read_runs`.
-
-    Returns
-    -------
-    dict
-        JSON-ready: ``constants`` (case key path -> ``value``, ``stderr``, ``ci95``),
-        ``covariance`` (``parameters``, ``matrix``; zero between separate fits), ``fits``
-        (``duct``, ``drag``, ``lift``), ``validity`` (ranges over all runs), ``warnings`` (the
-        plausibility warnings), ``notes``, ``energy_balance`` (the runs and the fitted model
-        against the first law, :func:`mdao.studies.calibration.energy.energy_balance`; its
-        ``warnings`` are listed there, not among the plausibility warnings), ``caution``.
-
-    Raises
-    ------
-    CalibrationError
-        Unusable runs, or a constant the runs cannot identify (the message names the column
-        that must vary).
-
-    Warns
-    -----
-    CalibrationWarning
-        A constant far from the usual values (see :data:`PLAUSIBLE`).
+    """Fit the reduced-order constants to a table of runs, one value per constant: the result of
+    :func:`calibrate` without lift bands (its parameters, return value, errors and warnings).
     """
     runs = check_runs(runs)
     plan = fit_plan(runs)
