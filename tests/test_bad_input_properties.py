@@ -68,7 +68,8 @@ def _no_surrogates(data):
         return False
 
 
-@settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@settings(max_examples=150, deadline=None, derandomize=True,
+          suppress_health_check=[HealthCheck.too_slow])
 @given(data=changed_cases())
 def test_any_changed_case_reads_or_is_refused(data):
     """parse_case on the changed dict, and load_case on its TOML text: a case, or CaseError."""
@@ -79,7 +80,8 @@ def test_any_changed_case_reads_or_is_refused(data):
         assert len(str(exc)) <= 4000
 
 
-@settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@settings(max_examples=60, deadline=None, derandomize=True,
+          suppress_health_check=[HealthCheck.too_slow])
 @given(data=changed_cases(), damage=st.integers(0, 3), draw=st.data())
 def test_any_case_file_bytes_read_or_are_refused(tmp_path_factory, data, damage, draw):
     if not _no_surrogates(data):
@@ -115,7 +117,8 @@ def changed_run_tables(draw):
     return "\n".join(lines) + "\n"
 
 
-@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@settings(max_examples=40, deadline=None, derandomize=True,
+          suppress_health_check=[HealthCheck.too_slow])
 @given(text=changed_run_tables())
 def test_any_changed_run_table_fits_or_is_refused(tmp_path_factory, text):
     """read_runs and calibrate: a result with finite constants, or CalibrationError."""
@@ -134,7 +137,7 @@ def test_any_changed_run_table_fits_or_is_refused(tmp_path_factory, text):
         assert math.isfinite(entry["value"]), key
 
 
-@settings(max_examples=10, deadline=None,
+@settings(max_examples=10, deadline=None, derandomize=True,
           suppress_health_check=[HealthCheck.too_slow, HealthCheck.function_scoped_fixture])
 @given(data=changed_cases())
 def test_any_changed_case_through_the_command_line(tmp_path, capsys, data):

@@ -235,3 +235,18 @@ def test_bad_fragments_name_the_key(tmp_path, old, new, needle):
         load_fragment(path)
     assert needle in str(info.value) and "calibration.toml" in str(info.value)
     assert len(str(info.value)) < SHORT
+
+
+def test_run_with_a_slot_ratio_beyond_the_model_is_refused(tmp_path):
+    """A vanishing chord (8.4e-301 m, found by the property tests) made the slot ratio 2e297
+    and the least-squares matrix non-finite (a traceback from SciPy): refused by row, naming
+    the derived slot ratio and the model's limit."""
+    from mdao.studies.calibration import CalibrationError, calibrate, read_runs
+    lines = (ROOT / "cases" / "data" / "demo_runs.csv").read_text().splitlines()
+    cells = lines[1].split(",")
+    cells[2] = "8.422239791185802e-301"
+    lines[1] = ",".join(cells)
+    path = tmp_path / "runs.csv"
+    path.write_text("\n".join(lines) + "\n")
+    with pytest.raises(CalibrationError, match=r"row 1: the derived slot ratio .* model's 0.2"):
+        calibrate(read_runs(path))

@@ -84,6 +84,13 @@ LIMITS = {"speed": 400.0, "density": 100.0, "chord": 100.0, "span": 100.0, "slot
           "drag_coefficient": 100.0, "drag_coefficient_clean": 100.0, "lift_coefficient": 100.0}
 
 
+def _model_high(key):
+    """The upper end of a model quantity's allowed range (the declarations and the case
+    schema), for run tables."""
+    from mdao.case.schema import spec_of
+    return spec_of(key).high
+
+
 def fit_plan(runs):
     """Which fits the runs allow and how many constants each has.
 
@@ -190,6 +197,17 @@ def check_runs(runs):
         if bad.size:
             raise CalibrationError(f"row {bad[0] + 1}: the derived {name.replace('_', ' ')} is "
                                    "not finite; check the row's values and units")
+    # the model's own ranges (mdao.parameters): a slot ratio or momentum coefficient outside
+    # them would be fitted as if the model held there (and, far outside, overflow the fits)
+    for name, key in (("slot_ratio", "slot.ratio"),
+                      ("momentum_coefficient", "airfoil.momentum_coefficient_range")):
+        high = _model_high(key)
+        bad = np.flatnonzero(variables[name] > high)
+        if bad.size:
+            raise CalibrationError(
+                f"row {bad[0] + 1}: the derived {name.replace('_', ' ')} "
+                f"{variables[name][bad[0]]:.4g} is above the model's {high:g} (from "
+                "slot_height over chord, and the flow); check the row's values and units")
     plan = fit_plan(out)
     for fit in ("duct", "drag", "lift"):
         if fit in plan:
