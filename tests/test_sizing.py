@@ -160,3 +160,17 @@ def test_fused_partials_with_sizing_and_high_lift(duct_model):
 def test_per_discipline_group_refuses_what_it_does_not_wire(cases_dir):
     with pytest.raises(ValueError, match="high-lift segments"):
         build_problem(load_case(cases_dir / "island-shuttle.toml"), fused=False)
+
+
+def test_unsized_case_reports_the_rating_and_mass_by_hand(cases_dir):
+    """Without [mass] the rating is power_margin x the largest shaft power and the mass that
+    of the mass model with the default constants, by hand: k (P (1/p_fan + 1/p_motor) +
+    sigma r_wet c b) (mdao/physics/mass.py; the defaults of mdao.parameters)."""
+    case = load_case(cases_dir / "survey-drone.toml")
+    out = optimize(case)
+    hw = out.to_json()
+    shaft = max(s["fan_shaft_power_W"] for s in out.segments)
+    assert hw["sized"] is False
+    assert hw["fan_rated_shaft_power_W"] == pytest.approx(1.25 * shaft, rel=1e-12)
+    by_hand = 1.2 * (1.25 * shaft * (1 / 2500 + 1 / 5000) + 1.2 * 1.5 * 0.42 * 3.2)
+    assert hw["blowing_system_mass_kg"] == pytest.approx(by_hand, rel=1e-12)

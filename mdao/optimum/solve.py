@@ -13,8 +13,11 @@ import numpy as np
 from mdao import constraints
 from mdao.optimum.breakeven import break_even_efficiency
 from mdao.case.loading import lift_tables, segment_reynolds
+from mdao.components.mass import mass_values
+from mdao.physics import chain
 from mdao.physics.lift_table import interpolate
-from mdao.system import build_problem, design_point, start_point
+from mdao.system import (build_problem, chain_options, chain_parameters, design_point,
+                         start_point)
 
 
 @dataclass
@@ -232,8 +235,6 @@ def hardware(case, vals):
     tie within :data:`SIZING_TIE`, a high-lift segment, whose momentum coefficient the lift
     fixes, before one the rating caps), the installed mass [kg] (:mod:`mdao.physics.mass`)
     and the fan diameter [m] (None for a lumped duct with a constant-efficiency fan)."""
-    from mdao.physics import chain, mass
-
     shaft = np.where(case.blowing, vals["fan_shaft_power"], -np.inf)
     top = shaft.max()
     tied = np.flatnonzero(shaft >= top * (1 - SIZING_TIE))
@@ -244,18 +245,9 @@ def hardware(case, vals):
         rated, system = float(vals["rated_shaft_power"]), float(vals["blowing_system_mass"])
     else:
         rated = float(margin * top)
-        p = dict(case.mass)
-        rotating = mass.rotating_mass(rated, p["fan_specific_power"], p["motor_specific_power"])
-        if case.duct["model"] == "lumped":
-            wetted = mass.lumped_wetted_area(case.wing["chord"], case.wing["blown_span"],
-                                             p["duct_wetted_ratio"])
-        else:
-            from mdao.system import chain_options, chain_parameters
-            st = chain.duct_stations(chain_parameters(case, **design_point(vals)),
-                                     chain_options(case))
-            wetted = mass.transition_wetted_area(st.position, st.perimeter, case.duct["fans"])
-        system = float(mass.blowing_system_mass(rotating, wetted, p["duct_areal_density"],
-                                                p["installation_factor"]))
+        system = chain.system_mass(dict(chain_parameters(case, **design_point(vals)),
+                                        rated_shaft_power=rated, **mass_values(case)),
+                                   chain_options(case))
     diameter = vals.get("fan_diameter", case.duct.get("fan_diameter"))
     return {"fan_rated_shaft_power_W": rated, "sizing_segment": sizing,
             "blowing_system_mass_kg": system, "sized": bool(case.sizes_fan),

@@ -412,6 +412,13 @@ def _system_mass(p, options, out, tan):
     return value
 
 
+def system_mass(params, options=ChainOptions()):
+    """The blowing system's installed mass [kg] for ``params`` (the chain's parameters with
+    ``rated_shaft_power`` [W] and the ``[mass]`` constants): fans and motors from the rating,
+    ducts from their wetted area (:mod:`mdao.physics.mass`), as the sized fan flies it."""
+    return float(_system_mass(with_defaults(params, options), options, {}, None)[0])
+
+
 def _sized_flight(p, options, js, clean, out, tan):
     """With the blowing system's mass: the flight condition the aircraft flies (returned; its
     lift coefficient into ``out``, read by the lift tables and the high-lift requirement), and
