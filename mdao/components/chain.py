@@ -155,6 +155,9 @@ class ChainComp(om.ExplicitComponent):
             for name, (field, _) in STATION_OUTPUTS.items():
                 for wrt in st_tan[field]:
                     self._declare(name, wrt, self.options["stations"])
+        # the outputs whose partials compute_partials reads (the rest are not computed)
+        self._chain_wanted = ({of for of, _ in self._chain_pairs}
+                              | set(self._mission_totals().values()))
         self._chain_totals = {
             total: [wrt for wrt in partials[of] if wrt in self._chain_probe]
             for total, of in self._mission_totals().items()}
@@ -185,7 +188,7 @@ class ChainComp(om.ExplicitComponent):
 
     def compute_partials(self, inputs, partials):
         _, d = chain.evaluate(self._params(inputs), self._chain_opts, blowing=self._chain_blowing,
-                              derivatives=True)
+                              derivatives=True, outputs=self._chain_wanted)
         for of, wrt in self._chain_pairs:
             partials[of, wrt] = d[of][wrt].ravel()
         if self._chain_stations:

@@ -89,7 +89,7 @@ def with_defaults(params, options=ChainOptions()):
     return p
 
 
-def evaluate(params, options=ChainOptions(), blowing=True, derivatives=False):
+def evaluate(params, options=ChainOptions(), blowing=True, derivatives=False, outputs=None):
     """Evaluate the chain at broadcast operating points, optionally with partial derivatives.
 
     Parameters
@@ -120,6 +120,8 @@ def evaluate(params, options=ChainOptions(), blowing=True, derivatives=False):
         ``y[i]`` sees; a wing-level scalar input thus gives one column). The tangent with respect
         to ``pressure_coefficients`` has a last axis of length 3 (c0, c1, c2). Only pairs that
         are structurally non-zero appear.
+    outputs : collection of str, optional
+        With ``derivatives``: the outputs whose partials are wanted (default every one).
 
     Returns
     -------
@@ -308,7 +310,7 @@ def evaluate(params, options=ChainOptions(), blowing=True, derivatives=False):
         _aircraft(p, out, tan if d else None)
     if not d:
         return out
-    return out, _partials(out, tan)
+    return out, _partials(out, tan, outputs)
 
 
 def _compressible_jet(p, options, atm, out, tan):
@@ -706,11 +708,11 @@ def _chain(local, tan):
     the (undefined) speed of a fan map there.
     """
     out = {}
-    for name, dx in local.items():
-        for root, t in tan.get(name, {}).items():
-            with np.errstate(invalid="ignore"):
+    with np.errstate(invalid="ignore"):     # once per call: entering it per term costs more
+        for name, dx in local.items():
+            for root, t in tan.get(name, {}).items():
                 term = np.where(dx == 0, 0.0, dx * t)
-            out[root] = out[root] + term if root in out else term
+                out[root] = out[root] + term if root in out else term
     return out
 
 
@@ -723,23 +725,25 @@ def _add(*tangents):
     return out
 
 
-def _partials(out, tan):
+def _partials(out, tan, names=None):
     """``{output: {input: tangent broadcast to the output}}`` (or to a larger shape where the
     partials vary along an axis the value does not); the pressure coefficients stacked on a
-    last axis."""
+    last axis. ``names``: only these outputs (default all)."""
     result = {}
     for name, value in out.items():
-        if name == "ram_driven" or name not in tan:
+        if name == "ram_driven" or name not in tan or (names is not None and name not in names):
             continue
         row = {}
         coeffs = {}
+        vshape = np.shape(value)
         for root, t in tan[name].items():
             t = np.asarray(t, float)
-            shape = np.broadcast_shapes(np.shape(value), t.shape)
             if root in _COEFFICIENTS:
                 coeffs[root[1]] = t
+            elif t.shape == vshape:
+                row[root] = t
             else:
-                row[root] = np.broadcast_to(t, shape)
+                row[root] = np.broadcast_to(t, np.broadcast_shapes(vshape, t.shape))
         if coeffs:
             shape = np.broadcast_shapes(np.shape(value), *(t.shape for t in coeffs.values()))
             row["pressure_coefficients"] = np.stack(
