@@ -92,3 +92,32 @@ def assert_partials(comp, inputs=None, rtol=1e-6, atol=1e-10, skip_outputs=()):
             f"dense check {of} wrt {wrt}: worst {worst:.3e} of scale {scale:.3e}"
             + (" (pair not declared)" if pair is None else ""))
     return prob
+
+
+#: Constants of a small blown wing for the fused chain's partial checks (values of these tests,
+#: inside the declared ranges; not of any source).
+WING = {"slot_ratio": 0.01, "chord": 0.4, "blown_span": 2.8, "jet_loss_factor": 1.25,
+        "freestream_assist": 0.9, "fan_rated_efficiency": 0.7, "drag_clean": 0.012,
+        "drag_per_momentum": -1.3, "slot_drag": 0.006, "slot_drag_per_ratio": 0.5,
+        "drag_per_momentum_per_ratio": 30.0, "drag_quadratic": 0.4, "lift_per_momentum": 3.0}
+#: The aircraft around it (four nodes; rates of climb away from zero, where a relative step is
+#: all round-off).
+AIRCRAFT = {"aircraft_mass": 21.0, "wing_area": 1.4, "zero_lift_drag": 0.03,
+            "aspect_ratio": 10.0, "span_efficiency": 0.82,
+            "climb_rate": np.array([1.5, -1.2, 2.0, -0.9])}
+
+
+def chain_inputs(seed, speed=(18.0, 40.0), momentum=(0.01, 0.08), rise=(200.0, 3000.0),
+                 altitude=(0.0, 3000.0), aircraft=False, drop=(), **overrides):
+    """Random operating points at four nodes with :data:`WING` (and :data:`AIRCRAFT`), some
+    names left out (``drop``: e.g. constants a lift table gives) or replaced (``overrides``)."""
+    rng = np.random.default_rng(seed)
+    n = 4
+    inputs = {"altitude": rng.uniform(*altitude, n), "speed": rng.uniform(*speed, n),
+              "duration": rng.uniform(100.0, 4000.0, n),
+              "momentum_coefficient": rng.uniform(*momentum, n),
+              "fan_pressure_rise": rng.uniform(*rise, n), **WING}
+    if aircraft:
+        inputs.update(AIRCRAFT)
+    inputs.update(overrides)
+    return {k: v for k, v in inputs.items() if k not in drop}

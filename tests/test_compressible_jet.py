@@ -59,16 +59,11 @@ def test_head_over_dynamic_pressure_follows_the_isentropic_series(mach):
 def test_fused_partials_with_the_compressible_jet(fan_model):
     from mdao.components.chain import ChainComp
     from partials_check import assert_partials
+    from partials_check import chain_inputs
     n = 4
-    rng = np.random.default_rng(9)
-    inputs = {"altitude": rng.uniform(0, 6000, n), "speed": rng.uniform(40, 90, n),
-              "duration": rng.uniform(100, 4000, n),
-              "momentum_coefficient": rng.uniform(0.03, 0.12, n),
-              "fan_pressure_rise": rng.uniform(2000, 9000, n), "slot_ratio": 0.006,
-              "chord": 0.5, "blown_span": 2.0, "jet_loss_factor": 1.3, "freestream_assist": 0.8,
-              "drag_clean": 0.012, "drag_per_momentum": -1.2, "slot_drag": 0.01,
-              "slot_drag_per_ratio": 0.5, "drag_per_momentum_per_ratio": 3.0,
-              "drag_quadratic": 0.4, "lift_per_momentum": 2.0}
+    inputs = chain_inputs(9, speed=(40.0, 90.0), momentum=(0.03, 0.12), rise=(2000.0, 9000.0),
+                          altitude=(0.0, 6000.0), slot_ratio=0.006, chord=0.5, blown_span=2.0,
+                          drop=("fan_rated_efficiency",))
     if fan_model == "constant":
         inputs["fan_rated_efficiency"] = 0.68
     else:

@@ -164,21 +164,12 @@ def test_fused_component_partials_with_tables(aircraft):
               ("jet_loss_factor", LiftTable((0.2, 0.8, 1.4), (1.2, 1.25, 1.4))),
               ("drag_clean", LiftTable((0.2, 1.4), (0.009, 0.016))),
               ("lift_per_momentum", LiftTable((0.2, 0.8, 1.4), (3.0, 4.0, 4.5))))
+    from partials_check import chain_inputs
     n = 4
-    rng = np.random.default_rng(5)
-    inputs = {"altitude": rng.uniform(0, 3000, n), "speed": rng.uniform(18, 30, n),
-              "duration": rng.uniform(100, 4000, n),
-              "momentum_coefficient": rng.uniform(0.01, 0.05, n),
-              "fan_pressure_rise": rng.uniform(200, 900, n), "slot_ratio": 0.01, "chord": 0.4,
-              "blown_span": 2.8, "freestream_assist": 0.9, "fan_rated_efficiency": 0.7,
-              "slot_drag": 0.006, "slot_drag_per_ratio": 0.5,
-              "drag_per_momentum_per_ratio": 30.0, "drag_quadratic": 0.4}
-    if aircraft:
-        inputs.update(aircraft_mass=21.0, wing_area=1.4, zero_lift_drag=0.03,
-                      aspect_ratio=10.0, span_efficiency=0.82,
-                      climb_rate=np.array([1.5, -1.2, 2.0, -0.9]))
-    else:
-        inputs["lift_coefficient"] = rng.uniform(0.3, 1.2, n)
+    inputs = chain_inputs(5, speed=(18.0, 30.0), momentum=(0.01, 0.05), rise=(200.0, 900.0),
+                          aircraft=aircraft, drop=[name for name, _ in tables])
+    if not aircraft:
+        inputs["lift_coefficient"] = np.random.default_rng(6).uniform(0.3, 1.2, n)
     comp = ChainComp(num_nodes=n, lift_tables=tables, aircraft=aircraft)
     prob = assert_partials(comp, inputs)
     names = {m["prom_name"] for _, m in comp.list_inputs(out_stream=None, prom_name=True)}
