@@ -197,7 +197,7 @@ def evaluate(params, options=ChainOptions(), blowing=True, derivatives=False, ou
                 "chord": -ratio / np.asarray(p["chord"], float)}
 
     # The section's lift coefficient and the constants that follow it.
-    fc = _lift(p, params, options, js, out, tan if d else None)
+    fc = _lift(p, params, options, js.dynamic_pressure, out, tan if d else None)
 
     # Duct: the jet loss factor and the pressure rise the jet requires.
     if options.duct_model == "lumped":
@@ -335,7 +335,7 @@ def _compressible_jet(p, options, atm, out, tan):
     return cj.state
 
 
-def _lift(p, params, options, js, out, tan):
+def _lift(p, params, options, dynamic_pressure, out, tan):
     """The aircraft's flight condition into ``out`` (with ``options.aircraft``) and the tabled
     constants into ``p``, with their tangents into ``tan`` when given. Returns the flight
     condition (None without the aircraft)."""
@@ -343,14 +343,14 @@ def _lift(p, params, options, js, out, tan):
     fc = None
     if options.aircraft:
         res = aircraft.flight_condition(*(p[k] for k in aircraft.FLIGHT_INPUTS[:6]),
-                                        js.dynamic_pressure, p["speed"], derivatives=d)
+                                        dynamic_pressure, p["speed"], derivatives=d)
         fc = res[0] if d else res
         out.update(fc._asdict())
         if d:
             for field in fc._fields:
                 tan[field] = _chain({k: v for (o, k), v in res[1].items() if o == field}, tan)
         if options.sized_fan:
-            fc = _sized_flight(p, options, js, fc, out, tan)
+            fc = _sized_flight(p, options, dynamic_pressure, out, tan)
     tabled = [(name, table) for name, table in options.lift_tables if name not in params]
     if not tabled:
         return fc
@@ -421,7 +421,7 @@ def system_mass(params, options=ChainOptions()):
     return float(_system_mass(with_defaults(params, options), options, {}, None)[0])
 
 
-def _sized_flight(p, options, js, clean, out, tan):
+def _sized_flight(p, options, dynamic_pressure, out, tan):
     """With the blowing system's mass: the flight condition the aircraft flies (returned; its
     lift coefficient into ``out``, read by the lift tables and the high-lift requirement), and
     the main thrust the mass costs, ``mass_thrust_penalty`` (the clean aircraft's drag and
@@ -430,11 +430,11 @@ def _sized_flight(p, options, js, clean, out, tan):
     system = _system_mass(p, options, out, tan)
     flight_mass = np.asarray(p["aircraft_mass"], float) + system
     args = [flight_mass] + [p[k] for k in aircraft.FLIGHT_INPUTS[1:6]]
-    res = aircraft.flight_condition(*args, js.dynamic_pressure, p["speed"], derivatives=d)
+    res = aircraft.flight_condition(*args, dynamic_pressure, p["speed"], derivatives=d)
     fc = res[0] if d else res
     res_t = aircraft.added_mass_thrust(p["aircraft_mass"], system, p["wing_area"],
                                        p["aspect_ratio"], p["span_efficiency"], p["climb_rate"],
-                                       js.dynamic_pressure, p["speed"], derivatives=d)
+                                       dynamic_pressure, p["speed"], derivatives=d)
     out["lift_coefficient"] = fc.lift_coefficient
     out["mass_thrust_penalty"] = res_t[0] if d else res_t
     if d:
@@ -471,21 +471,11 @@ def lift_dependent(params, options=ChainOptions()):
     """``params`` completed by the defaults and with the tabled constants evaluated at each
     point's lift coefficient (values only): for closed forms that take the constants as numbers
     (the break-even search)."""
-    if not options.tabled(params):
-        return with_defaults(params, options)
     p = with_defaults(params, options)
-    atm = atmosphere.isa(p["altitude"])
-    speed = np.asarray(p["speed"], float)
-    q = 0.5 * atm.density * speed ** 2
-    _lift(p, params, options, _Dynamic(q), {}, None)
+    if options.tabled(params):
+        q = jet.dynamic_pressure(atmosphere.isa(p["altitude"]).density, p["speed"])
+        _lift(p, params, options, q, {}, None)
     return p
-
-
-@dataclass(frozen=True)
-class _Dynamic:
-    """The freestream dynamic pressure where :func:`_lift` needs only that of the jet state."""
-
-    dynamic_pressure: object
 
 
 def _aircraft(p, out, tan):
