@@ -15,9 +15,12 @@ import time
 import tracemalloc
 from pathlib import Path
 
-import numpy as np
-
 os.environ.setdefault("OPENMDAO_REPORTS", "0")
+for _name in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+    os.environ.setdefault(_name, "1")   # as the command line does (mdao.cli.BLAS_THREADS)
+
+import numpy as np  # noqa: E402  (after the thread counts: BLAS reads them on import)
+
 ROOT = Path(__file__).resolve().parent.parent
 CASES = sorted((ROOT / "cases").glob("*.toml"))
 
@@ -110,12 +113,7 @@ def bench_chain(sizes, repeat):
 def optimize_with_fd_totals(case):
     """The same optimization with OpenMDAO's finite-difference totals instead of analytic."""
     from mdao.optimum import optimize
-    from mdao.system import build_problem, set_case_values
-    prob = build_problem(case)
-    prob.model.approx_totals(method="fd", step=1e-7, form="forward", step_calc="rel")
-    prob.setup()
-    set_case_values(prob, case)
-    return optimize(case, problem=prob)
+    return optimize(case, problem=fd_problem(case))
 
 
 def bench_optimizations(repeat):
@@ -146,32 +144,95 @@ def bench_optimizations(repeat):
     return rows
 
 
-def bench_segments(counts, repeat):
-    """How an optimization's cost grows with the number of segments (survey case, segments
-    repeated at spread speeds and altitudes), analytic against finite-difference totals."""
+def survey_over(count):
+    """The survey drone's wing flown over ``count`` segments at spread speeds and heights."""
     import copy
     from mdao.case import parse_case
-    from mdao.optimum import optimize
     try:
         import tomllib
     except ModuleNotFoundError:  # Python 3.10
         import tomli as tomllib
-    raw = tomllib.loads((ROOT / "cases" / "survey-drone.toml").read_text())
+    raw = copy.deepcopy(tomllib.loads((ROOT / "cases" / "survey-drone.toml").read_text()))
+    raw["segment"] = [{"name": f"s{i}", "altitude": f"{50 + 40 * (i % 7)} m",
+                       "speed": f"{15 + (i % 5) * 2.5} m/s", "duration": "10 min"}
+                      for i in range(count)]
+    raw.pop("uncertainty", None)
+    return parse_case(raw)
+
+
+def fd_problem(case):
+    """The case's problem with OpenMDAO's finite-difference totals (no coloring)."""
+    from mdao.system import build_problem, set_case_values
+    prob = build_problem(case, coloring=False)
+    prob.model.approx_totals(method="fd", step=1e-7, form="forward", step_calc="rel")
+    prob.setup()
+    set_case_values(prob, case)
+    prob.final_setup()
+    return prob
+
+
+def bench_segments(counts, repeat):
+    """How the cost grows with the number of segments (survey case's wing, segments repeated
+    at spread speeds and altitudes), analytic (colored) against finite-difference totals: one
+    gradient at the optimum, the optimization proper (the driver's run from the same start on
+    a built problem) and the whole ``optimize`` (building the problem and the start-point
+    search, then the break-even and feasibility reading, the same work for both)."""
+    from mdao.optimum import optimize
+    from mdao.system import build_problem
     rows = []
     for count in counts:
-        r = copy.deepcopy(raw)
-        r["segment"] = [{"name": f"s{i}", "altitude": f"{50 + 40 * (i % 7)} m",
-                         "speed": f"{15 + (i % 5) * 2.5} m/s", "duration": "10 min"}
-                        for i in range(count)]
-        r.pop("uncertainty", None)
-        case = parse_case(r)
+        case = survey_over(count)
         t_an, out = best_of(lambda: optimize(case), repeat)
-
-        t_fd, out_fd = best_of(lambda: optimize_with_fd_totals(case), repeat)
-        rows.append(dict(segments=count, wall_s=t_an, iterations=out.iterations,
-                         converged=out.converged, fd_wall_s=t_fd, fd_converged=out_fd.converged,
-                         fd_over_analytic=t_fd / t_an))
+        t_fd, out_fd = best_of(lambda: optimize(case, problem=fd_problem(case)), 1)
+        t_build, _ = best_of(lambda: build_problem(case), repeat)
+        drv = []
+        for make in (lambda: build_problem(case), lambda: fd_problem(case)):
+            best = None
+            for _ in range(repeat if count <= 48 else 1):
+                prob = make()
+                t0 = time.perf_counter()
+                result = prob.run_driver()
+                wall = time.perf_counter() - t0
+                best = (wall, prob, result) if best is None or wall < best[0] else best
+            drv.append(best)
+        (t_drv, prob, res), (t_drv_fd, prob_fd, res_fd) = drv
+        n_grad = 10 if count <= 48 else 3
+        t_grad, _ = best_of(lambda: [prob.driver._compute_totals() for _ in range(n_grad)], repeat)
+        t_grad_fd, _ = best_of(lambda: prob_fd.driver._compute_totals(), 1)
+        coloring = prob.driver._coloring_info.coloring
+        rows.append(dict(segments=count, design_variables=int(coloring._shape[1]),
+                         linear_solves=int(coloring.total_solves()),
+                         gradient_ms=t_grad / n_grad * 1e3, fd_gradient_ms=t_grad_fd * 1e3,
+                         gradient_fd_over_analytic=t_grad_fd / (t_grad / n_grad),
+                         driver_s=t_drv, fd_driver_s=t_drv_fd,
+                         driver_iterations=int(res.iter_count),
+                         fd_driver_iterations=int(res_fd.iter_count),
+                         driver_fd_over_analytic=t_drv_fd / t_drv,
+                         build_s=t_build, wall_s=t_an, iterations=out.iterations,
+                         converged=out.converged, fd_wall_s=t_fd,
+                         fd_converged=out_fd.converged, fd_over_analytic=t_fd / t_an))
     return rows
+
+
+def bench_startup(repeat=5):
+    """The command's whole wall (``blownwing optimize`` on the survey drone, a fresh Python
+    each time) over ``python -c "import openmdao.api"``, best of ``repeat`` each, in an empty
+    temporary folder."""
+    import subprocess
+    import tempfile
+    env = dict(os.environ, OPENMDAO_REPORTS="0")
+    case = str(ROOT / "cases" / "survey-drone.toml")
+    commands = {"import_openmdao_api": [sys.executable, "-c", "import openmdao.api"],
+                "optimize_command": [sys.executable, "-m", "mdao", "optimize", case]}
+    walls = {}
+    with tempfile.TemporaryDirectory() as folder:
+        for _ in range(repeat):          # interleaved: the machine's state is shared
+            for name, cmd in commands.items():
+                t0 = time.perf_counter()
+                subprocess.run(cmd, cwd=folder, env=env, check=True, stdout=subprocess.DEVNULL)
+                walls.setdefault(name, []).append(time.perf_counter() - t0)
+    best = {name: min(w) for name, w in walls.items()}
+    return dict(best, startup_ratio=best["optimize_command"] / best["import_openmdao_api"])
 
 
 def bench_studies(repeat):
@@ -231,12 +292,23 @@ def main(argv=None):
               f"{r['derivative_evaluations']:>9} {r['fd_wall_s']:>10.3f} {r['fd_over_analytic']:>12.2f} "
               f"{r['model_ms']:>9.2f} {r['gradient_ms']:>8.2f} {r['fd_gradient_ms']:>11.2f} "
               f"{r['gradient_fd_over_analytic']:>11.2f}")
-    seg_rows = bench_segments((3, 12, 48) if not args.quick else (3, 12), 1)
-    print("\nCost against the number of segments (survey case, one optimization)")
-    print(f"{'segments':>9} {'wall s':>8} {'iter':>5} {'FD wall s':>10} {'FD/analytic':>12}")
+    seg_rows = bench_segments((3, 12, 48, 192) if not args.quick else (3, 12), repeat)
+    print("\nCost against the number of segments (survey case's wing): analytic colored totals "
+          "against finite differences")
+    print(f"{'segments':>9} {'DVs':>5} {'solves':>7} {'grad ms':>8} {'FD grad ms':>11} "
+          f"{'grad FD/an':>11} {'driver s':>9} {'FD driver s':>12} {'driver FD/an':>13} "
+          f"{'build s':>8} {'whole s':>8} {'FD whole s':>11} {'whole FD/an':>12}")
     for r in seg_rows:
-        print(f"{r['segments']:>9} {r['wall_s']:>8.3f} {r['iterations']:>5} {r['fd_wall_s']:>10.3f} "
+        print(f"{r['segments']:>9} {r['design_variables']:>5} {r['linear_solves']:>7} "
+              f"{r['gradient_ms']:>8.2f} {r['fd_gradient_ms']:>11.2f} "
+              f"{r['gradient_fd_over_analytic']:>11.1f} {r['driver_s']:>9.3f} "
+              f"{r['fd_driver_s']:>12.3f} {r['driver_fd_over_analytic']:>13.2f} "
+              f"{r['build_s']:>8.3f} {r['wall_s']:>8.3f} {r['fd_wall_s']:>11.3f} "
               f"{r['fd_over_analytic']:>12.2f}")
+    startup = bench_startup(2 if args.quick else 5)
+    print(f"\nStart-up (best of {2 if args.quick else 5}): blownwing optimize survey-drone "
+          f"{startup['optimize_command']:.2f} s, python -c 'import openmdao.api' "
+          f"{startup['import_openmdao_api']:.2f} s, ratio {startup['startup_ratio']:.2f}")
     studies = bench_studies(repeat)
     print(f"\nSweep of {studies['sweep_points']} points: {studies['sweep_1e6_s']:.3f} s, peak "
           f"{studies['sweep_1e6_peak_MB']:.0f} MB; Monte Carlo of {studies['monte_carlo_samples']} "
@@ -250,6 +322,15 @@ def main(argv=None):
         "optimize_wall_s": {r["case"]: r["wall_s"] for r in opt_rows},
         "fd_over_analytic": {r["case"]: r["fd_over_analytic"] for r in opt_rows},
         "gradient_fd_over_analytic": {r["case"]: r["gradient_fd_over_analytic"] for r in opt_rows},
+        "fd_over_analytic_by_segments": {r["segments"]: r["driver_fd_over_analytic"]
+                                         for r in seg_rows},
+        "fd_over_analytic_by_segments_whole": {r["segments"]: r["fd_over_analytic"]
+                                               for r in seg_rows},
+        "gradient_fd_over_analytic_by_segments": {r["segments"]: r["gradient_fd_over_analytic"]
+                                                  for r in seg_rows},
+        "gradient_ms_by_segments": {r["segments"]: r["gradient_ms"] for r in seg_rows},
+        "startup_ratio": startup["startup_ratio"],
+        "startup": startup,
         "sweep_1e6_s": studies["sweep_1e6_s"],
         "sweep_1e6_peak_MB": studies["sweep_1e6_peak_MB"],
         "monte_carlo_1e5_s": studies["monte_carlo_1e5_s"],

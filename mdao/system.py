@@ -15,6 +15,7 @@ from mdao import parameters as registry
 from mdao.case.loading import lift_tables, segment_lift
 from mdao.physics import chain
 from mdao.physics.atmosphere import isa
+from mdao.total_coloring import color_totals
 
 from mdao.components.aircraft import AircraftComp
 from mdao.components.airfoil import AirfoilComp
@@ -299,7 +300,7 @@ def chain_parameters(case, **overrides):
     return params
 
 
-def build_problem(case, follow_requirement=False, driver=True, fused=None):
+def build_problem(case, follow_requirement=False, driver=True, fused=None, coloring=True):
     """A set-up problem for a case: design variables, constraints, objective and SLSQP.
 
     Design variables: the slot ratio (when ``slot.ratio_bounds`` are given and differ), and per
@@ -320,6 +321,11 @@ def build_problem(case, follow_requirement=False, driver=True, fused=None):
     fused : bool, optional
         Use the one-component chain (any model); default True. False wires one component per
         discipline (same names, values and derivatives).
+    coloring : bool
+        With the driver: color the total Jacobian from the declared partials
+        (:mod:`mdao.total_coloring`), so that a gradient costs a few linear solves whatever the
+        number of segments. False keeps one solve per design variable (and lets the model
+        approximate its totals instead, ``approx_totals``, after which set up again).
     """
     opts = group_options(case, fused)
     opts["follow_requirement"] = follow_requirement
@@ -332,21 +338,28 @@ def build_problem(case, follow_requirement=False, driver=True, fused=None):
         raise ValueError(f"fused=False: the per-discipline group does not wire "
                          f"{', '.join(fused_only)}; use the fused chain (the default)")
     prob = om.Problem(reports=False)
-    prob.model.add_subsystem("wing", BlownWingGroup(**opts), promotes=["*"])
+    wing = prob.model.add_subsystem("wing", BlownWingGroup(**opts), promotes=["*"])
     blow = np.flatnonzero(case.blowing)
     point = start_point(case)
     if driver:
-        _add_optimization(prob, case, blow, follow_requirement, point)
+        of, wrt = _add_optimization(prob, case, blow, follow_requirement, point)
+        # the gradient needs the partials of the responses against the design variables only
+        wing.options["partials_of"] = tuple(of)
+        wing.options["partials_wrt"] = tuple(wrt)
     prob.setup(force_alloc_complex=False)
     set_case_values(prob, case, follow_requirement=follow_requirement, point=point)
     prob.final_setup()
+    if driver and coloring:
+        color_totals(prob)   # one linear solve per color, not per design variable
     return prob
 
 
 def _add_optimization(prob, case, blow, follow, point):
     """Design variables, constraints (from :mod:`mdao.constraints`), objective and SLSQP,
-    scaled at the start ``point``."""
+    scaled at the start ``point``. Returns the chain's outputs the driver differentiates and
+    the design variables (two lists of promoted names)."""
     model = prob.model
+    of, wrt = [], []
     for con in design_constraints.applicable(case, follow_requirement=follow):
         if not moved_by_design(con, case):
             continue   # a fixed duct's angle: the feasibility check of the optimum reads it
@@ -357,7 +370,9 @@ def _add_optimization(prob, case, blow, follow, point):
         if con.quantity == "fan_pressure_rise" and follow:  # the fan gives what is required
             model.add_constraint("required_pressure_rise", lower=lower, upper=upper,
                                  indices=indices, ref=ref)
+            of.append("required_pressure_rise")
         elif con.design_variable:
+            wrt.append(con.quantity)
             if con.quantity == "fan_pressure_rise":
                 model.set_input_defaults(con.quantity, point.fan_pressure_rise, units="Pa")
             if con.quantity == "rated_shaft_power":   # sized at the start point's largest need
@@ -372,17 +387,22 @@ def _add_optimization(prob, case, blow, follow, point):
                 promotes_inputs=["fan_pressure_rise", "required_pressure_rise"],
                 promotes_outputs=["pressure_balance"])
             model.add_constraint(con.quantity, equals=con.equals, indices=indices, ref=ref)
+            of.append("required_pressure_rise")
         else:
             model.add_constraint(con.quantity, lower=lower, upper=upper, indices=indices,
                                  ref=ref)
+            of.append(con.quantity)
     segment = case.objective_segment
     if segment is None:
         model.add_objective("mission_energy_saving", ref=-_energy_scale(case))
+        of.append("mission_energy_saving")
     else:
         model.add_objective("net_power_saving", index=case.segment_names.index(segment),
                             ref=-_power_scale(case))
+        of.append("net_power_saving")
     prob.driver = om.ScipyOptimizeDriver(optimizer="SLSQP", maxiter=case.optimize["max_iterations"],
                                          tol=case.optimize["tolerance"], disp=False)
+    return of, wrt
 
 
 def moved_by_design(constraint, case):

@@ -302,3 +302,46 @@ def test_aircraft_component_partials_against_finite_differences():
     values["dynamic_pressure"] = rng.uniform(300.0, 2500.0, N)
     values["drag_saving"] = rng.uniform(-2.0, 5.0, N)
     assert_partials(AircraftComp(num_nodes=N), values)
+
+
+@pytest.mark.parametrize("name", ["survey-drone", "coastal-patrol", "levee-inspector",
+                                  "island-shuttle"])
+def test_fused_component_in_strips_equals_one_evaluation(cases_dir, name):
+    """Past one strip of nodes (ChainComp evaluates long vectors strip by strip) every output
+    and the mission sums equal one evaluation of the whole vector."""
+    from mdao.case import load_case
+    from mdao.system import chain_options, chain_parameters, group_options, start_point
+    case = load_case(cases_dir / f"{name}.toml")
+    n = 40001                                    # three strips, the last one short
+    segments = len(case.segments)
+    pick = np.arange(n) % segments
+    params = {}
+    for key, value in chain_parameters(case).items():
+        value = np.asarray(value, float)
+        per_node = registry.BY_NAME[key].per_segment if key in registry.BY_NAME else True
+        params[key] = value[pick] if per_node and value.shape == (segments,) else value
+    start = start_point(case)
+    rng = np.random.default_rng(3)
+    params["momentum_coefficient"] = start.momentum_coefficient[pick] * rng.uniform(0.9, 1.1, n)
+    params["fan_pressure_rise"] = start.fan_pressure_rise[pick]
+    if start.rated_shaft_power is not None:
+        params["rated_shaft_power"] = np.asarray(start.rated_shaft_power)
+    params["slot_ratio"] = np.asarray(start.slot_ratio)
+    opts = dict(group_options(case), num_nodes=n)
+    opts["blowing"] = list(np.asarray(case.blowing)[pick])
+    prob = om.Problem(reports=False)
+    prob.model.add_subsystem("wing", BlownWingGroup(**opts), promotes=["*"])
+    prob.setup()
+    for key, value in params.items():
+        prob.set_val(key, value)
+    prob.run_model()
+    comp = prob.model.wing.chain
+    inputs = {k: np.array(v) for k, v in comp._params(comp._inputs).items()}   # as set above
+    np.testing.assert_array_equal(inputs["momentum_coefficient"], params["momentum_coefficient"])
+    whole = chain.evaluate(inputs, chain_options(case), blowing=np.asarray(opts["blowing"]))
+    assert len(comp._chain_outputs) > 10
+    for out in comp._chain_outputs:
+        np.testing.assert_allclose(prob.get_val(out).ravel(), np.ravel(whole[out]),
+                                   rtol=1e-13, atol=0, err_msg=out)
+    assert prob.get_val("mission_energy_saving")[0] == pytest.approx(
+        np.sum(whole["energy_saving"]), rel=1e-12)

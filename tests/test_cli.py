@@ -130,3 +130,16 @@ def test_bad_case_exits_2_naming_the_key(label, tmp_path, capsys):
 def test_missing_case_file_exits_2(tmp_path, capsys):
     assert main(["optimize", str(tmp_path / "nope.toml")]) == 2
     assert "nope.toml" in capsys.readouterr().err
+
+
+def test_command_line_uses_one_blas_thread_unless_told(monkeypatch):
+    """Small linear algebra: one BLAS thread by default, the user's setting kept."""
+    import os
+    from mdao.cli import BLAS_THREADS, _single_threaded_blas
+    for name in BLAS_THREADS:
+        monkeypatch.delenv(name, raising=False)
+    monkeypatch.setenv("OMP_NUM_THREADS", "4")
+    _single_threaded_blas()
+    assert os.environ["OPENBLAS_NUM_THREADS"] == "1"
+    assert os.environ["MKL_NUM_THREADS"] == "1"
+    assert os.environ["OMP_NUM_THREADS"] == "4"

@@ -155,3 +155,22 @@ def test_blown_optimum_keeps_the_energy_balance(results):
     net thrust power than its fans put into the air (within the optimizer's tolerance)."""
     for key in ("blown", "blown_no_net_thrust"):
         assert min(results[key]["energy_margin_W"]) >= -1e-6
+
+
+def test_host_model_colors_its_totals():
+    """The coloring from declared partials works on a host model too (the cargo drone: mass
+    closure, mission and the blown wing): fewer solves, the same gradient and optimum."""
+    from mdao.total_coloring import color_totals
+    prob = ea.build_aircraft(True, True)
+    prob.final_setup()
+    coloring = color_totals(prob)
+    assert coloring is not None and coloring.total_solves() < coloring._shape[1]
+    prob.run_model()
+    colored = prob.driver._compute_totals(return_format="array")
+    plain = prob.compute_totals(return_format="array", coloring_info=False, driver_scaling=True)
+    np.testing.assert_allclose(colored, plain, rtol=0, atol=1e-12 * np.abs(plain).max())
+    result = prob.run_driver()
+    reference = ea.build_aircraft(True, True)
+    assert result.success and reference.run_driver().success
+    assert prob.get_val("takeoff_mass")[0] == pytest.approx(
+        reference.get_val("takeoff_mass")[0], rel=1e-8)

@@ -91,7 +91,37 @@ def _parser():
 def main(argv=None):
     """Run the command line on ``argv`` (default ``sys.argv[1:]``); returns the exit code."""
     args = _parser().parse_args(argv)
+    _single_threaded_blas()
     from mdao.cli.commands import run  # after parsing: --help and --version stay fast
 
+    _without_report_plugins()
     return run(args)
+
+
+#: Thread counts of the BLAS libraries NumPy and SciPy may be built on.
+BLAS_THREADS = ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS")
+
+
+def _single_threaded_blas():
+    """One BLAS thread unless the user set otherwise (before NumPy is imported). The linear
+    algebra here is small (SLSQP's subproblem over at most a few hundred design variables),
+    where extra threads only add start-up and wait: on a machine whose other cores are busy,
+    threaded BLAS made SLSQP's 48-segment subproblem 100 times slower (1.5 s against 14 ms,
+    benchmarks/run.py). Scale-out spreads whole optimizations over processes instead."""
+    import os
+    for name in BLAS_THREADS:
+        os.environ.setdefault(name, "1")
+
+
+def _without_report_plugins():
+    """The command line writes no OpenMDAO reports (its problems have ``reports=False``), but
+    OpenMDAO's ``Problem()`` loads every report plugin on first use, importing
+    matplotlib.pyplot (about 0.6 s). Mark the plugins as loaded for this process. Only the
+    command line does this: a model that imports the package keeps its reports."""
+    try:
+        from openmdao.utils import reports_system
+    except ImportError:     # pragma: no cover - OpenMDAO is a dependency
+        return
+    if hasattr(reports_system, "_plugins_loaded"):
+        reports_system._plugins_loaded = True
 

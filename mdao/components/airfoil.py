@@ -66,12 +66,15 @@ class AirfoilComp(om.ExplicitComponent):
                                      derivatives=derivatives)
 
     def compute(self, inputs, outputs):
+        # straight into the output arrays (no temporaries, no copies); q (c b) as in the chain
         dcd = self._increment(inputs)
-        area_q = inputs['dynamic_pressure'] * inputs['chord'][0] * inputs['blown_span'][0]
-        outputs['drag_coefficient'] = inputs['drag_clean'][0] + dcd
-        outputs['section_drag'] = area_q * outputs['drag_coefficient']
-        outputs['clean_section_drag'] = area_q * inputs['drag_clean'][0]
-        outputs['drag_saving'] = -area_q * dcd
+        cd0 = inputs['drag_clean'][0]
+        area_q = inputs['dynamic_pressure'] * (inputs['chord'][0] * inputs['blown_span'][0])
+        cd = np.add(cd0, dcd, out=outputs['drag_coefficient'])
+        np.multiply(area_q, cd, out=outputs['section_drag'])
+        np.multiply(area_q, cd0, out=outputs['clean_section_drag'])
+        saving = np.multiply(area_q, dcd, out=outputs['drag_saving'])
+        np.negative(saving, out=saving)
         outputs['lift_increment'] = phys.lift_increment(inputs['momentum_coefficient'],
                                                         inputs['lift_per_momentum'][0])
 

@@ -139,28 +139,53 @@ class ChainComp(om.ExplicitComponent):
             rows, cols = column(n)
         self.declare_partials(of, wrt, rows=rows, cols=cols)
 
+    def _partials_scope(self):
+        """The outputs and inputs whose partials are declared (options ``partials_of`` and
+        ``partials_wrt``; None: all), each checked against the component's own names."""
+        o = self.options
+        outputs = (self._chain_outputs + list(self._mission_totals())
+                   + (list(STATION_OUTPUTS) if self._chain_stations else []))
+        scope = []
+        for option, names in (("partials_of", outputs), ("partials_wrt", list(self._chain_probe))):
+            chosen = o[option]
+            if chosen is None:
+                scope.append(set(names))
+                continue
+            unknown = sorted(set(chosen) - set(names))
+            if unknown:
+                raise ValueError(f"{option}: {unknown} are not among this chain's "
+                                 f"{'outputs' if option == 'partials_of' else 'inputs'}; "
+                                 f"allowed: {sorted(names)}")
+            scope.append(set(chosen))
+        return scope
+
     def setup_partials(self):
         n = self.options["num_nodes"]
+        of_scope, self._chain_wrt = self._partials_scope()
         # The pattern is structural: which inputs each output's tangent holds at all.
         out, partials = chain.evaluate(self._chain_probe, self._chain_opts,
-                                       blowing=self._chain_blowing, derivatives=True)
-        self._chain_pairs = [(of, wrt) for of in self._chain_outputs for wrt in partials[of]
-                             if wrt in self._chain_probe]
+                                       blowing=self._chain_blowing, derivatives=True,
+                                       wrt=self._chain_wrt)
+        self._chain_pairs = [(of, wrt) for of in self._chain_outputs if of in of_scope
+                             for wrt in partials.get(of, {}) if wrt in self._chain_wrt]
         for of, wrt in self._chain_pairs:
             if of in WING_OUTPUTS and wrt in self._chain_node:
                 raise RuntimeError(f"{of} is wing-level but depends on node input {wrt}")
             self._declare(of, wrt, np.size(out[of]))
+        self._chain_station_pairs = []
         if self._chain_stations:
             _, st_tan = chain.duct_stations(self._chain_probe, self._chain_opts, derivatives=True)
             for name, (field, _) in STATION_OUTPUTS.items():
                 for wrt in st_tan[field]:
-                    self._declare(name, wrt, self.options["stations"])
+                    if name in of_scope and wrt in self._chain_wrt:
+                        self._chain_station_pairs.append((name, field, wrt))
+                        self._declare(name, wrt, self.options["stations"])
+        self._chain_totals = {
+            total: [wrt for wrt in partials.get(of, {}) if wrt in self._chain_wrt]
+            for total, of in self._mission_totals().items() if total in of_scope}
         # the outputs whose partials compute_partials reads (the rest are not computed)
         self._chain_wanted = ({of for of, _ in self._chain_pairs}
-                              | set(self._mission_totals().values()))
-        self._chain_totals = {
-            total: [wrt for wrt in partials[of] if wrt in self._chain_probe]
-            for total, of in self._mission_totals().items()}
+                              | {self._mission_totals()[t] for t in self._chain_totals})
         for total, wrts in self._chain_totals.items():
             for wrt in wrts:
                 if wrt in self._chain_node:
@@ -176,28 +201,46 @@ class ChainComp(om.ExplicitComponent):
         return totals
 
     def compute(self, inputs, outputs):
-        out = chain.evaluate(self._params(inputs), self._chain_opts, blowing=self._chain_blowing)
-        for name in self._chain_outputs:
-            outputs[name] = out[name]
+        # In strips of nodes (the chain is elementwise over them): a strip's intermediates stay
+        # in cache and in memory the allocator hands back at once, where the whole vector's
+        # would be fresh pages at every evaluation; each strip goes straight into the outputs.
+        # A wing-level output (its value already of the output's shape) is the same in every
+        # strip.
+        strip = 16000                           # nodes per evaluation: 125 kB per array
+        wing = {k: inputs[k] for k in self._chain_wing}
+        node = {k: inputs[k] for k in self._chain_node}
+        totals = dict.fromkeys(self._mission_totals(), 0.0)
+        for start in range(0, self.options["num_nodes"], strip):
+            nodes = slice(start, start + strip)
+            params = dict(wing, **{k: v[nodes] for k, v in node.items()})
+            out = chain.evaluate(params, self._chain_opts, blowing=self._chain_blowing[nodes])
+            for name in self._chain_outputs:
+                view, value = outputs[name], out[name]
+                if np.shape(value) != view.shape:
+                    view[nodes] = value
+                elif start == 0:
+                    outputs[name] = value
+            for total, of in self._mission_totals().items():
+                totals[total] += np.sum(out[of])
+        for total, value in totals.items():
+            outputs[total] = value
         if self._chain_stations:
             st = chain.duct_stations(self._params(inputs), self._chain_opts)
             for name, (field, _) in STATION_OUTPUTS.items():
                 outputs[name] = getattr(st, field)
-        for total, of in self._mission_totals().items():
-            outputs[total] = np.sum(out[of])
 
     def compute_partials(self, inputs, partials):
         _, d = chain.evaluate(self._params(inputs), self._chain_opts, blowing=self._chain_blowing,
-                              derivatives=True, outputs=self._chain_wanted)
+                              derivatives=True, outputs=self._chain_wanted, wrt=self._chain_wrt)
         for of, wrt in self._chain_pairs:
             partials[of, wrt] = d[of][wrt].ravel()
-        if self._chain_stations:
+        if self._chain_station_pairs:
             _, st_tan = chain.duct_stations(self._params(inputs), self._chain_opts,
                                             derivatives=True)
-            for name, (field, _) in STATION_OUTPUTS.items():
-                for wrt, t in st_tan[field].items():
-                    partials[name, wrt] = t
-        for total, of in self._mission_totals().items():
-            for wrt in self._chain_totals[total]:
+            for name, field, wrt in self._chain_station_pairs:
+                partials[name, wrt] = st_tan[field][wrt]
+        for total, wrts in self._chain_totals.items():
+            of = self._mission_totals()[total]
+            for wrt in wrts:
                 t = d[of][wrt]
                 partials[total, wrt] = t if wrt in self._chain_node else t.sum(axis=0)

@@ -74,6 +74,15 @@ CHAIN_OPTIONS = {
                              "((name, mdao.physics.lift_table.LiftTable), ...); without the "
                              "aircraft the lift coefficient is an input per node"),
     "blowing": dict(default=None, allow_none=True, desc="per node: does the fan run (default: all)"),
+    "partials_of": dict(types=tuple, default=None, allow_none=True,
+                        desc="fused chain: the outputs whose partials are declared (default "
+                             "every output); set to what a problem differentiates (its "
+                             "responses) for a cheaper gradient"),
+    "partials_wrt": dict(types=tuple, default=None, allow_none=True,
+                         desc="fused chain: the inputs the partials are declared against "
+                              "(default every input; the others are held constant in "
+                              "derivatives); set to a problem's design variables for a cheaper "
+                              "gradient"),
     "follow_requirement": dict(types=bool, default=False,
                                desc="the fan gives the required pressure rise (fixed-design "
                                     "studies) instead of taking fan_pressure_rise as an input"),

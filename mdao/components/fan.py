@@ -28,8 +28,8 @@ class FanComp(om.ExplicitComponent):
     pressure rise the characteristic cannot reach gives NaN speed (see
     :func:`mdao.physics.fan.shaft_speed`). ``pressure`` and ``temperature`` are used only when
     ``compressible``; ``speed_of_sound`` only by the map model; ``density`` by the map model and
-    the compressible power (mass flow = density * volume_flow). All inputs exist in every mode so
-    that the wiring does not change with the options.
+    the compressible power (mass flow = density * volume_flow). Each is an input only in the
+    modes that use it: in a group every input is one more array moved at each evaluation.
     """
 
     cite = FAN_CITE
@@ -49,10 +49,14 @@ class FanComp(om.ExplicitComponent):
         ones = np.ones(n)
         self.add_input('fan_pressure_rise', 1000.0 * ones, units='Pa', desc='total-pressure rise')
         self.add_input('volume_flow', 0.05 * ones, units='m**3/s', desc='volume flow of all fans')
-        self.add_input('density', 1.225 * ones, units='kg/m**3', desc='inlet density')
-        self.add_input('pressure', 101325.0 * ones, units='Pa', desc='inlet total pressure')
-        self.add_input('temperature', 288.15 * ones, units='K', desc='inlet total temperature')
-        self.add_input('speed_of_sound', 340.294 * ones, units='m/s', desc='inlet speed of sound')
+        o = self.options
+        if self._uses_density():
+            self.add_input('density', 1.225 * ones, units='kg/m**3', desc='inlet density')
+        if o['compressible']:
+            self.add_input('pressure', 101325.0 * ones, units='Pa', desc='inlet total pressure')
+            self.add_input('temperature', 288.15 * ones, units='K', desc='inlet total temperature')
+        if o['fan_model'] == 'map':
+            self.add_input('speed_of_sound', 340.294 * ones, units='m/s', desc='inlet speed of sound')
         self.add_output('fan_efficiency', 0.7 * ones, units=None, desc='fan efficiency')
         self.add_output('fan_shaft_power', 100.0 * ones, units='W', desc='shaft power of all fans')
         self.add_output('air_power', 70.0 * ones, units='W',
@@ -66,6 +70,9 @@ class FanComp(om.ExplicitComponent):
         self.add_output('flow_coefficient', 0.2 * ones, units=None, desc='Q_fan / (N D^3)')
         self.add_output('pressure_coefficient', 0.6 * ones, units=None, desc='dp / (rho N^2 D^2)')
         self.add_output('tip_mach', 0.3 * ones, units=None, desc='pi N D / a')
+
+    def _uses_density(self):
+        return self.options['fan_model'] == 'map' or self.options['compressible']
 
     def _power_inputs(self):
         """Inputs of shaft_power besides efficiency and what drives it."""
@@ -104,7 +111,8 @@ class FanComp(om.ExplicitComponent):
     def _evaluate(self, inputs):
         """Outputs and their partials as dicts {output: {input: array (n,) or (n, 3)}}."""
         n = self.options['num_nodes']
-        q, dp, rho = inputs['volume_flow'], inputs['fan_pressure_rise'], inputs['density']
+        q, dp = inputs['volume_flow'], inputs['fan_pressure_rise']
+        rho = inputs['density'] if self._uses_density() else None
         out, jac = {}, {}
         if self.options['fan_model'] == 'constant':
             eta = np.full(n, inputs['fan_rated_efficiency'][0])
@@ -153,8 +161,9 @@ class FanComp(om.ExplicitComponent):
 
     def _air_power(self, inputs):
         """Power put into the air: the shaft power at unit efficiency, and its partials."""
-        q, dp, rho = inputs['volume_flow'], inputs['fan_pressure_rise'], inputs['density']
+        q, dp = inputs['volume_flow'], inputs['fan_pressure_rise']
         if self.options['compressible']:
+            rho = inputs['density']
             air, d = phys.shaft_power_isentropic(rho * q, dp, inputs['pressure'],
                                                  inputs['temperature'], 1.0, derivatives=True)
             return air, {'volume_flow': d['mass_flow'] * rho, 'density': d['mass_flow'] * q,
@@ -164,9 +173,31 @@ class FanComp(om.ExplicitComponent):
         return air, {'volume_flow': d['volume_flow'], 'fan_pressure_rise': d['pressure_rise']}
 
     def compute(self, inputs, outputs):
-        out, _ = self._evaluate(inputs)
-        for name, value in out.items():
-            outputs[name] = value
+        # values only: the partials of _evaluate are compute_partials' business
+        q, dp = inputs['volume_flow'], inputs['fan_pressure_rise']
+        rho = inputs['density'] if self._uses_density() else None
+        if self.options['fan_model'] == 'constant':
+            eta = inputs['fan_rated_efficiency'][0]
+        else:
+            fans, d = self.options['fans'], inputs['fan_diameter'][0]
+            qf = q / fans
+            speed = phys.shaft_speed(qf, dp, rho, d, inputs['pressure_coefficients'])
+            phi = phys.flow_coefficient_of(qf, speed, d)
+            eta = phys.map_efficiency(phi, inputs['peak_efficiency'][0],
+                                      inputs['peak_flow_coefficient'][0],
+                                      inputs['efficiency_falloff'][0])
+            outputs['fan_speed'] = speed
+            outputs['flow_coefficient'] = phi
+            outputs['pressure_coefficient'] = phys.pressure_coefficient(dp, rho, speed, d)
+            outputs['tip_mach'] = phys.tip_mach(speed, d, inputs['speed_of_sound'])
+        outputs['fan_efficiency'] = eta
+        if self.options['compressible']:
+            mdot, p, t = rho * q, inputs['pressure'], inputs['temperature']
+            outputs['fan_shaft_power'] = phys.shaft_power_isentropic(mdot, dp, p, t, eta)
+            outputs['air_power'] = phys.shaft_power_isentropic(mdot, dp, p, t, 1.0)
+        else:
+            outputs['fan_shaft_power'] = phys.shaft_power(q, dp, eta)
+            outputs['air_power'] = phys.shaft_power(q, dp, 1.0)
 
     def compute_partials(self, inputs, partials):
         _, jac = self._evaluate(inputs)

@@ -23,10 +23,11 @@ class SegmentPowerComp(om.ExplicitComponent):
                              desc="sequence of bool per node: does the fan run? (default all)")
 
     def _blowing(self):
-        return blowing_flags(self.options["blowing"], self.options["num_nodes"])
+        return self._blowing_flags      # checked once, in setup
 
     def setup(self):
         n = self.options["num_nodes"]
+        self._blowing_flags = blowing_flags(self.options["blowing"], n)
         self.add_input("drag_saving", val=np.ones(n), units="N", desc="clean minus blown drag")
         add_parameter_inputs(self, ("speed",), n)
         self.add_input("fan_shaft_power", val=np.zeros(n), units="W", desc="fan shaft power")

@@ -157,8 +157,9 @@ def drag_coefficient(momentum_coefficient, slot_ratio, drag_clean, slot_drag, sl
     b1 = np.asarray(drag_per_momentum_per_ratio, float)
     k2 = np.asarray(drag_quadratic, float)
     beta = drag_per_momentum_at(rs, drag_per_momentum, b1)
-    cd = (np.asarray(drag_clean, float) + slot_drag_at(rs, slot_drag, s1) + beta * cmu
-          + k2 * cmu**2)
+    cd = np.asarray(drag_clean, float) + slot_drag_at(rs, slot_drag, s1) + beta * cmu
+    if k2.ndim or k2 != 0.0:                # the linear model (k2 = 0) adds nothing
+        cd = cd + k2 * cmu**2
     if not derivatives:
         return cd
     d_out = {'momentum_coefficient': beta + 2.0 * k2 * cmu,

@@ -82,23 +82,50 @@ def isa(altitude, derivatives=False):
     (216.774, 22699.94)
     """
     z = np.asarray(altitude, dtype=float)
-    bad = ~((z >= ALTITUDE_RANGE[0]) & (z <= ALTITUDE_RANGE[1]))
-    if np.any(bad):
+    # the extremes first (a NaN among them fails both comparisons): one pass each
+    if z.size and not (z.min() >= ALTITUDE_RANGE[0] and z.max() <= ALTITUDE_RANGE[1]):
+        bad = ~((z >= ALTITUDE_RANGE[0]) & (z <= ALTITUDE_RANGE[1]))
         raise ValueError(f"altitude must be within {ALTITUDE_RANGE[0]:g} to {ALTITUDE_RANGE[1]:g} m "
                          f"(geometric); got {float(z[bad].ravel()[0])!r}")
-    h = EARTH_RADIUS * z / (EARTH_RADIUS + z)
-    dh_dz = (EARTH_RADIUS / (EARTH_RADIUS + z)) ** 2
-    lower = h <= H_TROPOPAUSE
-    temperature = np.where(lower, T0 - LAPSE_RATE * h, _T11)
-    pressure = np.where(lower, P0 * (temperature / T0) ** _EXPONENT,
-                        _P11 * np.exp(-G0 * (h - H_TROPOPAUSE) / (GAS_CONSTANT * _T11)))
-    density = pressure / (GAS_CONSTANT * temperature)
-    speed_of_sound = np.sqrt(GAMMA * GAS_CONSTANT * temperature)
-    viscosity = SUTHERLAND_C1 * temperature ** 1.5 / (temperature + SUTHERLAND_S)
-    state = Atmosphere(temperature, pressure, density, speed_of_sound, viscosity)
+    # Values without branches where they are not needed (this is the hot path of every study):
+    # T0 - L H falls below T11 exactly where H passes the tropopause, the troposphere's power
+    # law is exp(k log(T/T0)) (about a quarter cheaper than the general power), and the
+    # stratosphere's exponential is evaluated only at the points that are there.
+    shape = z.shape
+    z = z.reshape(-1)                       # 1-D working arrays: the in-place steps need arrays
+    h = EARTH_RADIUS + z
+    np.divide(z, h, out=h)
+    h *= EARTH_RADIUS
+    temperature = np.multiply(h, -LAPSE_RATE)
+    temperature += T0
+    np.maximum(temperature, _T11, out=temperature)
+    pressure = np.divide(temperature, T0)
+    np.log(pressure, out=pressure)
+    pressure *= _EXPONENT
+    np.exp(pressure, out=pressure)
+    pressure *= P0
+    upper = np.flatnonzero(h > H_TROPOPAUSE)
+    if upper.size:
+        pressure[upper] = _P11 * np.exp(-G0 * (h[upper] - H_TROPOPAUSE)
+                                        / (GAS_CONSTANT * _T11))
+    density = np.multiply(temperature, GAS_CONSTANT)
+    np.divide(pressure, density, out=density)
+    root_t = np.sqrt(temperature)
+    speed_of_sound = np.multiply(root_t, np.sqrt(GAMMA * GAS_CONSTANT))
+    viscosity = np.add(temperature, SUTHERLAND_S)      # C1 T^(3/2) / (T + S)
+    np.divide(root_t, viscosity, out=viscosity)
+    viscosity *= temperature
+    viscosity *= SUTHERLAND_C1
+    state = Atmosphere(*(v.reshape(shape) for v in (temperature, pressure, density,
+                                                    speed_of_sound, viscosity)))
     if not derivatives:
         return state
 
+    temperature, pressure, density, speed_of_sound, viscosity = state
+    h = h.reshape(shape)
+    z = z.reshape(shape)
+    dh_dz = (EARTH_RADIUS / (EARTH_RADIUS + z)) ** 2
+    lower = h <= H_TROPOPAUSE
     dt = np.where(lower, -LAPSE_RATE, 0.0) * dh_dz
     dp = -G0 * density * dh_dz                      # hydrostatic balance, both layers
     drho = density * (dp / pressure - dt / temperature)

@@ -80,16 +80,21 @@ def with_defaults(params, options=ChainOptions()):
 
     Parameters that have no default (required, or absent meaning "not used") are not added.
     """
-    p = {}
-    for prm in registry.chain_parameters(options.duct_model, options.fan_model,
-                                         aircraft=options.aircraft):
-        if prm.default is not registry.REQUIRED and prm.default is not None:
-            p[prm.name] = prm.default
+    p = dict(_defaults(options.duct_model, options.fan_model, options.aircraft))
     p.update(params)
     return p
 
 
-def evaluate(params, options=ChainOptions(), blowing=True, derivatives=False, outputs=None):
+@functools.lru_cache(maxsize=16)
+def _defaults(duct_model, fan_model, aircraft):
+    """``((name, default), ...)`` of the optional parameters of these models."""
+    return tuple((prm.name, prm.default)
+                 for prm in registry.chain_parameters(duct_model, fan_model, aircraft=aircraft)
+                 if prm.default is not registry.REQUIRED and prm.default is not None)
+
+
+def evaluate(params, options=ChainOptions(), blowing=True, derivatives=False, outputs=None,
+             wrt=None):
     """Evaluate the chain at broadcast operating points, optionally with partial derivatives.
 
     Parameters
@@ -122,6 +127,10 @@ def evaluate(params, options=ChainOptions(), blowing=True, derivatives=False, ou
         are structurally non-zero appear.
     outputs : collection of str, optional
         With ``derivatives``: the outputs whose partials are wanted (default every one).
+    wrt : collection of str, optional
+        With ``derivatives``: the inputs the partials are taken against (default every one);
+        the others are held constant. Tangents are carried for these inputs only, so a short
+        list (an optimization's design variables) makes the derivatives far cheaper.
 
     Returns
     -------
@@ -153,21 +162,32 @@ def evaluate(params, options=ChainOptions(), blowing=True, derivatives=False, ou
     jet is ram-driven (no fan power) the fan power's partials are zero, as in
     :func:`mdao.physics.fan.shaft_power`.
     """
+    if derivatives:
+        # one floating-point state for the whole chain rule: entering it at every step costs
+        # more than the arithmetic on a few segments (0 * NaN tangents: see _chain)
+        with np.errstate(invalid="ignore"):
+            return _evaluate(params, options, blowing, True, outputs, wrt)
+    return _evaluate(params, options, blowing, False, outputs, wrt)
+
+
+def _evaluate(params, options, blowing, d, outputs, wrt):
+    """:func:`evaluate`, with ``d`` for ``derivatives``."""
     p = with_defaults(params, options)
-    d = derivatives
     out = {}
     tan = {}
     if d:
         for name in p:
-            tan[name] = {name: 1.0}
-        for root in _COEFFICIENTS:
-            tan[root] = {root: 1.0}
+            if wrt is None or name in wrt:
+                tan[name] = {name: 1.0}
+        if wrt is None or "pressure_coefficients" in wrt:
+            for root in _COEFFICIENTS:
+                tan[root] = {root: 1.0}
 
     # Atmosphere and jet.
     if d:
         atm, datm = atmosphere.isa(p["altitude"], derivatives=True)
         for field in atm._fields:
-            tan[field] = {"altitude": getattr(datm, field)}
+            tan[field] = _chain({"altitude": getattr(datm, field)}, tan)
     else:
         atm = atmosphere.isa(p["altitude"])
     out.update(atm._asdict())
@@ -191,10 +211,10 @@ def evaluate(params, options=ChainOptions(), blowing=True, derivatives=False, ou
         ratio = np.atleast_1d(np.asarray(p["fan_diameter"], float) / thickness)
         out["fan_thickness_fraction"] = ratio
         if d:
-            tan["fan_thickness_fraction"] = {
+            tan["fan_thickness_fraction"] = _chain({
                 "fan_diameter": ratio / np.asarray(p["fan_diameter"], float),
                 "thickness_ratio": -ratio / np.asarray(p["thickness_ratio"], float),
-                "chord": -ratio / np.asarray(p["chord"], float)}
+                "chord": -ratio / np.asarray(p["chord"], float)}, tan)
 
     # The section's lift coefficient and the constants that follow it.
     fc = _lift(p, params, options, js.dynamic_pressure, out, tan if d else None)
@@ -227,11 +247,17 @@ def evaluate(params, options=ChainOptions(), blowing=True, derivatives=False, ou
 
     # Fan: efficiency (and the map's operating point), air power and shaft power.
     if options.fan_model == "constant":
-        eta = np.asarray(p["fan_rated_efficiency"], float) + 0 * js.volume_flow
+        eta_shaft = np.asarray(p["fan_rated_efficiency"], float)   # the scalar divides faster
         if d:
-            tan["fan_efficiency"] = {"fan_rated_efficiency": 1.0}
+            eta = eta_shaft + 0 * js.volume_flow
+        else:                               # values: a read-only broadcast view, no array
+            shape = np.shape(js.volume_flow)
+            eta = np.broadcast_to(eta_shaft, shape if eta_shaft.ndim == 0 else
+                                  np.broadcast_shapes(eta_shaft.shape, shape))
+        if d:
+            tan["fan_efficiency"] = _chain({"fan_rated_efficiency": 1.0}, tan)
     else:
-        eta = _fan_map(p, options, atm, js, dp, out, tan if d else None)
+        eta = eta_shaft = _fan_map(p, options, atm, js, dp, out, tan if d else None)
     out["fan_efficiency"] = eta
     if options.compressible:
         res = fan.shaft_power_isentropic(js.mass_flow, dp, atm.pressure, atm.temperature, 1.0,
@@ -245,7 +271,12 @@ def evaluate(params, options=ChainOptions(), blowing=True, derivatives=False, ou
     out["air_power"] = ideal
     on = ideal > 0
     with np.errstate(divide="ignore", invalid="ignore"):
-        out["fan_shaft_power"] = np.where(on, ideal / eta, 0.0)
+        if d:
+            out["fan_shaft_power"] = np.where(on, ideal / eta, 0.0)
+        else:   # the same without the branch; a NaN or inf (map fan) where off is zeroed
+            shaft = ideal / eta_shaft
+            out["fan_shaft_power"] = (shaft if np.isfinite(shaft).all()
+                                      else np.where(on, shaft, 0.0))
         if d:
             tan["fan_shaft_power"] = _chain({
                 "air_power": np.where(on, 1.0 / eta, 0.0),
@@ -263,7 +294,9 @@ def evaluate(params, options=ChainOptions(), blowing=True, derivatives=False, ou
     out["drag_coefficient"] = cd0 + inc
     out["section_drag"] = q_area * out["drag_coefficient"]
     out["clean_section_drag"] = q_area * cd0
-    out["drag_saving"] = -q_area * inc
+    saving = q_area * inc
+    saving *= -1.0                          # -(q S) dC_D, exactly, without a temporary
+    out["drag_saving"] = saving
     out["lift_increment"] = airfoil.lift_increment(p["momentum_coefficient"],
                                                    p["lift_per_momentum"])
     if d:
@@ -405,8 +438,9 @@ def _system_mass(p, options, out, tan):
         wet = {}
         for field in ("position", "perimeter"):
             for k, t in sd[field].items():
-                wet[k] = wet.get(k, 0.0) + np.sum(grads[field] * t, axis=-1)
-        tan["wetted_area"] = wet
+                if k in tan:
+                    wet[k] = wet.get(k, 0.0) + np.sum(grads[field] * t, axis=-1)
+        tan["wetted_area"] = _chain(wet, tan)
     tan["blowing_system_mass"] = {k: np.atleast_1d(v) for k, v in _chain({
         "rotating_mass": res[1]["rotating"], "wetted_area": res[1]["wetted_area"],
         "duct_areal_density": res[1]["duct_areal_density"],
@@ -596,24 +630,27 @@ def _geometric_loss_factor(p, options, atm, js, tan):
     db = {k: v.reshape(shape + v.shape[1:]) for k, v in res[1].items()}
     sd = _station_tangents(*geo, options.fans, options.schedule, options.stations)
     for name, field in ANGLE_OUTPUTS.items():
-        tan[name] = sd[field]
+        tan[name] = _chain(sd[field], tan)
     terms = [_chain({"volume_flow": db["volume_flow"] / options.fans, "density": db["density"],
                      "viscosity": db["viscosity"]}, tan),
-             {"roughness": db["roughness"], "extra_loss": 1.0}]
+             _chain({"roughness": db["roughness"], "extra_loss": 1.0}, tan)]
     # Through the stations: friction and form loss (on every station), bend loss (on the ends).
     # k_in = K_in (r_s/r_suc)^2 and k_bend = K_bend (A_slot/A_fan)^2 (coefficient_losses).
     a_fan, a_slot = st.area[0], st.area[-1]
     ratio_in = r_s / np.asarray(p["suction_ratio"], float)
-    terms.append({"slot_ratio": 2.0 * k_in / r_s,
-                  "suction_ratio": -2.0 * k_in / np.asarray(p["suction_ratio"], float),
-                  "suction_inlet_loss": ratio_in ** 2, "bend_loss": (a_slot / a_fan) ** 2})
+    terms.append(_chain({"slot_ratio": 2.0 * k_in / r_s,
+                         "suction_ratio": -2.0 * k_in / np.asarray(p["suction_ratio"], float),
+                         "suction_inlet_loss": ratio_in ** 2, "bend_loss": (a_slot / a_fan) ** 2},
+                        tan))
     station = {}
     for field in ("position", "area", "perimeter"):
         for k, t in sd[field].items():
-            station[k] = station.get(k, 0.0) + db[field] @ t
+            if k in tan:     # a wing input the derivatives are taken against
+                station[k] = station.get(k, 0.0) + db[field] @ t
     for k, t in sd["area"].items():
-        station[k] = station[k] + 2.0 * k_bend * (t[-1] / a_slot - t[0] / a_fan)
-    terms.append(station)
+        if k in tan:
+            station[k] = station[k] + 2.0 * k_bend * (t[-1] / a_slot - t[0] / a_fan)
+    terms.append(_chain(station, tan))
     tan["jet_loss_factor"] = _add(*terms)
     return kj
 
@@ -665,7 +702,7 @@ def _airfoil_tangents(p, q, area, cd, inc, dinc, tan):
     tan["blown_increment"] = _chain({k: dinc[k] for k in airfoil.DRAG_INPUTS if k != "drag_clean"},
                                     tan)
     tan["drag_coefficient"] = _add(tan["blown_increment"], _chain({"drag_clean": 1.0}, tan))
-    tan["area"] = {"chord": p["blown_span"], "blown_span": p["chord"]}
+    tan["area"] = _chain({"chord": p["blown_span"], "blown_span": p["chord"]}, tan)
     cd0 = np.asarray(p["drag_clean"], float)
     tan["section_drag"] = _chain({"dynamic_pressure": area * cd, "area": q * cd,
                                   "drag_coefficient": q * area}, tan)
@@ -698,11 +735,17 @@ def _chain(local, tan):
     the (undefined) speed of a fan map there.
     """
     out = {}
-    with np.errstate(invalid="ignore"):     # once per call: entering it per term costs more
-        for name, dx in local.items():
-            for root, t in tan.get(name, {}).items():
+    for name, dx in local.items():      # (invalid operations ignored once, in evaluate)
+        tx = tan.get(name)
+        if not tx:
+            continue
+        scalar = type(dx) is float     # a Python number: a seed or a fixed factor
+        for root, t in tx.items():
+            if scalar or type(t) is float:
+                term = dx * t     # a seed or fixed factor times the other: no 0 * NaN
+            else:
                 term = np.where(dx == 0, 0.0, dx * t)
-                out[root] = out[root] + term if root in out else term
+            out[root] = out[root] + term if root in out else term
     return out
 
 

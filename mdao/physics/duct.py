@@ -82,10 +82,22 @@ def required_pressure_rise(jet_loss_factor, freestream_assist, density, jet_velo
     rho = np.asarray(density, float)
     vj = np.asarray(jet_velocity, float)
     q = np.asarray(dynamic_pressure, float)
-    head = 0.5 * rho * vj * vj
-    dp = kj * head - ki * q
+    head = rho * vj
+    head *= vj
+    head *= 0.5                             # = 0.5 rho vj vj exactly (a power of two)
     if not derivatives:
+        dp = head
+        if kj.ndim == 0:
+            dp *= kj
+        else:
+            dp = kj * dp
+        ram = ki * q
+        if isinstance(dp, np.ndarray) and np.shape(ram) in ((), dp.shape):
+            dp -= ram
+        else:
+            dp = dp - ram
         return dp
+    dp = kj * head - ki * q
     zero = 0 * dp
     return dp, {
         "jet_loss_factor": head + zero,

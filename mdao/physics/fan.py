@@ -379,10 +379,17 @@ def shaft_power(volume_flow, pressure_rise, efficiency, derivatives=False):
     250.0
     """
     q, dp, eta = (np.asarray(v, float) for v in (volume_flow, pressure_rise, efficiency))
+    if not derivatives:
+        # fmax(dp, 0) (0 for a NaN rise too) zeroes the windmilling points without a branch;
+        # a non-finite flow or efficiency there would leave 0 * inf = NaN: zero it as before.
+        p = q * np.fmax(dp, 0.0)
+        if eta.ndim or eta != 1.0:          # P / 1 is P (the air power)
+            p = p / eta
+        if not np.isfinite(p).all():
+            p = np.where(dp > 0, p, 0.0)
+        return p
     on = dp > 0
     p = np.where(on, q * dp / eta, 0.0)
-    if not derivatives:
-        return p
     d_out = {'volume_flow': np.where(on, dp / eta, 0.0),
              'pressure_rise': np.where(on, q / eta, 0.0),
              'efficiency': np.where(on, -p / eta, 0.0)}

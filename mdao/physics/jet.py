@@ -117,7 +117,8 @@ def jet_velocity_ratio(momentum_coefficient, slot_ratio):
         raise ValueError(f"slot_ratio must be > 0, got {np.min(r)!r}")
     if np.any(c < 0):
         raise ValueError(f"momentum_coefficient must be >= 0, got {np.min(c)!r}")
-    return np.sqrt(c / (2.0 * r))
+    ratio = c / (2.0 * r)
+    return np.sqrt(ratio, out=ratio) if isinstance(ratio, np.ndarray) else np.sqrt(ratio)
 
 
 def kinematics(momentum_coefficient, slot_ratio, speed, density, chord, blown_span,
@@ -179,10 +180,19 @@ def kinematics(momentum_coefficient, slot_ratio, speed, density, chord, blown_sp
     b = np.asarray(blown_span, float)
     a = np.asarray(speed_of_sound, float)
     ratio = jet_velocity_ratio(c, r)
-    q = 0.5 * rho * v * v
-    vj = v * ratio
+    q = rho * v
+    q *= v
+    q *= 0.5                                # = 0.5 rho v v exactly (a power of two)
     h = r * ch
     area = h * b
+    if derivatives:
+        vj = v * ratio
+    else:                                   # the ratio is not kept: the jet velocity in its place
+        vj = ratio
+        if isinstance(vj, np.ndarray) and v.shape in ((), vj.shape):
+            vj *= v
+        else:
+            vj = v * vj
     vol = area * vj
     mdot = rho * vol
     mach = vj / a

@@ -79,12 +79,21 @@ def segment_power(drag_saving, speed, fan_shaft_power, chain_efficiency, motor_e
     ps = np.asarray(fan_shaft_power, float)
     ec = np.asarray(chain_efficiency, float)
     em = np.asarray(motor_efficiency, float)
+    if not derivatives:
+        prop = dd * v
+        if prop.ndim and ec.ndim == 0:
+            prop /= ec                          # in place: no temporary
+        else:
+            prop = prop / ec
+        fan = ps / em
+        on = np.asarray(blowing)
+        if not (on.shape in ((), np.shape(fan)) and on.all()):
+            fan = on.astype(float) * fan        # no fan power where it does not run
+        return prop, fan, prop - fan
     on = np.asarray(blowing, float)
     prop = dd * v / ec
     fan = on * ps / em
     net = prop - fan
-    if not derivatives:
-        return prop, fan, net
     z = 0 * net
     d = {
         ("propulsion_power_saving", "drag_saving"): v / ec + z,
@@ -152,9 +161,14 @@ def energy_margin(air_power, section_drag, speed, thrust_power_ceiling, derivati
     dr = np.asarray(section_drag, float)
     v = np.asarray(speed, float)
     c = np.asarray(thrust_power_ceiling, float)
+    if not derivatives:                     # a ceiling of 1 multiplies nothing
+        air = pa if c.ndim == 0 and c == 1.0 else c * pa
+        margin = dr * v
+        if margin.ndim and np.shape(air) in ((), margin.shape):
+            margin += air                       # in place: no temporary
+            return margin
+        return air + margin
     margin = c * pa + dr * v
-    if not derivatives:
-        return margin
     z = 0.0 * margin
     return margin, {"air_power": c + z, "section_drag": v + z, "speed": dr + z,
                     "thrust_power_ceiling": pa + z}
