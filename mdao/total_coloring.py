@@ -13,7 +13,10 @@ solve per design variable, and it writes the result to a file. Here the pattern 
 any solve, from the sparsity every component declares (rows and columns of each partial): the
 pattern of a response against a design variable is the Boolean product of the declared patterns
 along the explicit, feed-forward chain from the one to the other. It is computed in memory when
-the problem is built, and the coloring itself is OpenMDAO's (:mod:`openmdao.utils.coloring`).
+the problem is built. The densest rows (a mission total) come from reverse solves and the others
+from forward ones, colored greedily (OpenMDAO's own greedy coloring loops over colors per column
+and took seconds at 192 segments); the result is handed to the driver as OpenMDAO's
+:class:`openmdao.utils.coloring.Coloring`, which its ``compute_totals`` uses as usual.
 """
 import numpy as np
 from scipy import sparse
