@@ -166,7 +166,8 @@ class OutputSet:
        to it in one step (atomic: the folder appears whole or not at all). When it exists, the
        staging folder is marked complete (:data:`COMPLETE`, a journal naming the command's
        output patterns), each file is renamed into place, the files of the command's own output
-       patterns that this run did not write (another case's ``break_even_3.png``) are removed,
+       patterns that this run did not write (another case's
+       ``break_even_slot_ratio_vs_extra_loss.png``) are removed,
        and the staging folder goes; if the run is killed during those renames (milliseconds),
        the next run into the folder finishes them before it starts. Other files in the folder
        are never touched.

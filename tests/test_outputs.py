@@ -242,7 +242,8 @@ def test_review_replaces_another_runs_set_with_umask_modes(tmp_path, capsys, uma
     os.utime(out / ".review.md.k2m9x0ab.tmp", (old, old))
     assert main(["review", str(SURVEY), "--samples", "12", "--out", str(out)]) == 0
     names = set(os.listdir(out))
-    assert names >= {"review.md", "review.json", "tornado.png", "break_even_1.png", "notes.txt"}
+    assert names >= {"review.md", "review.json", "tornado.png", "notes.txt",
+                     "break_even_slot_ratio_vs_jet_loss_factor.png"}
     assert not names & {"duct.png", "break_even_7.png"}          # not written by this run
     assert not [n for n in names if n.startswith(".")]           # no temporary or staging file
     assert (out / "notes.txt").read_text() == "the user's own file\n"

@@ -26,30 +26,53 @@ def _parser():
     common.add_argument("--debug", action="store_true",
                         help="on an internal error, show the Python traceback (exit 1) instead "
                              "of one line (exit 4)")
-    o = sub.add_parser("optimize", parents=[common],
+    common.add_argument("--quiet", action="store_true",
+                        help="print nothing but errors: no progress, no report (the files are "
+                             "written all the same)")
+    document = argparse.ArgumentParser(add_help=False)
+    document.add_argument("--json", action="store_true",
+                          help="print the command's JSON document on stdout instead of the "
+                               "report (the same text as the file it writes in --out)")
+
+    def out(parser, command, writes):
+        parser.add_argument("--out", default=command, metavar="DIR",
+                            help=f"folder for {writes} (default: ./{command}/, like every "
+                                 "command: a folder named after it)")
+
+    o = sub.add_parser("optimize", parents=[common, document],
                        help="optimize a case: slot ratio, pressure rise and momentum coefficient "
                             "per segment")
     o.add_argument("case", help="case file (TOML)")
-    o.add_argument("--out", default=None, help="folder for results.json (default: none written)")
-    e = sub.add_parser("evaluate", parents=[common],
+    out(o, "optimize", "results.json")
+    o.add_argument("--n2", default=None, metavar="FILE",
+                   help="also write OpenMDAO's N2 diagram of the built problem (HTML) to FILE")
+    o.add_argument("--record", default=None, metavar="FILE",
+                   help="also record the optimizer's iterations to FILE with OpenMDAO's SQLite "
+                        "case recorder (read it with openmdao.api.CaseReader)")
+    e = sub.add_parser("evaluate", parents=[common, document],
                        help="evaluate a case's start point without optimizing")
     e.add_argument("case", help="case file (TOML)")
-    e.add_argument("--out", default=None, help="folder for results.json (default: none written)")
-    c = sub.add_parser("calibrate", parents=[common],
+    out(e, "evaluate", "results.json")
+    e.add_argument("--n2", default=None, metavar="FILE",
+                   help="also write OpenMDAO's N2 diagram of the built problem (HTML) to FILE")
+    c = sub.add_parser("calibrate", parents=[common, document],
                        help="fit the model constants to CFD or wind-tunnel runs")
     c.add_argument("runs", help="CSV of runs, each header with its unit in brackets")
-    c.add_argument("--out", default="calibration", help="output folder (default: calibration)")
+    out(c, "calibrate", "calibration.json, calibration.toml and the plots")
     c.add_argument("--no-plots", action="store_true", help="skip the PNG plots")
     c.add_argument("--lift-bands", type=int, default=None, metavar="N",
                    help="fit the constants in N bands of lift and write them as lift tables "
                         "(1: one value per constant; default: decided from the runs)")
-    r = sub.add_parser("review", parents=[common],
+    r = sub.add_parser("review", parents=[common, document],
                        help="design-review studies: sensitivities, break-even maps, uncertainty, "
                             "report")
     r.add_argument("case", help="case file (TOML) with an [uncertainty] table")
-    r.add_argument("--out", default="review", help="output folder (default: review)")
+    out(r, "review", "review.md, review.json and the figures")
     r.add_argument("--samples", type=int, default=None, metavar="N",
                    help="Monte Carlo samples, at least 10 (overrides [review] samples)")
+    r.add_argument("--seed", type=int, default=None, metavar="S",
+                   help="random seed of the Monte Carlo draws, at least 0 (overrides [review] "
+                        "seed)")
     r.add_argument("--no-plots", action="store_true", help="skip the PNG figures")
     r.add_argument("--optimum-per-sample", action="store_true",
                    help="also re-optimize every Monte Carlo sample (optimization under "
@@ -63,11 +86,11 @@ def _parser():
                        help="the geometric duct for CAD at the optimum: stations and section "
                             "loops (CSV) and a figure, for one of the fans")
     d.add_argument("case", help="case file (TOML) with duct.model = \"geometric\"")
-    d.add_argument("--out", default="duct", help="output folder (default: duct)")
+    out(d, "duct", "transition.csv, sections.csv and duct.png")
     d.add_argument("--start", action="store_true",
                    help="the case's start point instead of the optimum (no optimization)")
     d.add_argument("--no-plots", action="store_true", help="skip duct.png")
-    m = sub.add_parser("many", parents=[common],
+    m = sub.add_parser("many", parents=[common, document],
                        help="many independent optimizations: one optimum per Monte Carlo sample "
                             "or per random start, serially or on Dask")
     m.add_argument("case", help="case file (TOML)")
@@ -78,7 +101,7 @@ def _parser():
                    help="number of samples or starts, at least 1 (default: [review] samples)")
     m.add_argument("--seed", type=int, default=None, metavar="S",
                    help="random seed, at least 0 (default: [review] seed)")
-    m.add_argument("--out", default="many", help="output folder for many.json (default: many)")
+    out(m, "many", "many.json")
     m.add_argument("--scheduler", default=None,
                    help="Dask scheduler address, tcp://host:port (refused when it does not "
                         "answer within 3 s)")

@@ -39,8 +39,8 @@ OUTPUTS = {
     "evaluate": ("results.json",),
     "calibrate": ("calibration.json", "calibration.toml", "duct_collapse.png",
                   "drag_momentum.png", "residuals.png"),
-    "review": ("review.md", "review.json", "tornado.png", "net_power.png", "uncertainty.png",
-               "break_even_*.png", "duct.png"),
+    "review": ("review.md", "review.json", "optimization_history.png", "tornado.png",
+               "net_power.png", "uncertainty.png", "break_even_*.png", "duct.png"),
     "many": ("many.json",),
     "duct": ("transition.csv", "sections.csv", "duct.png"),
 }
@@ -156,42 +156,124 @@ def _outputs(args):
     return OutputSet(args.out, OUTPUTS[args.command]).open()
 
 
-def _wrote(outputs, files):
-    for f in files:
-        _say(f"wrote {outputs.final(f) if outputs.path in Path(f).parents else f}")
+def _talk(args):
+    """Whether the command prints its report (not with ``--quiet`` nor ``--json``)."""
+    return not (getattr(args, "quiet", False) or getattr(args, "json", False))
+
+
+def _progress(args):
+    """Progress display setting: off with ``--quiet`` or ``--json``, else on a terminal."""
+    return False if not _talk(args) else None
+
+
+def _wrote(args, outputs, files):
+    if _talk(args):
+        for f in files:
+            _say(f"wrote {outputs.final(f) if outputs.path in Path(f).parents else f}")
+
+
+def _document(args, outputs, name):
+    """With ``--json``: the committed JSON document ``name`` of the output folder on stdout,
+    byte for byte the file's text."""
+    if getattr(args, "json", False) and outputs is not None:
+        sys.stdout.write((outputs.target / name).read_text(encoding="utf-8"))
+        sys.stdout.flush()
+
+
+def _file_option(option, value):
+    """A ``--n2``/``--record`` FILE, checked before any computation: its folder exists and it is
+    not a folder itself (:class:`mdao.files.OutputError`, exit 2). None stays None."""
+    if value is None:
+        return None
+    text = safe_text(value, 300, False)
+    if "\0" in value or not value.strip():
+        raise OutputError(f"{option} {text}: not a file name")
+    path = Path(value)
+    if path.is_dir():
+        raise OutputError(f"{option} {text}: is a folder; give a file name")
+    if not path.parent.is_dir():
+        raise OutputError(f"{option} {text}: the folder {safe_text(str(path.parent), 300, False)} "
+                          "does not exist")
+    return path
+
+
+class _AtomicFile:
+    """A temporary file beside ``path`` (``.NAME.XXXX.tmp``, cleaned by the next output set),
+    renamed to ``path`` when the ``with`` block ends normally and removed otherwise."""
+
+    def __init__(self, path):
+        self.path = path
+        self.tmp = None
+
+    def __enter__(self):
+        import os
+        import tempfile
+        fd, tmp = tempfile.mkstemp(dir=self.path.parent, prefix=f".{self.path.name}.",
+                                   suffix=".tmp")
+        os.close(fd)
+        os.unlink(tmp)          # the writer creates it (SQLite refuses an empty file)
+        self.tmp = Path(tmp)
+        return self.tmp
+
+    def __exit__(self, kind, value, trace):
+        import os
+        from mdao.files import file_mode
+        if kind is None and self.tmp.exists():
+            os.chmod(self.tmp, file_mode())
+            os.replace(self.tmp, self.path)
+        elif self.tmp.exists():
+            self.tmp.unlink()
+        return False
+
+
+def _write_n2(prob, path, title):
+    """OpenMDAO's N2 diagram of ``prob`` (HTML) to ``path``, atomically."""
+    from openmdao.visualization.n2_viewer.n2_viewer import n2
+    with _AtomicFile(path) as tmp:
+        n2(prob, outfile=str(tmp), show_browser=False, display_in_notebook=False, title=title)
 
 
 # --- commands -----------------------------------------------------------------------------------
 def _optimize(args, optimized=True):
-    """``blownwing optimize|evaluate CASE [--out DIR]``."""
+    """``blownwing optimize|evaluate CASE [--out DIR] [--json] [--quiet] [--n2 FILE]
+    [--record FILE]``."""
     from mdao.case import load_case
     from mdao.files import write_json
     from mdao.optimum import evaluate_start_point, optimize
     from mdao.report.console import summary
 
+    n2_file = _file_option("--n2", getattr(args, "n2", None))
+    record_file = _file_option("--record", getattr(args, "record", None))
     outputs = _outputs(args)
     with outputs or _Nothing():
         case = load_case(args.case)
-        outcome = optimize(case) if optimized else evaluate_start_point(case)
-        if optimized and not outcome.converged:
-            _error(f"{safe_text(case.title, 300, False)}\nNOT CONVERGED: {outcome.message} after "
-                   f"{outcome.iterations} iterations ({outcome.model_evaluations} model "
-                   "evaluations). No optimum is reported; check the bounds, the start point "
-                   "([[segment]] momentum_coefficient) or [optimize] max_iterations.")
-            if outputs:
-                write_json(outputs.path / "results.json", outcome.to_json())
-                outputs.commit()
-            return EXIT_NOT_CONVERGED
-        text = summary(outcome, case, optimized=optimized)
+        if not optimized:
+            outcome = evaluate_start_point(case)
+        elif record_file is not None:
+            with _AtomicFile(record_file) as tmp:
+                outcome = optimize(case, record=tmp)
+        else:
+            outcome = optimize(case)
+        if n2_file is not None:
+            _write_n2(outcome.problem, n2_file, safe_text(case.title, 300, False))
+        data = outcome.to_json()
+        data.update(case=str(args.case), title=case.title, version=__version__, caution=CAUTION)
         if outputs:
-            data = outcome.to_json()
-            data.update(case=str(args.case), title=case.title, version=__version__,
-                        caution=CAUTION)
             write_json(outputs.path / "results.json", data)
             outputs.commit()
-        _say(text)
-        if outputs:
-            _say(f"wrote {outputs.shown / 'results.json'}")
+        if optimized and not outcome.converged:
+            _error(f"{safe_text(case.title, 300, False)}\nNOT CONVERGED: {outcome.message} "
+                   f"({outcome.iterations} iterations, {outcome.model_evaluations} model "
+                   "evaluations); no optimum is reported.")
+            _document(args, outputs, "results.json")
+            return EXIT_NOT_CONVERGED
+        _document(args, outputs, "results.json")
+        if _talk(args):
+            _say(summary(outcome, case, optimized=optimized))
+            written = ([outputs.shown / "results.json"] if outputs else []) + [
+                f for f in (n2_file, record_file) if f is not None]
+            for f in written:
+                _say(f"wrote {f}")
     return EXIT_OK
 
 
@@ -204,9 +286,11 @@ def _calibrate(args):
         result = calibrate_file(args.runs, outputs.path, plots=not args.no_plots,
                                 lift_bands=args.lift_bands, named_in=outputs.shown)
         outputs.commit()
-    _say(format_summary(result))
-    _say(f"wrote {outputs.shown / 'calibration.json'} and "
-         f"{outputs.shown / 'calibration.toml'}")
+    _document(args, outputs, "calibration.json")
+    if _talk(args):
+        _say(format_summary(result))
+        _say(f"wrote {outputs.shown / 'calibration.json'} and "
+             f"{outputs.shown / 'calibration.toml'}")
     return EXIT_OK
 
 
@@ -222,28 +306,33 @@ def _review(args):
     from mdao.studies.review import run_review
 
     _at_least("--samples", args.samples, 10)
+    _at_least("--seed", args.seed, 0)
     _at_least("--workers", args.workers, 1)
     check_scheduler(args.scheduler)
     with _outputs(args) as outputs:
         case = load_case(args.case)
-        steps = StepDisplay("review")
+        steps = StepDisplay("review", enabled=_progress(args))
         data = run_review(case, samples=args.samples, optimum_per_sample=args.optimum_per_sample,
-                          scheduler=args.scheduler, workers=args.workers, progress=steps)
+                          scheduler=args.scheduler, workers=args.workers, progress=steps,
+                          seed=args.seed)
         if not data["converged"]:
             o = data["optimum"]
-            _error(f"{safe_text(case.title, 300, False)}\nNOT CONVERGED: {o['message']} after "
-                   f"{o['iterations']} iterations. No review is written as an optimum; check the "
-                   "bounds, the start point or [optimize] max_iterations.")
+            _error(f"{safe_text(case.title, 300, False)}\nNOT CONVERGED: {o['message']} "
+                   f"({o['iterations']} iterations); no review is written for a design that is "
+                   "not an optimum.")
             write_review_failure(data, outputs.path)
             outputs.commit()
+            _document(args, outputs, "review.json")
             return EXIT_NOT_CONVERGED
         steps("writing the report", 0, 1)
         files = write_review(data, outputs.path, plots=not args.no_plots)
         outputs.commit()
         steps("writing the report", 1, 1)
-    _say(review_summary(data))
-    _wrote(outputs, files)
-    print(CAUTION)
+    _document(args, outputs, "review.json")
+    if _talk(args):
+        _say(review_summary(data))
+        _wrote(args, outputs, files)
+        print(CAUTION)
     return EXIT_OK
 
 
@@ -266,12 +355,14 @@ def _many(args):
         case = load_case(args.case)
         data = run_many(case, args.kind, samples=args.samples, seed=args.seed,
                         scheduler=args.scheduler, workers=args.workers,
-                        progress=OptimizationCounter())
+                        progress=OptimizationCounter(enabled=_progress(args)))
         data["case"] = str(args.case)
         write_json(outputs.path / "many.json", data)
         outputs.commit()
-    _say(many_summary(data))
-    _say(f"wrote {outputs.shown / 'many.json'}")
+    _document(args, outputs, "many.json")
+    if _talk(args):
+        _say(many_summary(data))
+        _say(f"wrote {outputs.shown / 'many.json'}")
     return EXIT_OK if data["summary"]["converged"] else EXIT_NOT_CONVERGED
 
 
@@ -293,13 +384,15 @@ def _duct(args):
         export = duct_export(case, start=args.start)
         if not export.converged:
             o = export.outcome
-            _error(f"{safe_text(case.title, 300, False)}\nNOT CONVERGED: {export.message} after "
-                   f"{o.iterations} iterations. No duct is written for a design that is not an "
-                   "optimum; check the case, or export the start point with --start.")
+            _error(f"{safe_text(case.title, 300, False)}\nNOT CONVERGED: {export.message} "
+                   f"({o.iterations} iterations); no duct is written for a design that is not "
+                   "an optimum (export the start point with --start).")
             return EXIT_NOT_CONVERGED
         data = export.data
         files = write_duct_files(case, data, outputs.path, plots=not args.no_plots)
         outputs.commit()
+    if not _talk(args):
+        return EXIT_OK
     span = max(data["span_wall_half_angle_deg"])
     thickness = max(data["thickness_wall_half_angle_deg"])
     _say(f"blownwing {__version__}: {safe_text(case.title, 300, False)}\n"
@@ -315,7 +408,7 @@ def _duct(args):
             "limit at this design"))
     if not args.no_plots and len(files) < 3:
         print("note: matplotlib is not installed: no duct.png (pip install matplotlib)")
-    _wrote(outputs, files)
+    _wrote(args, outputs, files)
     print(CAUTION)
     return EXIT_OK
 

@@ -5,6 +5,9 @@ driver's own flag *and* the constraints at the returned point), and collects per
 results, active constraints and the break-even fan efficiency. :func:`evaluate_start_point` does the same
 at the case's start point without optimizing.
 """
+import contextlib
+import io
+import sys
 import time
 from dataclasses import dataclass, field
 
@@ -42,6 +45,8 @@ class Outcome:
     #: ``blowing_system_mass_kg``, ``fan_diameter_m`` and whether the fan was sized in the
     #: optimization (``sized``).
     hardware: dict = field(default_factory=dict)
+    #: The optimizer's own stop message, verbatim (for the record; ``message`` says it in words).
+    optimizer_message: str = ""
 
     @property
     def mission_energy_clean_J(self):
@@ -61,6 +66,7 @@ class Outcome:
         """The ``results.json`` content."""
         return {
             "converged": self.converged, "message": self.message,
+            "optimizer_message": self.optimizer_message,
             "iterations": self.iterations, "model_evaluations": self.model_evaluations,
             "derivative_evaluations": self.derivative_evaluations,
             "wall_time_s": self.wall_time_s, "slot_ratio": self.slot_ratio,
@@ -254,7 +260,7 @@ def hardware(case, vals):
             "fan_diameter_m": None if diameter is None else float(diameter)}
 
 
-def optimize(case, problem=None, warm_start=None):
+def optimize(case, problem=None, warm_start=None, record=None):
     """Optimize a case.
 
     Parameters
@@ -265,6 +271,10 @@ def optimize(case, problem=None, warm_start=None):
     warm_start : Outcome, optional
         Start from this earlier optimum (slot ratio, momentum coefficients, pressure rises),
         e.g. for re-optimizing after a small change of one input.
+    record : str or Path, optional
+        Record the driver's iterations (design variables, objective, constraints) to this file
+        with OpenMDAO's SQLite case recorder (read it with ``openmdao.api.CaseReader``); the
+        file is complete when this returns.
 
     Returns
     -------
@@ -279,28 +289,123 @@ def optimize(case, problem=None, warm_start=None):
             prob.set_val(name, warm_start.values[name])
         for name, value in design_point(warm_start.values).items():
             prob.set_val(name, value)
-    result = prob.run_driver()
+    recorder = _recorder(prob, record) if record is not None else None
+    try:
+        result = run_driver_quietly(prob)
+    finally:
+        if recorder is not None:
+            recorder.shutdown()
     wall = time.perf_counter() - t0
     vals = read_values(prob, case)
     bad = feasibility(case, vals)
     converged = bool(result.success) and not bad
     scipy_result = getattr(prob.driver, "_scipy_optimize_result", None)
+    iterations = optimizer_iterations(prob.driver, result)
     said = getattr(scipy_result, "message", None) or f"exit status {result.exit_status}"
     if result.success and bad:
-        message = "optimizer stopped at an infeasible point: " + "; ".join(bad)
+        message = ("the optimizer stopped at a point that breaks a constraint ("
+                   + "; ".join(bad) + "): try another start point or tighten optimize.tolerance")
     elif not result.success:
-        message = f"optimizer did not converge: {said}"
+        message = failure_sentence(getattr(scipy_result, "status", None), case, iterations)
         lacking = start_point(case).without_admissible_point
         if lacking:
             message += ("; in segment(s) " + ", ".join(lacking) + " no momentum coefficient of "
                         "the calibrated range meets every per-segment constraint (energy "
-                        "balance, jet Mach, fan limits) at the start slot ratio: consider "
-                        "blowing = false there")
+                        "consistency, jet Mach limit, fan limits) at the start slot ratio: "
+                        "consider blowing = false there")
     else:
-        message = f"converged: {said}"
+        message = "converged"
     devals = int(getattr(scipy_result, "njev", 0) or 0)
-    return _outcome(case, prob, converged, message, int(result.iter_count),
-                    int(result.model_evals), devals, wall)
+    out = _outcome(case, prob, converged, message, iterations, int(result.model_evals), devals,
+                   wall)
+    out.optimizer_message = str(said)
+    return out
+
+
+#: Lines ScipyOptimizeDriver prints on its own when SLSQP stops (whatever its ``disp``).
+_DRIVER_BANNER = ("Optimization FAILED.", "Optimization Complete", "-" * 35)
+
+
+def run_driver_quietly(prob):
+    """``prob.run_driver()`` without the banner OpenMDAO's ScipyOptimizeDriver prints on
+    stdout when SLSQP stops ("Optimization FAILED.", SciPy's message, a dashed line), which it
+    prints whatever the driver's ``disp`` option: the outcome's ``message`` says what happened
+    in words instead. Any other output of the run is passed on unchanged.
+
+    Returns
+    -------
+    openmdao.core.driver.DriverResult
+    """
+    buffer = io.StringIO()
+    try:
+        with contextlib.redirect_stdout(buffer):
+            result = prob.run_driver()
+    finally:
+        said = getattr(getattr(prob.driver, "_scipy_optimize_result", None), "message", None)
+        kept = [line for line in buffer.getvalue().splitlines(keepends=True)
+                if line.rstrip("\n") not in _DRIVER_BANNER + (said,)]
+        if kept:
+            sys.stdout.write("".join(kept))
+    return result
+
+
+def optimizer_iterations(driver, result=None):
+    """The optimizer's own iteration count: SciPy's ``nit`` (SLSQP's major iterations).
+
+    OpenMDAO's ``iter_count`` (also ``DriverResult.iter_count``) counts the driver's model
+    runs, the initial run and every objective evaluation of the line searches included, not
+    the optimizer's iterations: with ``maxiter = 2`` SLSQP stops at ``nit = 2`` after 4 model
+    runs. Falls back to ``iter_count`` for a driver without a SciPy result.
+    """
+    nit = getattr(getattr(driver, "_scipy_optimize_result", None), "nit", None)
+    if nit is not None:
+        return int(nit)
+    return int(getattr(result, "iter_count", getattr(driver, "iter_count", 0)))
+
+
+#: SLSQP stops that are not convergence, by SciPy's exit status (scipy.optimize's SLSQP exit
+#: modes): what happened and what to try, in words.
+_SLSQP_STOPS = {
+    2: ("the problem has more equality constraints than design variables",
+        "check which segments blow and which values the case holds fixed"),
+    4: ("the optimizer found no step that keeps every constraint (the linearized constraints "
+        "contradict each other at its last point)",
+        "try another start point ([[segment]] momentum_coefficient, slot.ratio) or wider bounds"),
+    8: ("the optimizer's line search could not improve the design any further",
+        "loosen optimize.tolerance or try another start point"),
+}
+
+
+def failure_sentence(status, case, iterations):
+    """One plain sentence, what happened and what to try, for an SLSQP stop that is not
+    convergence; ``status`` is SciPy's exit status (None: unknown)."""
+    if status == 9:
+        return (f"the optimizer stopped at its iteration limit (optimize.max_iterations = "
+                f"{case.optimize['max_iterations']}) before converging: raise "
+                "optimize.max_iterations or loosen optimize.tolerance")
+    if status in _SLSQP_STOPS:
+        what, remedy = _SLSQP_STOPS[status]
+        return f"{what}, after {iterations} iterations: {remedy}"
+    if status in (3, 5, 6, 7):
+        return (f"the optimizer's internal least-squares step failed (a singular or "
+                f"rank-deficient subproblem) after {iterations} iterations: try another start "
+                "point or loosen optimize.tolerance")
+    return (f"the optimizer stopped without converging after {iterations} iterations (exit "
+            f"status {status}): try another start point or raise optimize.max_iterations")
+
+
+def _recorder(prob, path):
+    """Attach OpenMDAO's SQLite case recorder to the driver: every driver case with its design
+    variables, objective and constraints (no other variables, no viewer data)."""
+    from openmdao.recorders.sqlite_recorder import SqliteRecorder
+    recorder = SqliteRecorder(str(path), record_viewer_data=False)
+    prob.driver.add_recorder(recorder)
+    options = prob.driver.recording_options
+    for key in ("record_desvars", "record_objectives", "record_constraints"):
+        options[key] = True
+    options["includes"] = []
+    prob.final_setup()      # sets the recorder up on the built problem
+    return recorder
 
 
 def evaluate_start_point(case):

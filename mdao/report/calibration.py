@@ -2,6 +2,8 @@
 statistics, warnings, outliers, the energy balance and notes of
 :func:`mdao.studies.calibration.calibrate`.
 """
+from mdao.parameters import parameter
+from mdao.report.console import aligned_table
 from mdao.studies.calibration.fitting import CAUTION
 
 __all__ = ["format_summary"]
@@ -26,24 +28,29 @@ def format_summary(result):
     lines = []
     if "source" in result:
         lines.append(f"Calibration of {result['source']['csv']} ({result['runs']} runs)")
-    lines.append(f"{'constant':36s} {'value':>12s} {'stderr':>11s}   95 % interval")
+    rows = []
     for key, entry in result["constants"].items():
         low, high = entry["ci95"]
-        tag = "  (fixed)" if entry.get("fixed") else (
-            "  (mean of given column)" if "source" in entry else "")
-        lines.append(f"{key:36s} {entry['value']:12.5g} {entry['stderr']:11.3g}   "
-                     f"[{low:.5g}, {high:.5g}]{tag}")
+        tag = "fixed" if entry.get("fixed") else (
+            "mean of given column" if "source" in entry else "")
+        rows.append([key, f"{entry['value'] + 0.0:.5g}", f"{entry['stderr']:.3g}",
+                     f"[{low + 0.0:.5g}, {high + 0.0:.5g}]", _unit(key), tag])
+    lines += [line.rstrip() for line in aligned_table(
+        ["constant", "value", "stderr", "95 % interval", "unit", ""], [""] * 6, rows,
+        left=(0, 3, 4, 5)) if line.strip()]
     lines += _table_lines(result)
     lines.append("")
-    lines.append(f"{'fit':6s} {'runs':>5s} {'dof':>4s} {'R^2':>9s} {'resid std':>11s}  "
-                 "C_mu range        slot ratio range")
+    rows = []
     for name, fit in result["fits"].items():
         r = fit["ranges"]
         r2 = "n/a" if fit["r2"] is None else f"{fit['r2']:.5f}"
-        lines.append(f"{name:6s} {fit['runs']:5d} {fit['dof']:4d} {r2:>9s} "
-                     f"{fit['residual_std']:11.4g}  [{r['momentum_coefficient'][0]:.4g}, "
-                     f"{r['momentum_coefficient'][1]:.4g}]  [{r['slot_ratio'][0]:.4g}, "
-                     f"{r['slot_ratio'][1]:.4g}]")
+        rows.append([name, str(fit["runs"]), str(fit["dof"]), r2,
+                     f"{fit['residual_std']:.4g} {_response_unit(fit)}".rstrip(),
+                     f"[{r['momentum_coefficient'][0]:.4g}, {r['momentum_coefficient'][1]:.4g}]",
+                     f"[{r['slot_ratio'][0]:.4g}, {r['slot_ratio'][1]:.4g}]"])
+    lines += [line.rstrip() for line in aligned_table(
+        ["fit", "runs", "dof", "R^2", "resid std", "C_mu range", "slot ratio range"],
+        [""] * 7, rows, left=(0, 5, 6)) if line.strip()]
     v = result["validity"]
     lines.append(f"validity: Reynolds {v['reynolds'][0]:.3g} to {v['reynolds'][1]:.3g}, "
                  f"speed {v['speed'][0]:.4g} to {v['speed'][1]:.4g} m/s")
@@ -64,6 +71,22 @@ def format_summary(result):
     return "\n".join(lines)
 
 
+def _unit(key):
+    """A constant's SI unit from its declaration (:mod:`mdao.parameters`), ``-`` for a pure
+    number."""
+    try:
+        return parameter(key).unit or "-"
+    except KeyError:
+        return "-"
+
+
+def _response_unit(fit):
+    """The unit of a fit's response, from its ``"name [unit]"`` label."""
+    response = fit.get("response", "")
+    unit = response[response.rfind("[") + 1:-1] if response.endswith("]") else ""
+    return "" if unit == "-" else unit
+
+
 def _table_lines(result):
     """The lift tables of a banded calibration: per constant, value +/- stderr at each band's
     mean lift coefficient; per band, its runs and any warning."""
@@ -72,11 +95,11 @@ def _table_lines(result):
         return []
     lines = ["", f"Lift tables ({len(bands)} lift bands; the fragment gives these instead of "
                  "the single values above):"]
-    lines.append(f"{'constant':36s} " + " ".join(f"{'C_L ' + format(b['lift_coefficient'], '.3f'):>19s}"
-                                                  for b in bands))
-    for key, t in tables.items():
-        lines.append(f"{key:36s} " + " ".join(f"{format(v, '.4g') + ' +/- ' + format(e, '.2g'):>19s}"
-                                              for v, e in zip(t["value"], t["stderr"])))
+    rows = [[key] + [f"{v + 0.0:.4g} +/- {e:.2g}" for v, e in zip(t["value"], t["stderr"])]
+            for key, t in tables.items()]
+    lines += [line for line in aligned_table(
+        ["constant"] + [f"C_L {b['lift_coefficient']:.3f}" for b in bands],
+        [""] * (len(bands) + 1), rows) if line.strip()]
     for k, b in enumerate(bands, 1):
         lines.append(f"  band {k}: {b['runs']} runs, lift coefficient "
                      f"{b['lift_coefficient_range'][0]:.3f} to {b['lift_coefficient_range'][1]:.3f}")

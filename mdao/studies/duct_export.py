@@ -342,8 +342,9 @@ def draw_duct(data, path, title=None):
     mid = 0.5 * (x[1:] + x[:-1])
     fig = Figure(figsize=(11, 7.5))
     axes = fig.subplots(2, 2)
-    for ax, half, view, label in ((axes[0, 0], a, "plan view (span)", "y [mm]"),
-                                  (axes[0, 1], b, "side view (thickness)", "z [mm]")):
+    for ax, half, view, label in ((axes[0, 0], a, "plan view (span)", "y, spanwise [mm]"),
+                                  (axes[0, 1], b, "side view (thickness)",
+                                   "z, thickness-wise [mm]")):
         ax.fill_between(x, -half, half, color="#c6dbef")
         ax.plot(x, half, "k-", x, -half, "k-", lw=1.2)
         ax.axhline(0.0, color="0.5", lw=0.6, ls="-.")
@@ -358,17 +359,17 @@ def draw_duct(data, path, title=None):
     ax.set_title("area (fan circle to slot)")
     ax.set_ylim(bottom=0.0)
     ax = axes[1, 1]
-    ax.plot(mid, data["span_wall_half_angle_deg"], "-", color="#d62728", label="span walls")
-    ax.plot(mid, data["thickness_wall_half_angle_deg"], "-", color="#1f77b4",
+    ax.plot(mid, data["span_wall_half_angle_deg"], "-", color="#D55E00", label="span walls")
+    ax.plot(mid, data["thickness_wall_half_angle_deg"], "-", color="#0072B2",
             label="thickness walls")
     ax.plot(mid, data["diffusion_half_angle_deg"], "--", color="0.3", label="equivalent cone")
-    ax.axhline(data["max_wall_half_angle_deg"], color="#d62728", lw=1, ls=":",
+    ax.axhline(data["max_wall_half_angle_deg"], color="#D55E00", lw=1, ls=":",
                label=f"wall limit {data['max_wall_half_angle_deg']:.3g} deg")
     ax.axhline(data["max_diffusion_half_angle_deg"], color="0.3", lw=1, ls=":",
                label=f"cone limit {data['max_diffusion_half_angle_deg']:.3g} deg")
     ax.axhline(0.0, color="k", lw=0.6)
     ax.set_xlabel("x from the fan face [mm]")
-    ax.set_ylabel("half-angle [deg] (+ diverging)")
+    ax.set_ylabel("wall half-angle, + diverging [deg]")
     ax.set_title("wall half-angles between stations")
     ax.legend(fontsize=8)
     title = safe_text(title, 120, newlines=False).replace("$", r"\$") if title else ""

@@ -7,7 +7,9 @@ plus a few arrays for the figures); :func:`mdao.report.review.write_review` writ
 """
 import contextlib
 import hashlib
+import tempfile
 import time
+from pathlib import Path
 
 import numpy as np
 
@@ -52,7 +54,7 @@ def case_echo(case):
             if key != "name" and seg[key] is not None:
                 rows.append({"key": f"segment.{seg['name']}.{key}", "value": _plain(seg[key]),
                              "unit": sensitivity.unit_label(f"segment.x.{key}")
-                             if key in ("altitude", "speed", "duration") else "-"})
+                             if key in ("altitude", "speed", "duration", "climb_rate") else "-"})
     return rows
 
 
@@ -98,7 +100,7 @@ def _agreement(rows, scale):
 
 
 def run_review(case, samples=None, optimum_per_sample=False, scheduler=None, workers=None,
-               progress=None, map_points=None):
+               progress=None, map_points=None, seed=None):
     """Run the whole design review of a case.
 
     Parameters
@@ -117,6 +119,8 @@ def run_review(case, samples=None, optimum_per_sample=False, scheduler=None, wor
     map_points : int, optional
         Grid points per axis of the break-even maps (default 31; 21 for the geometric duct,
         whose loss factor is built at every point).
+    seed : int, optional
+        Random seed of the Monte Carlo draws (default ``[review] seed``).
 
     Returns
     -------
@@ -125,6 +129,7 @@ def run_review(case, samples=None, optimum_per_sample=False, scheduler=None, wor
         the optimization failed.
     """
     from mdao.optimum import optimize
+    from mdao.optimum.history import optimization_history
 
     timings = {}
     step = _steps(progress, timings)
@@ -133,9 +138,13 @@ def run_review(case, samples=None, optimum_per_sample=False, scheduler=None, wor
                      "sha256": hashlib.sha256(case.text.encode("utf-8")).hexdigest(),
                      "echo": case_echo(case)}}
     with step("optimize", "optimizing the case"):
-        outcome = optimize(case)
+        with tempfile.TemporaryDirectory(prefix="blownwing-history-") as folder:
+            record = Path(folder) / "iterations.sql"
+            outcome = optimize(case, record=record)
+            history = optimization_history(record)
     opt = outcome.to_json()
     head["optimum"] = opt
+    head["optimization_history"] = history
     head["converged"] = outcome.converged
     if not outcome.converged:
         head["timings_s"] = timings
@@ -170,7 +179,7 @@ def run_review(case, samples=None, optimum_per_sample=False, scheduler=None, wor
 
     n = case.review["samples"] if samples is None else int(samples)
     with step("monte_carlo", f"Monte Carlo, {n} samples"):
-        mc = uncertainty.monte_carlo(case, outcome, samples=n, derivatives=fixed)
+        mc = uncertainty.monte_carlo(case, outcome, samples=n, seed=seed, derivatives=fixed)
     per_sample = None
     if optimum_per_sample:
         with step("optimum_per_sample", f"re-optimizing each of {n} samples",

@@ -33,7 +33,7 @@ import numpy as np
 from mdao import constraints, parameters
 from mdao.case.schema import dimension_of
 from mdao.case.loading import lift_tables
-from mdao.optimum.solve import feasibility, read_values
+from mdao.optimum.solve import feasibility, read_values, run_driver_quietly
 from mdao.physics import chain
 from mdao.units import SI_UNITS
 from mdao.system import (applicable_parameters, build_problem, chain_options, chain_parameters,
@@ -227,7 +227,7 @@ def _reoptimize(prob, case, outcome, key, value):
     _set_input(prob, case, key, value)
     for name in ("slot_ratio", "momentum_coefficient", "fan_pressure_rise"):
         prob.set_val(name, outcome.values[name])
-    result = prob.run_driver()
+    result = run_driver_quietly(prob)
     changed = case.replace({key: value})
     vals = read_values(prob, changed)
     bad = feasibility(changed, vals)

@@ -130,7 +130,10 @@ def break_even_map(case, outcome, x_key, x_values, y_key, y_values):
     dict
         ``x_key``, ``x`` (nx,), ``y_key``, ``y`` (ny,), ``efficiency`` (ny, nx, segments): the
         break-even fan efficiency, NaN where no efficiency up to 1 breaks even and for segments
-        without blowing; ``case_point`` (x, y) of the design.
+        without blowing; ``case_point`` (x, y) of the design;
+        ``blank`` (ny, nx, segments) int and ``blank_reasons`` (list of str): why a blowing
+        segment's point is NaN, an index into the reasons, -1 where not blank
+        (:func:`blank_reasons`).
     """
     x = np.asarray(x_values, float).ravel()
     y = np.asarray(y_values, float).ravel()
@@ -153,26 +156,111 @@ def break_even_map(case, outcome, x_key, x_values, y_key, y_values):
         res = break_even_map(case, outcome, y_key, y, x_key, x)
         return {"x_key": x_key, "x": x, "y_key": y_key, "y": y,
                 "efficiency": np.swapaxes(res["efficiency"], 0, 1),
-                "case_point": res["case_point"][::-1]}
+                "case_point": res["case_point"][::-1], "blank": np.swapaxes(res["blank"], 0, 1),
+                "blank_reasons": res["blank_reasons"]}
+    reasons = []
     if geo_x:  # one vectorized call per x column
-        cols = []
+        cols, whys = [], []
         for xv in x:
             p = dict(base)
             p[names[x_key]] = np.asarray(xv, float)
             p[names[y_key]] = y[:, None]
             cols.append(np.broadcast_to(break_even_efficiency(case, params=p), (len(y), nseg)))
+            whys.append(blank_reasons(case, p, cols[-1], reasons))
         eff = np.stack(cols, axis=1)
+        blank = np.stack(whys, axis=1)
     else:
         p = dict(base)
         p[names[x_key]] = x[None, :, None]
         p[names[y_key]] = y[:, None, None]
         eff = np.broadcast_to(break_even_efficiency(case, params=p), (len(y), len(x), nseg)).copy()
+        blank = np.concatenate([   # row by row: bounded memory
+            blank_reasons(case, dict(p, **{names[y_key]: y[j:j + 1, None, None]}),
+                          eff[j:j + 1], reasons) for j in range(len(y))])
     eff = np.array(eff, float)
     eff[..., ~case.blowing] = np.nan
+    blank[..., ~case.blowing] = -1
     point = tuple(float(outcome.slot_ratio) if k == "slot.ratio" else case_value(case, k)
                   for k in (x_key, y_key))
     return {"x_key": x_key, "x": x, "y_key": y_key, "y": y, "efficiency": eff,
-            "case_point": point}
+            "case_point": point, "blank": blank, "blank_reasons": reasons}
+
+
+#: Momentum-coefficient points over the calibrated range on which :func:`blank_reasons` looks.
+BLANK_GRID = 41
+
+
+def blank_reasons(case, params, efficiency, reasons):
+    """Why each NaN break-even efficiency is blank, in words for a figure's legend.
+
+    Mirrors the admissibility test of the break-even search
+    (:func:`mdao.optimum.breakeven.break_even_efficiency`) on a log grid of the calibrated
+    momentum-coefficient range: a point counts where the jet saves propulsion power and every
+    per-segment constraint of the search holds. Reasons, first that applies: "no fan efficiency
+    up to 1 breaks even" (admissible points exist, each needs more); "blowing saves no
+    propulsion power" (the slot penalty outweighs the jet everywhere); "<constraint> broken
+    wherever blowing saves power"; "no admissible C_mu: <constraints> together".
+
+    Parameters
+    ----------
+    case : mdao.case.Case
+    params : dict
+        Chain parameters with the map's leading axes (as for the search).
+    efficiency : ndarray
+        The break-even efficiencies of those parameters, [-] (NaN: blank).
+    reasons : list of str
+        Reasons met so far; new ones are appended (the codes index it).
+
+    Returns
+    -------
+    ndarray of int
+        Shape of ``efficiency``: index into ``reasons``, -1 where not blank.
+    """
+    from mdao.optimum import breakeven
+
+    eff = np.asarray(efficiency, float)
+    code = np.full(eff.shape, -1)
+    if not np.any(np.isnan(eff)):
+        return code
+    p = chain.lift_dependent(dict(params), chain_options(case))
+    p.pop("fan_pressure_rise", None)
+    lo, hi = case.airfoil["momentum_coefficient_range"]
+    grid = np.geomspace(lo, hi, BLANK_GRID)
+    pe = {k: (np.asarray(v)[..., None] if k != "pressure_coefficients" else v)
+          for k, v in p.items()}
+    out = chain.evaluate(dict(pe, momentum_coefficient=grid), chain_options(case), blowing=True)
+    saves = out["propulsion_power_saving"] > 0
+    out["momentum_coefficient"] = np.broadcast_to(grid, np.shape(saves))
+    cons = breakeven._admissible_constraints(case)
+    held = {}
+    for c in cons:    # None: the chain does not give the constraint's quantity here
+        ok = constraints.holds(case, out, [c], tol=1e-12, blowing=True)
+        held[c.name] = np.broadcast_to(True if ok is None else ok, saves.shape)
+    every = np.logical_and.reduce([saves] + list(held.values()))
+
+    def anywhere(a):    # over the momentum-coefficient grid
+        return np.broadcast_to(np.any(a, axis=-1), eff.shape)
+
+    def mark(where, text):
+        where = where & np.isnan(eff) & (code < 0)
+        if np.any(where):
+            if text not in reasons:
+                reasons.append(text)
+            code[where] = reasons.index(text)
+
+    mark(anywhere(every), "no fan efficiency up to 1 breaks even")
+    mark(~anywhere(saves), "blowing saves no propulsion power (the slot penalty outweighs the jet)")
+    for c in cons:
+        mark(~anywhere(saves & held[c.name]),
+             f"no admissible C_mu: {c.name} broken wherever blowing saves power")
+    # the rest: the constraints that cut the saving range, named together
+    cuts = sum((1 << k) * anywhere(saves & ~held[c.name]).astype(np.int64)
+               for k, c in enumerate(cons))
+    for bits in np.unique(cuts[np.isnan(eff) & (code < 0)]):
+        names = [c.name for k, c in enumerate(cons) if bits >> k & 1]
+        mark(cuts == bits, "no admissible C_mu: " + ", ".join(names[:-1]) + " and "
+             + names[-1] + " together" if len(names) > 1 else "no admissible C_mu")
+    return code
 
 
 def case_value(case, key):
