@@ -385,8 +385,10 @@ def test_cli_end_to_end(tmp_path):
     data = json.loads((out / "review.json").read_text())
     assert (out / "review.md").read_text().count("Preliminary design estimates") >= 1
     for row in data["sensitivities"]:
-        assert {"parameter", "value", "derivative", "post_optimal_derivative",
-                "elasticity"} <= set(row)
+        assert {"parameter", "unit", "value", "derivative_J_per_unit",
+                "post_optimal_derivative_J_per_unit", "elasticity"} <= set(row)
+    for row in data["tornado"]:
+        assert {"parameter", "unit", "value", "low", "high", "energy_low_J"} <= set(row)
     keys = {r["parameter"] for r in data["sensitivities"]}
     assert {"duct.jet_loss_factor", "duct.freestream_assist", "airfoil.drag_clean",
             "airfoil.slot_drag", "airfoil.drag_per_momentum", "fan.efficiency",

@@ -318,9 +318,9 @@ def _sensitivity_md(data):
              "| dE*/dp multipliers [kWh/unit] | elasticity [-] |", "|---|---|---|---|---|---|---|"]
     for r in rows:
         lines.append(f"| `{r['parameter']}` | {r['value']:.6g} | {r['unit']} | "
-                     f"{_g(_per_kwh(r['derivative']), '.4g')} | "
-                     f"{_g(_per_kwh(r['post_optimal_derivative']), '.4g')} | "
-                     f"{_g(_per_kwh(r['post_optimal_derivative_multipliers']), '.4g')} | "
+                     f"{_g(_per_kwh(r['derivative_J_per_unit']), '.4g')} | "
+                     f"{_g(_per_kwh(r['post_optimal_derivative_J_per_unit']), '.4g')} | "
+                     f"{_g(_per_kwh(r['post_optimal_derivative_multipliers_J_per_unit']), '.4g')} | "
                      f"{_g(r['elasticity'], '.4f')} |")
     lines += ["",
               f"Checks: the two post-optimal estimates differ by at most "

@@ -74,9 +74,9 @@ def sensitivity_table(case, outcome, fixed, post, mult):
         v = float(case.value(key))
         po = post[key]["derivative"] if post is not None else None
         rows.append({"parameter": key, "unit": sensitivity.unit_label(key), "value": v,
-                     "derivative": d, "post_optimal_derivative": po,
-                     "post_optimal_derivative_multipliers": (mult["derivatives"].get(key)
-                                                             if mult else None),
+                     "derivative_J_per_unit": d, "post_optimal_derivative_J_per_unit": po,
+                     "post_optimal_derivative_multipliers_J_per_unit": (
+                         mult["derivatives"].get(key) if mult else None),
                      "elasticity": sensitivity.elasticity(d, v, e),
                      "post_optimal_elasticity": sensitivity.elasticity(po, v, e),
                      "post_optimal_scheme": post[key]["scheme"] if post else None,
@@ -89,7 +89,8 @@ def _agreement(rows, scale):
     multipliers, relative to max(|derivative|, scale)."""
     worst = 0.0
     for r in rows:
-        a, b = r["post_optimal_derivative"], r["post_optimal_derivative_multipliers"]
+        a, b = (r["post_optimal_derivative_J_per_unit"],
+                r["post_optimal_derivative_multipliers_J_per_unit"])
         if a is None or b is None:
             continue
         ref = max(abs(a), abs(b))

@@ -445,7 +445,8 @@ def tornado(case, outcome, keys=None):
         if high <= low:
             continue
         e = evaluate_design(case, outcome, {key: np.array([low, high])})["mission_energy_saving"]
-        rows.append({"parameter": key, "value": float(case.value(key)), "low": low, "high": high,
+        rows.append({"parameter": key, "unit": unit_label(key), "value": float(case.value(key)),
+                     "low": low, "high": high,
                      "basis": basis, "energy_low_J": float(e[0]), "energy_high_J": float(e[1]),
                      "swing_J": float(abs(e[1] - e[0]))})
     rows.sort(key=lambda r: -r["swing_J"])
