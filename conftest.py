@@ -16,3 +16,16 @@ def cases_dir():
     """The bundled example cases."""
     from pathlib import Path
     return Path(__file__).resolve().parent / "cases"
+
+
+@pytest.fixture(scope="module")
+def module_folder(tmp_path_factory, request):
+    """For module-scoped fixtures (a review or an optimization shared by a module's tests):
+    OpenMDAO reports off and a temporary folder of the module's own as the working folder and
+    OpenMDAO's, while the module runs. Yields the folder."""
+    with pytest.MonkeyPatch.context() as mp:
+        folder = tmp_path_factory.mktemp(request.module.__name__.rpartition(".")[2])
+        mp.setenv("OPENMDAO_REPORTS", "0")
+        mp.setenv("OPENMDAO_WORKDIR", str(folder))
+        mp.chdir(folder)
+        yield folder

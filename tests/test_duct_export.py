@@ -51,25 +51,16 @@ def _steep_text():
 
 
 @pytest.fixture(scope="module")
-def quiet(tmp_path_factory):
-    with pytest.MonkeyPatch.context() as mp:
-        tmp = tmp_path_factory.mktemp("duct")
-        mp.setenv("OPENMDAO_REPORTS", "0")
-        mp.setenv("OPENMDAO_WORKDIR", str(tmp))
-        yield tmp
-
-
-@pytest.fixture(scope="module")
-def variant_file(quiet):
-    path = quiet / "variant.toml"
+def variant_file(module_folder):
+    path = module_folder / "variant.toml"
     path.write_text(_variant_text())
     return path
 
 
 @pytest.fixture(scope="module")
-def exported(quiet, variant_file):
+def exported(module_folder, variant_file):
     """``blownwing duct`` on the variant at its optimum: (out dir, transition rows, sections)."""
-    out = quiet / "export"
+    out = module_folder / "export"
     assert main(["duct", str(variant_file), "--out", str(out)]) == 0
     return out, _read(out / "transition.csv"), _read(out / "sections.csv")
 
@@ -141,7 +132,7 @@ def test_component_wall_angle_partials(schedule):
 
 
 # --- the constraint -------------------------------------------------------------------------------
-def test_no_wall_angle_above_its_limit_at_the_coastal_patrol_optimum(quiet):
+def test_no_wall_angle_above_its_limit_at_the_coastal_patrol_optimum(module_folder):
     """The bundled geometric case: its optimum keeps every wall within duct.max_wall_half_angle
     (and the result says how steep the walls are)."""
     case = load_case(COASTAL)
@@ -151,7 +142,7 @@ def test_no_wall_angle_above_its_limit_at_the_coastal_patrol_optimum(quiet):
     assert max(out.wall_half_angles_deg.values()) <= limit * (1 + 1e-6)
 
 
-def test_variant_optimum_within_the_wall_limit(quiet, variant_file):
+def test_variant_optimum_within_the_wall_limit(module_folder, variant_file):
     """A geometric case whose walls can meet the limit converges, within it, and reports the
     steepest walls at the top level of results.json."""
     case = load_case(variant_file)
@@ -164,7 +155,7 @@ def test_variant_optimum_within_the_wall_limit(quiet, variant_file):
     assert angles["span"] == pytest.approx(np.degrees(out.values["span_wall_half_angle"].max()))
 
 
-def test_wall_limit_binds_and_moves_the_slot(quiet):
+def test_wall_limit_binds_and_moves_the_slot(module_folder):
     """On the bundled case with the limit set at 60 deg (a test value, between the side walls'
     61.5 deg at the unconstrained optimum's slot ratio and 58.9 deg at the largest allowed),
     the optimizer widens the slot until the side walls meet the limit: the constraint binds."""
@@ -256,7 +247,7 @@ def test_figure_and_no_temporary_files(exported):
 
 
 # --- the command line -----------------------------------------------------------------------------
-def test_duct_command_bad_input_exits_2(quiet, tmp_path, capsys):
+def test_duct_command_bad_input_exits_2(module_folder, tmp_path, capsys):
     """A lumped-duct case (named: duct.model) and a missing file: exit 2, nothing written."""
     assert main(["duct", str(CASES / "survey-drone.toml"), "--out", str(tmp_path / "a")]) == 2
     assert "duct.model" in capsys.readouterr().err
@@ -265,7 +256,7 @@ def test_duct_command_bad_input_exits_2(quiet, tmp_path, capsys):
     assert not (tmp_path / "a").exists() and not (tmp_path / "b").exists()
 
 
-def test_duct_command_not_converged_exits_3(quiet, tmp_path, capsys):
+def test_duct_command_not_converged_exits_3(module_folder, tmp_path, capsys):
     """Two iterations are not enough: exit 3, said on stderr, no files."""
     text = _variant_text().replace('objective = "mission-energy"',
                                    'objective = "mission-energy"\nmax_iterations = 2')
@@ -276,7 +267,7 @@ def test_duct_command_not_converged_exits_3(quiet, tmp_path, capsys):
     assert not (tmp_path / "o").exists()
 
 
-def test_duct_command_start_point(quiet, tmp_path, capsys):
+def test_duct_command_start_point(module_folder, tmp_path, capsys):
     """--start never optimizes (exit 0 even where the optimum would fail) and warns when the
     start point's duct breaks a limit (the bundled case's side walls, about 61.5 deg)."""
     steep = tmp_path / "steep.toml"
@@ -291,7 +282,7 @@ def test_duct_command_start_point(quiet, tmp_path, capsys):
     assert np.nanmax(t["span_wall_half_angle [deg]"]) == pytest.approx(61.5, abs=0.1)
 
 
-def test_review_draws_the_duct(quiet, variant_file, tmp_path):
+def test_review_draws_the_duct(module_folder, variant_file, tmp_path):
     """The review's duct entry (as ``run_review`` stores it for a geometric-duct case) gives the
     figure duct.png and the review.md section that shows it. (A whole review of this case takes
     some 12 s; its other parts are tested on their own.)"""

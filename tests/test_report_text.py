@@ -23,16 +23,6 @@ NUMBER = re.compile(r"(?<![\w.])-?(\d+\.?\d*)(?:e[-+]?\d+)?(?![\w.])")
 LONG = "survey of the northern ridge, both valleys and back"
 
 
-@pytest.fixture(scope="module")
-def _quiet(tmp_path_factory):
-    with pytest.MonkeyPatch.context() as mp:
-        tmp = tmp_path_factory.mktemp("report-text")
-        mp.setenv("OPENMDAO_REPORTS", "0")
-        mp.setenv("OPENMDAO_WORKDIR", str(tmp))
-        mp.chdir(tmp)
-        yield tmp
-
-
 def _case(tmp, name, old=None, new=None):
     text = (CASES / name).read_text()
     if old is not None:
@@ -58,12 +48,12 @@ def _significant(digits):
 
 
 @pytest.mark.parametrize("name", ["survey-drone.toml", "coastal-patrol.toml"])
-def test_long_segment_name_keeps_the_table_aligned(name, _quiet):
+def test_long_segment_name_keeps_the_table_aligned(name, module_folder):
     """Column widths come from the content: with a 51-character segment name every line of
     the table (header, units, rule, rows) has the same width and every column ends at the
     same place in every row."""
     old = 'name = "survey"' if name == "survey-drone.toml" else 'name = "loiter"'
-    case = _case(_quiet, name, old, f'name = "{LONG}"')
+    case = _case(module_folder, name, old, f'name = "{LONG}"')
     outcome = evaluate_start_point(case)
     table = _table(segment_table(outcome, case))
     assert len(table) == 3 + len(case.segments)
@@ -76,7 +66,7 @@ def test_long_segment_name_keeps_the_table_aligned(name, _quiet):
         assert {len(LONG) + c for c in cells} <= ends, line
 
 
-def test_console_names_powers_and_constraints_in_words(_quiet):
+def test_console_names_powers_and_constraints_in_words(module_folder):
     """Shaft and electric power always named; no internal constraint name; signs stated under
     the table; the energy in kWh (no joules)."""
     case = load_case(CASES / "coastal-patrol.toml")
@@ -96,7 +86,7 @@ def test_console_names_powers_and_constraints_in_words(_quiet):
 
 
 @pytest.fixture(scope="module")
-def review_md(_quiet):
+def review_md(module_folder):
     """review.md of the coastal patrol (geometric duct: angle limits in the case) at a few
     samples and a coarse map."""
     case = load_case(CASES / "coastal-patrol.toml")
@@ -147,7 +137,7 @@ def test_case_echo_rounded_and_angles_in_degrees(review_md):
     assert f"| duct.max_wall_half_angle | {np.degrees(limit['value']):.6g} | deg |" in echo
 
 
-def test_survey_echo_duration_rounded(_quiet):
+def test_survey_echo_duration_rounded(module_folder):
     """``duration = "2.2 h"`` is 7920.000000000001 s in SI: echoed as 7920."""
     case = load_case(CASES / "survey-drone.toml")
     from mdao.studies.review import case_echo
@@ -169,7 +159,7 @@ def test_active_set_words():
 
 
 @pytest.mark.parametrize("kind", ["multistart", "monte-carlo"])
-def test_many_in_kwh_and_by_kind(kind, _quiet):
+def test_many_in_kwh_and_by_kind(kind, module_folder):
     """``many`` reports kWh, never MJ; a multistart run gives the best optimum and how many
     starts reach it (no percentiles), a Monte Carlo run its percentiles."""
     case = load_case(CASES / "survey-drone.toml")
@@ -185,11 +175,11 @@ def test_many_in_kwh_and_by_kind(kind, _quiet):
         assert "percentiles 5 / 50 / 95 %" in text
 
 
-def test_iteration_limit_reports_real_iterations_and_a_plain_sentence(_quiet, capsys):
+def test_iteration_limit_reports_real_iterations_and_a_plain_sentence(module_folder, capsys):
     """``max_iterations = 2`` gives at most 2 iterations (SciPy's ``nit``, not OpenMDAO's count
     of model runs), says what happened and what to try in one sentence, and prints no SLSQP
     banner."""
-    case = _case(_quiet, "survey-drone.toml", 'objective = "mission-energy"',
+    case = _case(module_folder, "survey-drone.toml", 'objective = "mission-energy"',
                  'objective = "mission-energy"\nmax_iterations = 2')
     outcome = optimize(case)
     out = capsys.readouterr().out
@@ -204,7 +194,7 @@ def test_iteration_limit_reports_real_iterations_and_a_plain_sentence(_quiet, ca
     assert "Optimization FAILED" not in out and "Iteration limit reached" not in out
 
 
-def test_converged_iterations_are_scipy_nit(_quiet, capsys):
+def test_converged_iterations_are_scipy_nit(module_folder, capsys):
     case = load_case(CASES / "survey-drone.toml")
     outcome = optimize(case)
     assert outcome.converged and outcome.message == "converged"

@@ -25,17 +25,7 @@ CASES = Path(__file__).resolve().parents[1] / "cases"
 
 
 @pytest.fixture(scope="module")
-def _quiet_module(tmp_path_factory):
-    with pytest.MonkeyPatch.context() as mp:
-        tmp = tmp_path_factory.mktemp("review")
-        mp.setenv("OPENMDAO_REPORTS", "0")
-        mp.setenv("OPENMDAO_WORKDIR", str(tmp))
-        mp.chdir(tmp)
-        yield
-
-
-@pytest.fixture(scope="module")
-def survey(_quiet_module):
+def survey(module_folder):
     case = load_case(CASES / "survey-drone.toml")
     out = optimize(case)
     assert out.converged, out.message
@@ -43,7 +33,7 @@ def survey(_quiet_module):
 
 
 @pytest.fixture(scope="module")
-def coastal(_quiet_module):
+def coastal(module_folder):
     case = load_case(CASES / "coastal-patrol.toml")
     out = optimize(case)
     assert out.converged, out.message
@@ -51,7 +41,7 @@ def coastal(_quiet_module):
 
 
 @pytest.fixture(scope="module")
-def fixed_slot(_quiet_module):
+def fixed_slot(module_folder):
     """Survey drone with the slot ratio fixed at 0.01 (lumped model, interior C_mu optimum).
 
     The drag per momentum coefficient is weakened to -1.3 so that the optimum keeps the energy
@@ -174,7 +164,7 @@ def test_post_optimal_derivatives_match_cold_reoptimization(which, keys, request
         assert mult["derivatives"][key] == pytest.approx(ref, rel=2e-3), key
 
 
-def test_binding_speed_dependent_constraint_separates_the_two_derivatives(_quiet_module):
+def test_binding_speed_dependent_constraint_separates_the_two_derivatives(module_folder):
     """With the jet Mach limit binding in the transit segment, the fixed-design and the
     post-optimal speed derivatives differ (the limit moves with speed), and re-optimization and
     multipliers still agree with each other."""
