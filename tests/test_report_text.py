@@ -204,3 +204,18 @@ def test_converged_iterations_are_scipy_nit(module_folder, capsys):
     text = summary(outcome, case)
     assert f"optimizer: converged; {nit} iterations" in text
     assert "Optimization" not in capsys.readouterr().out
+
+
+def test_probabilities_carry_their_exact_interval(review_md):
+    """Every estimated probability in review.md and on the console comes with its exact
+    binomial 95 % interval (Clopper and Pearson 1934, from SciPy), never as a bare number."""
+    from scipy.stats import binomtest
+    from mdao.report.review import review_summary
+    data, md = review_md
+    u = data["uncertainty"]
+    k, n = round(u["probability_of_saving"] * u["samples"]), u["samples"]
+    ci = binomtest(k, n).proportion_ci(method="exact")
+    said = f"{k}/{n}; 95 % interval {ci.low:.3f} to {ci.high:.3f}"
+    assert md.count(said) >= 2                       # the answer and the uncertainty section
+    assert said in review_summary(data)
+    assert not re.search(r"[Pp]robability[^\n(]*\*\*\d\.\d+\*\*", md)

@@ -76,8 +76,20 @@ def review_summary(data):
     return "\n".join([
         f"blownwing {data['version']}: {safe_text(data['case']['title'], 300, False)}",
         f"optimum mission energy saved: {e / KWH:.4f} kWh; probability of saving "
-        f"{u['probability_of_saving']:.3f} over {u['samples']} samples; dominant input "
-        f"{u['dominant_input']}"])
+        f"{probability_text(u['probability_of_saving'], u['samples'])} over the Monte Carlo "
+        f"samples; dominant input {u['dominant_input']}"])
+
+
+def probability_text(probability, samples, digits=3):
+    """An estimated probability with its exact binomial 95 % interval (Clopper, C. J. and
+    Pearson, E. S., Biometrika 26(4), 1934, 404-413; :func:`scipy.stats.binomtest`), e.g.
+    ``"1.000 (30/30; 95 % interval 0.884 to 1.000)"``."""
+    from scipy.stats import binomtest
+    n = int(samples)
+    k = int(round(probability * n))
+    ci = binomtest(k, n).proportion_ci(confidence_level=0.95, method="exact")
+    return (f"{k / n:.{digits}f} ({k}/{n}; 95 % interval {ci.low:.{digits}f} to "
+            f"{ci.high:.{digits}f})")
 
 
 # --- markdown -----------------------------------------------------------------------------------
@@ -101,7 +113,7 @@ def review_markdown(data, figures=(), note=None):
              f"Mission energy saved at the source, at the optimum: **{e / KWH:.4f} kWh**"
              + (" (negative: blowing costs energy on this mission)" if e < 0 else "")
              + ". Probability that the mission saves energy under the stated "
-             f"uncertainty: **{u['probability_of_saving']:.3f}** ({u['samples']} samples, seed "
+             f"uncertainty: **{probability_text(u['probability_of_saving'], u['samples'])}** (seed "
              f"{u['seed']}); 5/50/95 % percentiles "
              + " / ".join(f"{u['percentiles_J'][k] / KWH:.4f}" for k in ("5", "50", "95"))
              + f" kWh. The input explaining most of the variance: `{u['dominant_input']}`.", ""]
@@ -382,7 +394,8 @@ def _uncertainty_md(data, figures):
         lines.append(f"| `{k}` | {s['distribution']} | {par} | {unit.get(k, '-')} |")
     p = u["percentiles_J"]
     lines += ["",
-              f"- Probability of saving energy: **{u['probability_of_saving']:.4f}**",
+              f"- Probability of saving energy: "
+              f"**{probability_text(u['probability_of_saving'], u['samples'])}**",
               f"- Percentiles 5 / 50 / 95 %: {p['5'] / KWH:.4f} / {p['50'] / KWH:.4f} / "
               f"{p['95'] / KWH:.4f} kWh",
               f"- Mean {_g(u['mean_J'] and u['mean_J'] / KWH, '.4f')} kWh, standard deviation "
@@ -405,7 +418,9 @@ def _uncertainty_md(data, figures):
         q = ps["percentiles_J"]
         lines += ["### Optimum per sample", "",
                   f"Every sample re-optimized: {ps['converged']} of {ps['samples']} converged; "
-                  f"probability of saving {ps['probability_of_saving']:.4f} (non-converged count "
+                  f"probability of saving "
+                  f"{probability_text(ps['probability_of_saving'], ps['samples'])} "
+                  f"(non-converged count "
                   f"as not saving); percentiles {q['5'] / KWH:.4f} / {q['50'] / KWH:.4f} / "
                   f"{q['95'] / KWH:.4f} kWh.", ""]
     return lines
@@ -685,7 +700,6 @@ def _axis_label(key):
 
 def _fig_uncertainty(plt, data):
     from matplotlib.ticker import MaxNLocator
-    from scipy.stats import binomtest
 
     u = data["uncertainty"]
     e = np.asarray(u.get("energy_J", []), float)
@@ -693,8 +707,6 @@ def _fig_uncertainty(plt, data):
     if e.size == 0:
         return None
     n = int(u["samples"])
-    k = int(round(u["probability_of_saving"] * n))
-    ci = binomtest(k, n).proportion_ci(confidence_level=0.95, method="exact")
     fig, ax = plt.subplots(figsize=(8, 4.6))
     bins = int(np.clip(np.ceil(2 * e.size ** (1 / 3)), 10, 60))   # Rice rule
     ax.hist(e, bins=bins, color="#56B4E9", edgecolor="#0072B2", lw=0.5,
@@ -708,9 +720,9 @@ def _fig_uncertainty(plt, data):
     ax.yaxis.set_major_locator(MaxNLocator(integer=True))
     ax.set_xlabel("mission energy saved at the source [kWh]")
     ax.set_ylabel("samples per bin [count]")
-    ax.set_title(f"Monte Carlo at the optimal design, {n} samples\nP(saving > 0) = {k}/{n} = "
-                 f"{k / n:.3f}; 95 % exact (Clopper-Pearson) interval {ci.low:.3f} to "
-                 f"{ci.high:.3f}", fontsize=9)
+    ax.set_title(f"Monte Carlo at the optimal design, {n} samples\nP(saving > 0) = "
+                 f"{probability_text(u['probability_of_saving'], n)}, exact (Clopper-Pearson)",
+                 fontsize=9)
     ax.legend(fontsize=7, loc="upper left", bbox_to_anchor=(1.01, 1.0))
     fig.tight_layout()
     return fig
