@@ -12,7 +12,6 @@ import mpmath
 import numpy as np
 import openmdao.api as om
 import pytest
-from openmdao.utils.assert_utils import assert_check_totals
 
 from mdao.case import load_case
 from mdao.components.mass import (BlowingSystemMassComp, add_blowing_system_mass, mass_values,
@@ -21,7 +20,7 @@ from mdao.parameters import MASS_PARAMETERS
 from mdao.physics import mass
 from mdao.system import BlownWingGroup, group_options, set_case_values
 from partials_check import assert_partials
-from test_embedding import worst_relative
+from totals_check import assert_totals, worst_relative
 
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -235,5 +234,5 @@ def test_beside_geometric_group_totals():
         case.duct["fans"] * np.sum(0.5 * (p[1:] + p[:-1]) * np.diff(x)), rel=1e-13)
     data = prob.check_totals(out_stream=None, method="fd", form="central", step=1e-6,
                              step_calc="rel_avg")
-    assert_check_totals(data, atol=1e-8, rtol=1e-7)
+    assert_totals(data, atol=1e-8, rtol=1e-7)
     assert worst_relative(data) < 1e-8

@@ -3,12 +3,12 @@ import copy
 
 import numpy as np
 import pytest
-from openmdao.utils.assert_utils import assert_check_totals
 
 from mdao.case import parse_case
 from mdao.optimum import optimize
 from mdao.physics import atmosphere, duct, power
 from mdao.system import build_problem
+from totals_check import assert_totals
 
 BASE = {
     "title": "closed-form check",
@@ -139,7 +139,7 @@ def test_totals_of_built_problem(path, cases_dir):
     prob.run_model()
     data = prob.check_totals(out_stream=None, method="fd", form="central",
                              step=1e-6, step_calc="rel_avg")
-    assert_check_totals(data, atol=1e-6, rtol=1e-5)
+    assert_totals(data, atol=1e-6, rtol=1e-5)
 
 
 @pytest.mark.parametrize("path", ["survey-drone.toml", "coastal-patrol.toml"])

@@ -121,12 +121,12 @@ def test_bad_hardware_input_names_the_key(change, words):
 
 
 def test_totals_of_the_sized_problem(cases_dir):
-    from openmdao.utils.assert_utils import assert_check_totals
+    from totals_check import assert_totals
     prob = build_problem(load_case(cases_dir / "island-shuttle.toml"))
     prob.run_model()
     data = prob.check_totals(out_stream=None, method="fd", form="central", step=1e-6,
                              step_calc="rel_avg")
-    assert_check_totals(data, atol=1e-6, rtol=2e-5)
+    assert_totals(data, atol=1e-6, rtol=2e-5)
 
 
 @pytest.mark.parametrize("duct_model", ["lumped", "geometric"])

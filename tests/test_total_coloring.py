@@ -157,3 +157,32 @@ def test_implicit_models_are_refused():
     prob.final_setup()
     with pytest.raises(NotImplementedError, match="explicit components only"):
         color_totals(prob)
+
+
+def test_totals_check_compares_every_pair():
+    """The project's totals check finds a wrong derivative in any pair, not only the first
+    (OpenMDAO 3.45.1's assert_check_totals stops after the first pair)."""
+    from totals_check import assert_totals
+
+    class Wrong(om.ExplicitComponent):
+        def setup(self):
+            self.add_input("x", 1.0)
+            self.add_output("y", 0.0)
+            self.add_output("z", 0.0)
+            self.declare_partials("y", "x", val=2.0)
+            self.declare_partials("z", "x", val=30.0)      # the true value is 3
+
+        def compute(self, inputs, outputs):
+            outputs["y"] = 2.0 * inputs["x"]
+            outputs["z"] = 3.0 * inputs["x"]
+
+    prob = om.Problem(reports=False)
+    prob.model.add_subsystem("c", Wrong(), promotes=["*"])
+    prob.model.add_design_var("x")
+    prob.model.add_objective("y")
+    prob.model.add_constraint("z", upper=10.0)
+    prob.setup()
+    prob.run_model()
+    data = prob.check_totals(out_stream=None, method="fd")
+    with pytest.raises(AssertionError, match=r"\(z, x\)"):
+        assert_totals(data, atol=1e-6, rtol=1e-6)
