@@ -241,8 +241,9 @@ CHAIN_PARAMETERS = (
               description="maximum lift coefficient over the lift coefficient flown in a "
                           "high-lift segment (1.69 = 1.3^2: flight at 1.3 times the stall "
                           "speed; common practice, no source)"),
-    Parameter("segment.altitude", "altitude", "m", "length", example=0.0, low=0, high=20000,
-              per_segment=True, description="geometric altitude"),
+    Parameter("segment.altitude", "altitude", "m", "length", example=0.0, low=-5000, high=20000,
+              per_segment=True, description="geometric altitude (the ISA's range, "
+                                            "mdao.physics.atmosphere.ALTITUDE_RANGE)"),
     Parameter("segment.speed", "speed", "m/s", "speed", example=40.0, low=0, high=400,
               low_open=True, per_segment=True, description="flight speed"),
     Parameter("segment.duration", "duration", "s", "time", example=3600.0, low=0,

@@ -78,12 +78,9 @@ class BlownWingGroup(om.Group):
                                                 stations=o["stations"]), promotes=["*"])
         fan = FanComp(num_nodes=n, fan_model=o["fan_model"], fans=o["fans"],
                       compressible=o["compressible"])
-        if o["follow_requirement"]:
-            self.add_subsystem("fan", fan, promotes_inputs=[("fan_pressure_rise", "fan_pressure_rise_in"), "*"],
-                               promotes_outputs=["*"])
-            self.connect("required_pressure_rise", "fan_pressure_rise_in")
-        else:
-            self.add_subsystem("fan", fan, promotes=["*"])
+        self.add_subsystem("fan", fan, promotes=["*"])
+        if o["follow_requirement"]:     # the fan gives what the duct requires: no free input
+            self.connect("required_pressure_rise", "fan_pressure_rise")
         self.add_subsystem("airfoil", AirfoilComp(num_nodes=n), promotes=["*"])
         self.add_subsystem("power", SegmentPowerComp(num_nodes=n, blowing=o["blowing"]),
                            promotes=["*"])
@@ -300,7 +297,8 @@ def chain_parameters(case, **overrides):
     return params
 
 
-def build_problem(case, follow_requirement=False, driver=True, fused=None, coloring=True):
+def build_problem(case, follow_requirement=False, driver=True, fused=None, coloring=True,
+                  complex_step=False):
     """A set-up problem for a case: design variables, constraints, objective and SLSQP.
 
     Design variables: the slot ratio (when ``slot.ratio_bounds`` are given and differ), and per
@@ -326,6 +324,9 @@ def build_problem(case, follow_requirement=False, driver=True, fused=None, color
         (:mod:`mdao.total_coloring`), so that a gradient costs a few linear solves whatever the
         number of segments. False keeps one solve per design variable (and lets the model
         approximate its totals instead, ``approx_totals``, after which set up again).
+    complex_step : bool
+        Set up with complex vectors (``force_alloc_complex``), so that ``check_totals`` and
+        ``check_partials`` can take ``method="cs"`` (the physics keeps a complex step).
     """
     opts = group_options(case, fused)
     opts["follow_requirement"] = follow_requirement
@@ -346,7 +347,7 @@ def build_problem(case, follow_requirement=False, driver=True, fused=None, color
         # the gradient needs the partials of the responses against the design variables only
         wing.options["partials_of"] = tuple(of)
         wing.options["partials_wrt"] = tuple(wrt)
-    prob.setup(force_alloc_complex=False)
+    prob.setup(force_alloc_complex=complex_step)
     set_case_values(prob, case, follow_requirement=follow_requirement, point=point)
     prob.final_setup()
     if driver and coloring:

@@ -17,7 +17,8 @@ TABLE = np.array([
     [11000, 216.774, 22699.96, 0.36480, 295.154, 1.42229e-5],
     [20000, 216.650, 5529.31, 0.08891, 295.070, 1.42161e-5],
 ])
-GRID = np.linspace(0.0, 20000.0, 200)
+#: The whole range, from the standard's lower limit (ISO 2533:1975/Add 2:1997: -5000 m).
+GRID = np.linspace(-5000.0, 20000.0, 251)
 
 
 def test_gas_constants_against_their_definitions():
@@ -43,7 +44,7 @@ def test_reference_table():
 
 
 def test_fluids_atmosphere_1976():
-    """fluids.atmosphere.ATMOSPHERE_1976 on 200 altitudes, 0-20 km.
+    """fluids.atmosphere.ATMOSPHERE_1976 on 251 altitudes, -5 to 20 km.
 
     Temperature and viscosity agree to 2e-16; pressure to 2.0e-6 and density to 1.4e-6 (fluids uses
     R = 8314.32/28.9644 against ICAO's 287.05287 here); speed of sound to 3.6e-7.
@@ -58,8 +59,8 @@ def test_fluids_atmosphere_1976():
 
 
 def test_ambiance():
-    """ambiance.Atmosphere on 200 altitudes, 0-20 km: T, a, mu to 1e-14; p and rho within
-    1.8e-6 relative (measured 1.77e-6)."""
+    """ambiance.Atmosphere on 251 altitudes, -5 to 20 km (below sea level too): T, a, mu to
+    1e-14; p and rho within 1.8e-6 relative (measured 1.77e-6)."""
     ref = ambiance.Atmosphere(GRID)
     state = isa(GRID)
     for field, name, rtol in (("temperature", "temperature", 1e-14),
@@ -77,11 +78,11 @@ def test_geopotential_matters():
 
 
 def test_derivatives_central_fd():
-    z = np.array([0.0, 500.0, 4321.0, 10990.0, 11050.0, 15000.0, 19990.0])
+    z = np.array([-5000.0, -1234.0, 0.0, 500.0, 4321.0, 10990.0, 11050.0, 15000.0, 19990.0])
     _, d = isa(z, derivatives=True)
     h = 1e-2
-    plus, minus = isa(z + h), isa(np.maximum(z - h, 0.0))
-    step = z + h - np.maximum(z - h, 0.0)
+    plus, minus = isa(z + h), isa(np.maximum(z - h, -5000.0))
+    step = z + h - np.maximum(z - h, -5000.0)
     for field in Atmosphere._fields:
         fd = (getattr(plus, field) - getattr(minus, field)) / step
         np.testing.assert_allclose(getattr(d, field), fd, rtol=1e-6,
@@ -94,9 +95,9 @@ def test_derivative_signs():
     assert d.temperature[0] < 0 and d.temperature[1] == 0
 
 
-@pytest.mark.parametrize("bad", [-1.0, 20000.5, np.nan, [100.0, 3e4]])
+@pytest.mark.parametrize("bad", [-5000.5, 20000.5, np.nan, [100.0, 3e4]])
 def test_out_of_range(bad):
-    with pytest.raises(ValueError, match=r"altitude.*0 to 20000"):
+    with pytest.raises(ValueError, match=r"altitude.*-5000 to 20000"):
         isa(bad)
 
 
@@ -107,7 +108,7 @@ def test_shape_kept():
 def test_component_partials():
     rng = np.random.default_rng(7)
     prob = assert_partials(AtmosphereComp(num_nodes=5),
-                           {"altitude": rng.uniform(0.0, 20000.0, 5)})
+                           {"altitude": rng.uniform(-5000.0, 20000.0, 5)})
     np.testing.assert_allclose(prob.get_val("density"), isa(prob.get_val("altitude")).density)
 
 

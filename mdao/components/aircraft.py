@@ -7,6 +7,7 @@ segment and the mission's clean source energy.
 import numpy as np
 from mdao import om
 
+from mdao.components.common import NUM_NODES, analysis_errors
 from mdao.components.common import add_parameter_inputs, broadcast, column, diagonal
 from mdao.physics import aircraft
 
@@ -24,7 +25,7 @@ class AircraftComp(om.ExplicitComponent):
             "Performance and Design (1999) (steady climb); docs/theory.md.")
 
     def initialize(self):
-        self.options.declare("num_nodes", types=int, default=1, lower=1, desc="segments")
+        self.options.declare("num_nodes", **NUM_NODES, desc="segments")
 
     def setup(self):
         n = self.options["num_nodes"]
@@ -80,6 +81,7 @@ class AircraftComp(om.ExplicitComponent):
         args = [inputs[k] for k in aircraft.FLIGHT_INPUTS]
         return aircraft.flight_condition(*args, derivatives=derivatives)
 
+    @analysis_errors
     def compute(self, inputs, outputs):
         fc = self._flight(inputs)
         for name in FLIGHT_OUTPUTS:
@@ -91,6 +93,7 @@ class AircraftComp(om.ExplicitComponent):
         outputs["clean_source_energy"] = power * inputs["duration"]
         outputs["mission_clean_energy"] = np.sum(power * inputs["duration"])
 
+    @analysis_errors
     def compute_partials(self, inputs, partials):
         n = self.options["num_nodes"]
         fc, d = self._flight(inputs, derivatives=True)

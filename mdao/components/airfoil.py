@@ -3,6 +3,7 @@
 import numpy as np
 from mdao import om
 
+from mdao.components.common import NUM_NODES, analysis_errors
 from mdao.components.common import add_parameter_inputs
 from mdao.physics import airfoil as phys
 
@@ -27,7 +28,7 @@ class AirfoilComp(om.ExplicitComponent):
     cite = AIRFOIL_CITE
 
     def initialize(self):
-        self.options.declare('num_nodes', types=int, default=1, lower=1, desc='operating points')
+        self.options.declare('num_nodes', **NUM_NODES, desc='operating points')
 
     def setup(self):
         n = self.options['num_nodes']
@@ -65,6 +66,7 @@ class AirfoilComp(om.ExplicitComponent):
         return phys.drag_coefficient(inputs['momentum_coefficient'], **args,
                                      derivatives=derivatives)
 
+    @analysis_errors
     def compute(self, inputs, outputs):
         # straight into the output arrays (no temporaries, no copies); q (c b) as in the chain
         dcd = self._increment(inputs)
@@ -78,6 +80,7 @@ class AirfoilComp(om.ExplicitComponent):
         outputs['lift_increment'] = phys.lift_increment(inputs['momentum_coefficient'],
                                                         inputs['lift_per_momentum'][0])
 
+    @analysis_errors
     def compute_partials(self, inputs, partials):
         inc, dinc = self._increment(inputs, derivatives=True)
         q, c, b = inputs['dynamic_pressure'], inputs['chord'][0], inputs['blown_span'][0]

@@ -2,6 +2,7 @@
 import numpy as np
 from mdao import om
 
+from mdao.components.common import NUM_NODES, analysis_errors
 from mdao.components.common import add_parameter_inputs
 from mdao.physics.atmosphere import isa
 
@@ -22,12 +23,12 @@ _OUTPUTS = (("temperature", "K", 288.15, "static temperature"),
 
 
 class AtmosphereComp(om.ExplicitComponent):
-    """ISA air state at each operating point's geometric altitude (0 to 20 km)."""
+    """ISA air state at each operating point's geometric altitude (-5 to 20 km)."""
 
     cite = ISA_CITE
 
     def initialize(self):
-        self.options.declare("num_nodes", types=int, default=1, lower=1, desc="operating points")
+        self.options.declare("num_nodes", **NUM_NODES, desc="operating points")
 
     def setup(self):
         n = self.options["num_nodes"]
@@ -40,11 +41,13 @@ class AtmosphereComp(om.ExplicitComponent):
         for name, *_ in _OUTPUTS:
             self.declare_partials(name, "altitude", rows=nodes, cols=nodes)
 
+    @analysis_errors
     def compute(self, inputs, outputs):
         state = isa(inputs["altitude"])
         for name, *_ in _OUTPUTS:
             outputs[name] = getattr(state, name)
 
+    @analysis_errors
     def compute_partials(self, inputs, partials):
         _, d_dz = isa(inputs["altitude"], derivatives=True)
         for name, *_ in _OUTPUTS:

@@ -11,7 +11,8 @@ import numpy as np
 from mdao import om
 
 from mdao import parameters as registry
-from mdao.components.common import blowing_flags, column, declare_chain_options, diagonal
+from mdao.components.common import (analysis_errors, blowing_flags, column,
+                                   declare_chain_options, diagonal)
 from mdao.physics import chain
 
 #: Node inputs that are design variables rather than model parameters: start values.
@@ -200,6 +201,7 @@ class ChainComp(om.ExplicitComponent):
             totals["mission_clean_energy"] = "clean_source_energy"
         return totals
 
+    @analysis_errors
     def compute(self, inputs, outputs):
         # In strips of nodes (the chain is elementwise over them): a strip's intermediates stay
         # in cache and in memory the allocator hands back at once, where the whole vector's
@@ -229,6 +231,7 @@ class ChainComp(om.ExplicitComponent):
             for name, (field, _) in STATION_OUTPUTS.items():
                 outputs[name] = getattr(st, field)
 
+    @analysis_errors
     def compute_partials(self, inputs, partials):
         _, d = chain.evaluate(self._params(inputs), self._chain_opts, blowing=self._chain_blowing,
                               derivatives=True, outputs=self._chain_wanted, wrt=self._chain_wrt)

@@ -1,6 +1,41 @@
-"""Helpers shared by the components: sparsity patterns, per-node flags and the inputs of
-declared model parameters."""
+"""Helpers shared by the components: sparsity patterns, per-node flags, the inputs of
+declared model parameters, the ``num_nodes`` option and the errors of ``compute``."""
+import functools
+
 import numpy as np
+from openmdao.core.analysis_error import AnalysisError
+
+
+class InputRangeError(AnalysisError, ValueError):
+    """An input value outside a model's range, met inside a component's ``compute`` or
+    ``compute_partials``: OpenMDAO's ``AnalysisError``, so that a driver or solver may back off
+    (a line search takes a shorter step), and still the ``ValueError`` the physics raised, with
+    its message."""
+
+
+def analysis_errors(method):
+    """Decorate a component's ``compute`` or ``compute_partials``: a ``ValueError`` from the
+    physics (an input value out of range) is raised again as :class:`InputRangeError`, the same
+    message, the original chained as its cause."""
+    @functools.wraps(method)
+    def checked(self, *args, **kwargs):
+        try:
+            return method(self, *args, **kwargs)
+        except AnalysisError:
+            raise
+        except ValueError as err:
+            raise InputRangeError(str(err)) from err
+    return checked
+
+
+def _python_int(meta, value):
+    """An integer option's value as a Python int (a NumPy integer accepted)."""
+    return int(value)
+
+
+#: Keyword arguments of ``options.declare`` for ``num_nodes``: a Python int or a NumPy integer
+#: (``np.int64(11)``, as a host's arithmetic gives), stored as a Python int.
+NUM_NODES = dict(types=(int, np.integer), set_function=_python_int, default=1, lower=1)
 
 
 def diagonal(n):
@@ -25,10 +60,14 @@ def broadcast(value, n):
 
 
 def blowing_flags(flags, n):
-    """The ``blowing`` option as n booleans (None: the fan runs at every node)."""
+    """The ``blowing`` option as n booleans: None (the fan runs at every node), one bool or a
+    one-entry sequence (the same at every node), or n entries."""
     flags = np.ones(n, bool) if flags is None else np.asarray(flags, bool)
+    if flags.shape in ((), (1,)):
+        flags = np.full(n, flags.reshape(-1)[0])
     if flags.shape != (n,):
-        raise ValueError(f"blowing must have num_nodes={n} entries, got {flags.shape}")
+        raise ValueError(f"blowing must be one bool or have num_nodes={n} entries, got shape "
+                         f"{flags.shape}")
     return flags
 
 
@@ -49,7 +88,7 @@ def add_parameter_inputs(component, names, num_nodes=1):
 #: Options of the whole chain, shared by :class:`mdao.components.chain.ChainComp` and
 #: :class:`mdao.system.BlownWingGroup`: name -> keyword arguments of ``options.declare``.
 CHAIN_OPTIONS = {
-    "num_nodes": dict(types=int, default=1, lower=1, desc="segments or operating points"),
+    "num_nodes": dict(NUM_NODES, desc="segments or operating points"),
     "duct_model": dict(default="lumped", values=("lumped", "geometric"),
                        desc="lumped: K_j given; geometric: K_j from the duct's geometry"),
     "fan_model": dict(default="constant", values=("constant", "map"),
@@ -73,7 +112,9 @@ CHAIN_OPTIONS = {
                         desc="constants tabulated over the section lift coefficient: "
                              "((name, mdao.physics.lift_table.LiftTable), ...); without the "
                              "aircraft the lift coefficient is an input per node"),
-    "blowing": dict(default=None, allow_none=True, desc="per node: does the fan run (default: all)"),
+    "blowing": dict(default=None, allow_none=True,
+                    desc="does the fan run: one bool for every node, or one per node "
+                         "(default: at every node)"),
     "partials_of": dict(types=tuple, default=None, allow_none=True,
                         desc="fused chain: the outputs whose partials are declared (default "
                              "every output); set to what a problem differentiates (its "

@@ -6,8 +6,9 @@ each node from the transition stations, friction and form losses.
 import numpy as np
 from mdao import om
 
+from mdao.components.common import NUM_NODES, analysis_errors
 from mdao.components.common import add_parameter_inputs, broadcast, column, diagonal, full
-from mdao.physics import duct
+from mdao.physics import duct, jet
 
 SCALARS = ("slot_ratio", "suction_ratio", "suction_inlet_loss", "bend_loss", "extra_loss",
            "roughness")
@@ -22,7 +23,7 @@ class DuctLossComp(om.ExplicitComponent):
             "Churchill, Chem. Eng. 84(24) (1977) 91.")
 
     def initialize(self):
-        self.options.declare("num_nodes", types=int, default=1, lower=1, desc="operating points")
+        self.options.declare("num_nodes", **NUM_NODES, desc="operating points")
         self.options.declare("duct_model", default="lumped", values=("lumped", "geometric"),
                              desc="lumped: K_j given; geometric: K_j from the duct's geometry")
         self.options.declare("fans", types=int, default=1, lower=1, desc="number of fans")
@@ -33,12 +34,13 @@ class DuctLossComp(om.ExplicitComponent):
         n = self.options["num_nodes"]
         m = self.options["stations"]
         add_parameter_inputs(self, ("freestream_assist",))
-        self.add_input("density", val=1.225 * np.ones(n), units="kg/m**3")
-        self.add_input("jet_velocity", val=50.0 * np.ones(n), units="m/s")
+        # the jet's head from C_mu (linear in it: a finite derivative at C_mu = 0)
+        self.add_input("momentum_coefficient", val=0.03 * np.ones(n), desc="momentum coefficient")
         self.add_input("dynamic_pressure", val=1000.0 * np.ones(n), units="Pa")
         if self.options["duct_model"] == "lumped":
-            add_parameter_inputs(self, ("jet_loss_factor",))
+            add_parameter_inputs(self, ("jet_loss_factor", "slot_ratio"))
         else:
+            self.add_input("density", val=1.225 * np.ones(n), units="kg/m**3")
             self.add_input("volume_flow", val=0.12 * np.ones(n), units="m**3/s",
                            desc="jet volume flow, all fans")
             self.add_input("viscosity", val=1.79e-5 * np.ones(n), units="Pa*s")
@@ -54,24 +56,23 @@ class DuctLossComp(om.ExplicitComponent):
         n = self.options["num_nodes"]
         m = self.options["stations"]
         of = "required_pressure_rise"
-        for wrt in ("density", "jet_velocity", "dynamic_pressure"):
+        for wrt in ("momentum_coefficient", "dynamic_pressure"):
             self.declare_partials(of, wrt, rows=diagonal(n)[0], cols=diagonal(n)[1])
         self.declare_partials(of, "freestream_assist", rows=column(n)[0], cols=column(n)[1])
         if self.options["duct_model"] == "lumped":
-            self.declare_partials(of, "jet_loss_factor", rows=column(n)[0], cols=column(n)[1])
+            for wrt in ("jet_loss_factor", "slot_ratio"):
+                self.declare_partials(of, wrt, rows=column(n)[0], cols=column(n)[1])
             return
         rows_d, cols_d = diagonal(n)
         rows_c, cols_c = column(n)
         rows_f, cols_f = full(n, m)
         for target in ("jet_loss_factor", of):
             for wrt in ("volume_flow", "density", "viscosity"):
-                if not (target == of and wrt == "density"):
-                    self.declare_partials(target, wrt, rows=rows_d, cols=cols_d)
+                self.declare_partials(target, wrt, rows=rows_d, cols=cols_d)
             for wrt in SCALARS:
                 self.declare_partials(target, wrt, rows=rows_c, cols=cols_c)
             for wrt in STATION_INPUTS.values():
                 self.declare_partials(target, wrt, rows=rows_f, cols=cols_f)
-        self.declare_partials("jet_loss_factor", "density", rows=rows_d, cols=cols_d)
 
     def _loss_factor(self, inputs, derivatives=False):
         fans = self.options["fans"]
@@ -82,38 +83,45 @@ class DuctLossComp(om.ExplicitComponent):
             inputs["station_position"], inputs["station_area"], inputs["station_perimeter"],
             derivatives=derivatives)
 
+    @analysis_errors
     def compute(self, inputs, outputs):
         if self.options["duct_model"] == "lumped":
             kj = inputs["jet_loss_factor"]
         else:
             kj = self._loss_factor(inputs)
             outputs["jet_loss_factor"] = kj
-        outputs["required_pressure_rise"] = duct.required_pressure_rise(
-            kj, inputs["freestream_assist"], inputs["density"], inputs["jet_velocity"],
-            inputs["dynamic_pressure"])
+        head = jet.jet_dynamic_head(inputs["momentum_coefficient"], inputs["slot_ratio"],
+                                    inputs["dynamic_pressure"])
+        outputs["required_pressure_rise"] = duct.required_pressure_rise_from_head(
+            kj, inputs["freestream_assist"], head, inputs["dynamic_pressure"])
 
+    @analysis_errors
     def compute_partials(self, inputs, partials):
         n = self.options["num_nodes"]
         of = "required_pressure_rise"
         lumped = self.options["duct_model"] == "lumped"
         kj, dk = (inputs["jet_loss_factor"], None) if lumped else self._loss_factor(inputs, True)
-        _, d = duct.required_pressure_rise(kj, inputs["freestream_assist"], inputs["density"],
-                                           inputs["jet_velocity"], inputs["dynamic_pressure"],
-                                           derivatives=True)
-        for wrt in ("jet_velocity", "dynamic_pressure", "freestream_assist"):
-            partials[of, wrt] = broadcast(d[wrt], n)
+        head, dh = jet.jet_dynamic_head(inputs["momentum_coefficient"], inputs["slot_ratio"],
+                                        inputs["dynamic_pressure"], derivatives=True)
+        _, d = duct.required_pressure_rise_from_head(kj, inputs["freestream_assist"], head,
+                                                     inputs["dynamic_pressure"], derivatives=True)
+        along = broadcast(d["jet_head"], n)           # d(required)/d(head) = K_j
+        partials[of, "momentum_coefficient"] = along * broadcast(dh["momentum_coefficient"], n)
+        partials[of, "dynamic_pressure"] = (broadcast(d["dynamic_pressure"], n)
+                                            + along * broadcast(dh["dynamic_pressure"], n))
+        partials[of, "freestream_assist"] = broadcast(d["freestream_assist"], n)
+        through_slot = along * broadcast(dh["slot_ratio"], n)
         if lumped:
-            partials[of, "density"] = broadcast(d["density"], n)
             partials[of, "jet_loss_factor"] = broadcast(d["jet_loss_factor"], n)
+            partials[of, "slot_ratio"] = through_slot
             return
-        head = broadcast(d["jet_loss_factor"], n)
+        head = broadcast(d["jet_loss_factor"], n)     # d(required)/d(K_j) = the jet's head
         fans = self.options["fans"]
-        for name in ("volume_flow", "viscosity") + SCALARS:
+        for name in ("volume_flow", "density", "viscosity") + SCALARS:
             scale = 1.0 / fans if name == "volume_flow" else 1.0
             partials["jet_loss_factor", name] = broadcast(dk[name], n) * scale
             partials[of, name] = head * broadcast(dk[name], n) * scale
-        partials["jet_loss_factor", "density"] = broadcast(dk["density"], n)
-        partials[of, "density"] = broadcast(d["density"], n) + head * broadcast(dk["density"], n)
+        partials[of, "slot_ratio"] = head * broadcast(dk["slot_ratio"], n) + through_slot
         for key, name in STATION_INPUTS.items():
             partials["jet_loss_factor", name] = dk[key].ravel()
             partials[of, name] = (head[:, None] * dk[key]).ravel()

@@ -2,6 +2,7 @@
 import numpy as np
 from mdao import om
 
+from mdao.components.common import NUM_NODES, analysis_errors
 from mdao.components.common import add_parameter_inputs
 from mdao.physics import fan as phys
 
@@ -35,7 +36,7 @@ class FanComp(om.ExplicitComponent):
     cite = FAN_CITE
 
     def initialize(self):
-        self.options.declare('num_nodes', types=int, default=1, lower=1, desc='operating points')
+        self.options.declare('num_nodes', **NUM_NODES, desc='operating points')
         self.options.declare('fan_model', default='constant', values=('constant', 'map'),
                              desc="'constant' efficiency, or a quadratic 'map' with efficiency "
                                   "parabola")
@@ -172,6 +173,7 @@ class FanComp(om.ExplicitComponent):
         air, d = phys.shaft_power(q, dp, 1.0, derivatives=True)
         return air, {'volume_flow': d['volume_flow'], 'fan_pressure_rise': d['pressure_rise']}
 
+    @analysis_errors
     def compute(self, inputs, outputs):
         # values only: the partials of _evaluate are compute_partials' business
         q, dp = inputs['volume_flow'], inputs['fan_pressure_rise']
@@ -199,6 +201,7 @@ class FanComp(om.ExplicitComponent):
             outputs['fan_shaft_power'] = phys.shaft_power(q, dp, eta)
             outputs['air_power'] = phys.shaft_power(q, dp, 1.0)
 
+    @analysis_errors
     def compute_partials(self, inputs, partials):
         _, jac = self._evaluate(inputs)
         for of, row in jac.items():

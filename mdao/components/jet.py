@@ -2,6 +2,7 @@
 import numpy as np
 from mdao import om
 
+from mdao.components.common import NUM_NODES, analysis_errors
 from mdao.components.common import add_parameter_inputs, broadcast, column, diagonal
 from mdao.physics import jet
 
@@ -15,7 +16,7 @@ class JetComp(om.ExplicitComponent):
     cite = "Englar, R. J. Circulation control pneumatic aerodynamics. AIAA PA&A 192 (2001)."
 
     def initialize(self):
-        self.options.declare("num_nodes", types=int, default=1, lower=1, desc="operating points")
+        self.options.declare("num_nodes", **NUM_NODES, desc="operating points")
 
     def setup(self):
         n = self.options["num_nodes"]
@@ -51,11 +52,13 @@ class JetComp(om.ExplicitComponent):
                               inputs["blown_span"][0], inputs["speed_of_sound"],
                               derivatives=derivatives)
 
+    @analysis_errors
     def compute(self, inputs, outputs):
         state = self._physics(inputs)
         for name, value in state._asdict().items():
             outputs[name] = value
 
+    @analysis_errors
     def compute_partials(self, inputs, partials):
         n = self.options["num_nodes"]
         _, d = self._physics(inputs, derivatives=True)

@@ -9,6 +9,7 @@ aircraft's mass build-up charges.
 import numpy as np
 from mdao import om
 
+from mdao.components.common import NUM_NODES, analysis_errors
 from mdao.components.common import add_parameter_inputs, blowing_flags, broadcast, column
 from mdao.parameters import MASS_PARAMETERS
 from mdao.physics import mass as phys
@@ -42,7 +43,7 @@ class BlowingSystemMassComp(om.ExplicitComponent):
     cite = MASS_CITE
 
     def initialize(self):
-        self.options.declare("num_nodes", types=int, default=1, lower=1, desc="segments")
+        self.options.declare("num_nodes", **NUM_NODES, desc="segments")
         self.options.declare("duct_model", default="lumped", values=("lumped", "geometric"),
                              desc="lumped: wetted area from the planform; geometric: from the "
                                   "transition stations")
@@ -50,7 +51,8 @@ class BlowingSystemMassComp(om.ExplicitComponent):
         self.options.declare("stations", types=int, default=33, lower=2,
                              desc="transition stations (geometric duct)")
         self.options.declare("blowing", default=None, allow_none=True,
-                             desc="sequence of bool per node: does the fan run? (default all)")
+                             desc="does the fan run: one bool for every node, or one per node "
+                                  "(default: at every node)")
 
     def _blowing(self):
         return blowing_flags(self.options["blowing"], self.options["num_nodes"])
@@ -120,6 +122,7 @@ class BlowingSystemMassComp(om.ExplicitComponent):
         return phys.rotating_mass(inputs["rated_shaft_power"][0], inputs["fan_specific_power"][0],
                                   inputs["motor_specific_power"][0], derivatives=derivatives)
 
+    @analysis_errors
     def compute(self, inputs, outputs):
         rot = self._rotating(inputs)
         area = self._area(inputs)
@@ -133,6 +136,7 @@ class BlowingSystemMassComp(om.ExplicitComponent):
             inputs["rated_shaft_power"][0], np.where(on, inputs["fan_shaft_power"], 0.0),
             inputs["power_margin"][0])
 
+    @analysis_errors
     def compute_partials(self, inputs, partials):
         n = self.options["num_nodes"]
         rot, d_rot = self._rotating(inputs, derivatives=True)

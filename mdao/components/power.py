@@ -3,6 +3,7 @@
 import numpy as np
 from mdao import om
 
+from mdao.components.common import NUM_NODES, analysis_errors
 from mdao.components.common import (add_parameter_inputs, blowing_flags, broadcast, column,
                                       diagonal)
 from mdao.physics import power
@@ -18,9 +19,10 @@ class SegmentPowerComp(om.ExplicitComponent):
     cite = "Net power at the source: docs/theory.md, segment power (this project)."
 
     def initialize(self):
-        self.options.declare("num_nodes", types=int, default=1, lower=1, desc="segments")
+        self.options.declare("num_nodes", **NUM_NODES, desc="segments")
         self.options.declare("blowing", default=None, allow_none=True,
-                             desc="sequence of bool per node: does the fan run? (default all)")
+                             desc="does the fan run: one bool for every node, or one per node "
+                                  "(default: at every node)")
 
     def _blowing(self):
         return self._blowing_flags      # checked once, in setup
@@ -71,6 +73,7 @@ class SegmentPowerComp(om.ExplicitComponent):
                                    inputs["chain_efficiency"], inputs["motor_efficiency"],
                                    blowing=self._blowing(), derivatives=derivatives)
 
+    @analysis_errors
     def compute(self, inputs, outputs):
         prop, fan, net = self._physics(inputs)
         outputs["propulsion_power_saving"] = prop
@@ -81,6 +84,7 @@ class SegmentPowerComp(om.ExplicitComponent):
         outputs["energy_saving"] = energy
         outputs["mission_energy_saving"] = energy.sum()
 
+    @analysis_errors
     def compute_partials(self, inputs, partials):
         n = self.options["num_nodes"]
         *_, net, d = self._physics(inputs, derivatives=True)

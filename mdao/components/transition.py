@@ -3,6 +3,7 @@
 import numpy as np
 from mdao import om
 
+from mdao.components.common import NUM_NODES, analysis_errors
 from mdao.components.common import add_parameter_inputs
 from mdao.physics.transition import BETWEEN, SCHEDULES, stations
 
@@ -36,7 +37,7 @@ class TransitionComp(om.ExplicitComponent):
     cite = TRANSITION_CITE
 
     def initialize(self):
-        self.options.declare("num_nodes", types=int, default=1, lower=1,
+        self.options.declare("num_nodes", **NUM_NODES,
                              desc="operating points (accepted; the duct is wing-level)")
         self.options.declare("fans", types=int, default=1, lower=1, desc="fans along the blown span")
         self.options.declare("stations", types=int, default=33, lower=3, desc="stations along the duct")
@@ -85,11 +86,13 @@ class TransitionComp(om.ExplicitComponent):
                     slot_exponent=inputs["slot_exponent"][0],
                     schedule=self.options["schedule"], count=self.options["stations"])
 
+    @analysis_errors
     def compute(self, inputs, outputs):
         result = stations(**self._geometry(inputs))
         for name, field, *_ in _OUTPUTS:
             outputs[name] = getattr(result, field)
 
+    @analysis_errors
     def compute_partials(self, inputs, partials):
         _, d = stations(**self._geometry(inputs), derivatives=True)
         fans = self.options["fans"]

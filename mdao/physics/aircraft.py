@@ -14,6 +14,8 @@ from collections import namedtuple
 
 import numpy as np
 
+from mdao.physics.numeric import asarray
+
 #: Standard acceleration of gravity [m/s^2] (CGPM 1901; ISO 80000-3).
 STANDARD_GRAVITY = 9.80665
 
@@ -80,7 +82,7 @@ def flight_condition(aircraft_mass, wing_area, zero_lift_drag, aspect_ratio, spa
     (1.0, 6.843937057)
     """
     m, s, cd0, ar, e, w, q, v = np.broadcast_arrays(
-        *(np.asarray(x, float) for x in (aircraft_mass, wing_area, zero_lift_drag, aspect_ratio,
+        *(asarray(x) for x in (aircraft_mass, wing_area, zero_lift_drag, aspect_ratio,
                                           span_efficiency, climb_rate, dynamic_pressure, speed)))
     weight = m * STANDARD_GRAVITY
     sin_g = w / v
@@ -143,7 +145,7 @@ def main_thrust(main_thrust_clean, drag_saving):
     >>> float(main_thrust(6.5, 1.25))
     5.25
     """
-    return np.asarray(main_thrust_clean, float) - np.asarray(drag_saving, float)
+    return asarray(main_thrust_clean) - asarray(drag_saving)
 
 
 def clean_source_power(main_thrust_clean, speed, chain_efficiency, derivatives=False):
@@ -170,7 +172,7 @@ def clean_source_power(main_thrust_clean, speed, chain_efficiency, derivatives=F
     >>> float(clean_source_power(10.0, 20.0, 0.8))
     250.0
     """
-    t0, v, eta = (np.asarray(x, float) for x in (main_thrust_clean, speed, chain_efficiency))
+    t0, v, eta = (asarray(x) for x in (main_thrust_clean, speed, chain_efficiency))
     p0 = t0 * v / eta
     if not derivatives:
         return p0
@@ -230,7 +232,7 @@ def added_mass_thrust(aircraft_mass, added_mass, wing_area, aspect_ratio, span_e
     (0.819408, 0.819408)
     """
     m, dm, s, ar, e, w, q, v = np.broadcast_arrays(
-        *(np.asarray(x, float) for x in (aircraft_mass, added_mass, wing_area, aspect_ratio,
+        *(asarray(x) for x in (aircraft_mass, added_mass, wing_area, aspect_ratio,
                                           span_efficiency, climb_rate, dynamic_pressure, speed)))
     g = STANDARD_GRAVITY
     sin_g = w / v

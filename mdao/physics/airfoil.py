@@ -22,6 +22,8 @@ References
 """
 import numpy as np
 
+from mdao.physics.numeric import asarray
+
 
 def slot_drag_at(slot_ratio, slot_drag, slot_drag_per_ratio):
     r"""Drag penalty of the slotted shape at a slot ratio.
@@ -56,7 +58,7 @@ def slot_drag_at(slot_ratio, slot_drag, slot_drag_per_ratio):
     >>> round(float(slot_drag_at(0.01, 0.02, 0.5)), 12)
     0.025
     """
-    return np.asarray(slot_drag, float) + np.asarray(slot_drag_per_ratio, float) * slot_ratio
+    return asarray(slot_drag) + asarray(slot_drag_per_ratio) * slot_ratio
 
 
 def drag_per_momentum_at(slot_ratio, drag_per_momentum, drag_per_momentum_per_ratio):
@@ -92,8 +94,8 @@ def drag_per_momentum_at(slot_ratio, drag_per_momentum, drag_per_momentum_per_ra
     >>> round(float(drag_per_momentum_at(0.01, -1.2, 10.0)), 12)
     -1.1
     """
-    return (np.asarray(drag_per_momentum, float)
-            + np.asarray(drag_per_momentum_per_ratio, float) * slot_ratio)
+    return (asarray(drag_per_momentum)
+            + asarray(drag_per_momentum_per_ratio) * slot_ratio)
 
 
 #: Arguments of :func:`drag_coefficient`, in order (also the keys of its partials).
@@ -151,13 +153,13 @@ def drag_coefficient(momentum_coefficient, slot_ratio, drag_clean, slot_drag, sl
     >>> round(float(drag_coefficient(0.03, 0.01, 0.012, 0.02, 0.0, -1.2, 0.0)), 12)
     -0.004
     """
-    cmu = np.asarray(momentum_coefficient, float)
-    rs = np.asarray(slot_ratio, float)
-    s1 = np.asarray(slot_drag_per_ratio, float)
-    b1 = np.asarray(drag_per_momentum_per_ratio, float)
-    k2 = np.asarray(drag_quadratic, float)
+    cmu = asarray(momentum_coefficient)
+    rs = asarray(slot_ratio)
+    s1 = asarray(slot_drag_per_ratio)
+    b1 = asarray(drag_per_momentum_per_ratio)
+    k2 = asarray(drag_quadratic)
     beta = drag_per_momentum_at(rs, drag_per_momentum, b1)
-    cd = np.asarray(drag_clean, float) + slot_drag_at(rs, slot_drag, s1) + beta * cmu
+    cd = asarray(drag_clean) + slot_drag_at(rs, slot_drag, s1) + beta * cmu
     if k2.ndim or k2 != 0.0:                # the linear model (k2 = 0) adds nothing
         cd = cd + k2 * cmu**2
     if not derivatives:
@@ -205,4 +207,4 @@ def lift_increment(momentum_coefficient, lift_per_momentum):
     >>> round(float(lift_increment(0.03, 5.0)), 12)
     0.15
     """
-    return np.asarray(lift_per_momentum, float) * np.asarray(momentum_coefficient, float)
+    return asarray(lift_per_momentum) * asarray(momentum_coefficient)

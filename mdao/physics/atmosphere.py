@@ -1,14 +1,25 @@
-"""International Standard Atmosphere from sea level to 20 km geometric altitude.
+"""International Standard Atmosphere from 5 km below sea level to 20 km geometric altitude.
 
 Troposphere (constant lapse rate) and the isothermal lower stratosphere of ICAO Doc 7488 /
 ISO 2533 / U.S. Standard Atmosphere 1976 (identical in this range), with Sutherland's law for the
 dynamic viscosity. Altitudes given are geometric and converted to geopotential internally.
+
+The lower limit is the standard's: ISO 2533:1975 tabulates from -2000 m and its Addendum 2
+(1997) extends the tables down to -5000 m, over which the troposphere's lapse rate holds; the
+U.S. Standard Atmosphere 1976 also starts at -5000 m (from memory). An altitude within
+:data:`ALTITUDE_ROUND_OFF` outside the range (round-off of a host's arithmetic, such as a
+descent that ends at -2.27e-13 m below the lowest allowed) is taken as the bound.
 """
 from collections import namedtuple
 
 import numpy as np
 
-__all__ = ["Atmosphere", "isa", "GAMMA", "GAS_CONSTANT", "CP", "ALTITUDE_RANGE"]
+from mdao.physics.numeric import asarray
+
+from mdao.physics.bounds import snap
+
+__all__ = ["Atmosphere", "isa", "GAMMA", "GAS_CONSTANT", "CP", "ALTITUDE_RANGE",
+           "ALTITUDE_ROUND_OFF"]
 
 Atmosphere = namedtuple("Atmosphere", "temperature pressure density speed_of_sound viscosity")
 Atmosphere.__doc__ = ("Air state: temperature [K], pressure [Pa], density [kg/m**3], speed of "
@@ -23,7 +34,10 @@ T0, P0 = 288.15, 101325.0                    #: sea-level temperature [K] and pr
 LAPSE_RATE = 0.0065                          #: troposphere lapse rate [K/m]
 H_TROPOPAUSE = 11000.0                       #: tropopause geopotential altitude [m]
 SUTHERLAND_C1, SUTHERLAND_S = 1.458e-6, 110.4  #: [kg/(m*s*K**0.5)], [K]
-ALTITUDE_RANGE = (0.0, 20000.0)              #: valid geometric altitudes [m]
+ALTITUDE_RANGE = (-5000.0, 20000.0)          #: valid geometric altitudes [m] (ISO 2533 Add. 2)
+#: Distance past a bound of ALTITUDE_RANGE taken as round-off, [m]: 1 nm, some thousand ulps of
+#: 20 km (3.6e-12 m each), far below any altitude difference that matters.
+ALTITUDE_ROUND_OFF = 1e-9
 
 _T11 = T0 - LAPSE_RATE * H_TROPOPAUSE
 _EXPONENT = G0 / (GAS_CONSTANT * LAPSE_RATE)
@@ -44,7 +58,8 @@ def isa(altitude, derivatives=False):
     Parameters
     ----------
     altitude : array_like
-        Geometric altitude, [m]. Valid range 0 to 20 000 m.
+        Geometric altitude, [m]. Valid range -5000 to 20 000 m (within
+        :data:`ALTITUDE_ROUND_OFF` outside it: the bound).
     derivatives : bool
         Also return the derivative of every field with respect to geometric altitude.
 
@@ -60,7 +75,7 @@ def isa(altitude, derivatives=False):
     Raises
     ------
     ValueError
-        If any altitude is outside 0 to 20 000 m, or NaN.
+        If any altitude is outside -5000 to 20 000 m by more than round-off, or NaN.
 
     Notes
     -----
@@ -69,7 +84,8 @@ def isa(altitude, derivatives=False):
 
     References
     ----------
-    .. [1] ICAO, *Manual of the ICAO Standard Atmosphere*, Doc 7488/3, 1993 (= ISO 2533:1975).
+    .. [1] ICAO, *Manual of the ICAO Standard Atmosphere*, Doc 7488/3, 1993 (= ISO 2533:1975,
+       with ISO 2533:1975/Add 2:1997 for -5000 to -2000 m).
     .. [2] NOAA/NASA/USAF, *U.S. Standard Atmosphere, 1976*, NOAA-S/T 76-1562.
 
     Examples
@@ -81,12 +97,15 @@ def isa(altitude, derivatives=False):
     >>> round(float(s.temperature), 3), round(float(s.pressure), 2)
     (216.774, 22699.94)
     """
-    z = np.asarray(altitude, dtype=float)
+    z = asarray(altitude)           # float, or complex under a complex step
     # the extremes first (a NaN among them fails both comparisons): one pass each
     if z.size and not (z.min() >= ALTITUDE_RANGE[0] and z.max() <= ALTITUDE_RANGE[1]):
+        z = snap(z, *ALTITUDE_RANGE, tolerance=ALTITUDE_ROUND_OFF)   # round-off: the bound
         bad = ~((z >= ALTITUDE_RANGE[0]) & (z <= ALTITUDE_RANGE[1]))
-        raise ValueError(f"altitude must be within {ALTITUDE_RANGE[0]:g} to {ALTITUDE_RANGE[1]:g} m "
-                         f"(geometric); got {float(z[bad].ravel()[0])!r}")
+        if bad.any():
+            raise ValueError(f"altitude must be within {ALTITUDE_RANGE[0]:g} to "
+                             f"{ALTITUDE_RANGE[1]:g} m (geometric); got "
+                             f"{float(z[bad].ravel()[0])!r}")
     # Values without branches where they are not needed (this is the hot path of every study):
     # T0 - L H falls below T11 exactly where H passes the tropopause, the troposphere's power
     # law is exp(k log(T/T0)) (about a quarter cheaper than the general power), and the

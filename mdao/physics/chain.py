@@ -27,6 +27,7 @@ import numpy as np
 from mdao import parameters as registry
 from mdao.physics import (aircraft, airfoil, atmosphere, duct, fan, jet, lift_table, mass,
                           power, transition)
+from mdao.physics.numeric import asarray, scalar as _item
 
 #: Internal root names of the three fan-map pressure coefficients (stacked on a last axis of
 #: length 3 under ``"pressure_coefficients"`` in the returned partials).
@@ -207,21 +208,21 @@ def _evaluate(params, options, blowing, d, outputs, wrt):
 
     # The fan's diameter over the section's thickness (the fan must fit in the wing).
     if "thickness_ratio" in p and "fan_diameter" in p:
-        thickness = np.asarray(p["thickness_ratio"], float) * np.asarray(p["chord"], float)
-        ratio = np.atleast_1d(np.asarray(p["fan_diameter"], float) / thickness)
+        thickness = asarray(p["thickness_ratio"]) * asarray(p["chord"])
+        ratio = np.atleast_1d(asarray(p["fan_diameter"]) / thickness)
         out["fan_thickness_fraction"] = ratio
         if d:
             tan["fan_thickness_fraction"] = _chain({
-                "fan_diameter": ratio / np.asarray(p["fan_diameter"], float),
-                "thickness_ratio": -ratio / np.asarray(p["thickness_ratio"], float),
-                "chord": -ratio / np.asarray(p["chord"], float)}, tan)
+                "fan_diameter": ratio / asarray(p["fan_diameter"]),
+                "thickness_ratio": -ratio / asarray(p["thickness_ratio"]),
+                "chord": -ratio / asarray(p["chord"])}, tan)
 
     # The section's lift coefficient and the constants that follow it.
     fc = _lift(p, params, options, js.dynamic_pressure, out, tan if d else None)
 
     # Duct: the jet loss factor and the pressure rise the jet requires.
     if options.duct_model == "lumped":
-        kj = np.asarray(p["jet_loss_factor"], float)
+        kj = asarray(p["jet_loss_factor"])
     else:
         kj = _geometric_loss_factor(p, options, atm, js, tan if d else None)
         st = duct_stations(p, options)
@@ -231,14 +232,17 @@ def _evaluate(params, options, blowing, d, outputs, wrt):
     if options.compressible_jet:
         res = duct.required_pressure_rise_from_head(kj, p["freestream_assist"], out["jet_head"],
                                                     js.dynamic_pressure, derivatives=d)
-    else:
-        res = duct.required_pressure_rise(kj, p["freestream_assist"], atm.density,
-                                          js.jet_velocity, js.dynamic_pressure, derivatives=d)
+    else:   # on the jet's head, linear in C_mu: a finite derivative at C_mu = 0
+        res_head = jet.jet_dynamic_head(p["momentum_coefficient"], p["slot_ratio"],
+                                        js.dynamic_pressure, derivatives=d)
+        head = _step(tan, "jet_head", res_head, d)
+        res = duct.required_pressure_rise_from_head(kj, p["freestream_assist"], head,
+                                                    js.dynamic_pressure, derivatives=d)
     req = _step(tan, "required_pressure_rise", res, d)
     out["required_pressure_rise"] = req
     out["ram_driven"] = duct.ram_driven(req)
     if "fan_pressure_rise" in p:
-        dp = np.asarray(p["fan_pressure_rise"], float)
+        dp = asarray(p["fan_pressure_rise"])
     else:
         dp = req
         if d:
@@ -247,7 +251,7 @@ def _evaluate(params, options, blowing, d, outputs, wrt):
 
     # Fan: efficiency (and the map's operating point), air power and shaft power.
     if options.fan_model == "constant":
-        eta_shaft = np.asarray(p["fan_rated_efficiency"], float)   # the scalar divides faster
+        eta_shaft = asarray(p["fan_rated_efficiency"])   # the scalar divides faster
         if d:
             eta = eta_shaft + 0 * js.volume_flow
         else:                               # values: a read-only broadcast view, no array
@@ -269,7 +273,7 @@ def _evaluate(params, options, blowing, d, outputs, wrt):
         names = {"volume_flow": "volume_flow", "pressure_rise": "fan_pressure_rise"}
     ideal = _step(tan, "air_power", res, d, names)
     out["air_power"] = ideal
-    on = ideal > 0
+    on = np.real(ideal) > 0
     with np.errstate(divide="ignore", invalid="ignore"):
         if d:
             out["fan_shaft_power"] = np.where(on, ideal / eta, 0.0)
@@ -288,8 +292,8 @@ def _evaluate(params, options, blowing, d, outputs, wrt):
     res = airfoil.drag_coefficient(p["momentum_coefficient"], p["slot_ratio"], 0.0,
                                    *(p[k] for k in airfoil.DRAG_INPUTS[3:]), derivatives=d)
     inc = res[0] if d else res
-    cd0 = np.asarray(p["drag_clean"], float)
-    area = np.asarray(p["chord"], float) * np.asarray(p["blown_span"], float)
+    cd0 = asarray(p["drag_clean"])
+    area = asarray(p["chord"]) * asarray(p["blown_span"])
     q_area = js.dynamic_pressure * area
     out["drag_coefficient"] = cd0 + inc
     out["section_drag"] = q_area * out["drag_coefficient"]
@@ -390,7 +394,7 @@ def _lift(p, params, options, dynamic_pressure, out, tan):
     if fc is not None:
         cl = fc.lift_coefficient
     elif "lift_coefficient" in p:
-        cl = np.asarray(p["lift_coefficient"], float)
+        cl = asarray(p["lift_coefficient"])
     else:
         raise ValueError("lift tables need the section lift coefficient: give the input "
                          "lift_coefficient or describe the aircraft (option aircraft)")
@@ -462,7 +466,7 @@ def _sized_flight(p, options, dynamic_pressure, out, tan):
     thrust stay those without the system, the baseline of every saving)."""
     d = tan is not None
     system = _system_mass(p, options, out, tan)
-    flight_mass = np.asarray(p["aircraft_mass"], float) + system
+    flight_mass = asarray(p["aircraft_mass"]) + system
     args = [flight_mass] + [p[k] for k in aircraft.FLIGHT_INPUTS[1:6]]
     res = aircraft.flight_condition(*args, dynamic_pressure, p["speed"], derivatives=d)
     fc = res[0] if d else res
@@ -485,11 +489,11 @@ def _sized_flight(p, options, dynamic_pressure, out, tan):
 def _high_lift(p, out, tan):
     """The section's maximum lift with blowing and its reserve over the lift a high-lift
     segment needs: ``max_lift_clean + lift_per_momentum C_mu - high_lift_margin C_L``."""
-    cmu = np.asarray(p["momentum_coefficient"], float)
-    out["max_lift_coefficient"] = (np.asarray(p["max_lift_clean"], float)
-                                   + np.asarray(p["lift_per_momentum"], float) * cmu)
+    cmu = asarray(p["momentum_coefficient"])
+    out["max_lift_coefficient"] = (asarray(p["max_lift_clean"])
+                                   + asarray(p["lift_per_momentum"]) * cmu)
     out["lift_reserve"] = (out["max_lift_coefficient"]
-                           - np.asarray(p["high_lift_margin"], float) * out["lift_coefficient"])
+                           - asarray(p["high_lift_margin"]) * out["lift_coefficient"])
     if tan is None:
         return
     tan["max_lift_coefficient"] = _chain({"max_lift_clean": 1.0,
@@ -497,7 +501,7 @@ def _high_lift(p, out, tan):
                                           "momentum_coefficient": p["lift_per_momentum"]}, tan)
     tan["lift_reserve"] = _chain({"max_lift_coefficient": 1.0,
                                   "high_lift_margin": -out["lift_coefficient"],
-                                  "lift_coefficient": -np.asarray(p["high_lift_margin"], float)},
+                                  "lift_coefficient": -asarray(p["high_lift_margin"])},
                                  tan)
 
 
@@ -525,7 +529,7 @@ def _aircraft(p, out, tan):
                                         derivatives=d)
     out["clean_source_power"] = res_p[0] if d else res_p
     if "duration" in p:
-        out["clean_source_energy"] = out["clean_source_power"] * np.asarray(p["duration"], float)
+        out["clean_source_energy"] = out["clean_source_power"] * asarray(p["duration"])
     if not d:
         return
     tan["main_thrust"] = _chain({"main_thrust_clean": 1.0,
@@ -624,7 +628,7 @@ def _geometric_loss_factor(p, options, atm, js, tan):
     base = (res[0] if tan is not None else res).reshape(shape)
     k_in, k_bend = duct.coefficient_losses(r_s, p["suction_ratio"], p["suction_inlet_loss"],
                                            p["bend_loss"], st.area)
-    kj = base + k_in + k_bend + np.asarray(p["extra_loss"], float)
+    kj = base + k_in + k_bend + asarray(p["extra_loss"])
     if tan is None:
         return kj
     db = {k: v.reshape(shape + v.shape[1:]) for k, v in res[1].items()}
@@ -637,9 +641,9 @@ def _geometric_loss_factor(p, options, atm, js, tan):
     # Through the stations: friction and form loss (on every station), bend loss (on the ends).
     # k_in = K_in (r_s/r_suc)^2 and k_bend = K_bend (A_slot/A_fan)^2 (coefficient_losses).
     a_fan, a_slot = st.area[0], st.area[-1]
-    ratio_in = r_s / np.asarray(p["suction_ratio"], float)
+    ratio_in = r_s / asarray(p["suction_ratio"])
     terms.append(_chain({"slot_ratio": 2.0 * k_in / r_s,
-                         "suction_ratio": -2.0 * k_in / np.asarray(p["suction_ratio"], float),
+                         "suction_ratio": -2.0 * k_in / asarray(p["suction_ratio"]),
                          "suction_inlet_loss": ratio_in ** 2, "bend_loss": (a_slot / a_fan) ** 2},
                         tan))
     station = {}
@@ -657,12 +661,12 @@ def _geometric_loss_factor(p, options, atm, js, tan):
 
 def _fan_map(p, options, atm, js, dp, out, tan):
     """The map fan's operating point into ``out`` (and tangents); returns its efficiency."""
-    coeffs = np.asarray(p["pressure_coefficients"], float)
+    coeffs = asarray(p["pressure_coefficients"])
     diameter = p["fan_diameter"]
     q_f = js.volume_flow / options.fans
     d = tan is not None
     with np.errstate(invalid="ignore"):
-        res = fan.shaft_speed(q_f, np.maximum(dp, 0.0), atm.density, diameter, coeffs, derivatives=d)
+        res = fan.shaft_speed(q_f, np.where(np.real(dp) < 0, 0.0, dp), atm.density, diameter, coeffs, derivatives=d)
     n_rev = res[0] if d else res
     res_phi = fan.flow_coefficient_of(q_f, n_rev, diameter, derivatives=d)
     phi = res_phi[0] if d else res_phi
@@ -703,7 +707,7 @@ def _airfoil_tangents(p, q, area, cd, inc, dinc, tan):
                                     tan)
     tan["drag_coefficient"] = _add(tan["blown_increment"], _chain({"drag_clean": 1.0}, tan))
     tan["area"] = _chain({"chord": p["blown_span"], "blown_span": p["chord"]}, tan)
-    cd0 = np.asarray(p["drag_clean"], float)
+    cd0 = asarray(p["drag_clean"])
     tan["section_drag"] = _chain({"dynamic_pressure": area * cd, "area": q * cd,
                                   "drag_coefficient": q * area}, tan)
     tan["clean_section_drag"] = _chain({"dynamic_pressure": area * cd0, "area": q * cd0,
@@ -788,8 +792,8 @@ def _partials(out, tan, names=None):
 
 def _scalar(name, value):
     """One value for the wing from an array that must not vary (geometric duct)."""
-    arr = np.asarray(value, float)
+    arr = asarray(value)
     if arr.size and np.any(arr != arr.flat[0]):
         raise ValueError(f"{name}: the geometric duct takes one value for the wing; got "
                          f"{arr.size} different values")
-    return float(arr.flat[0])
+    return _item(arr.flat[0])       # complex under a complex step

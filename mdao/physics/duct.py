@@ -31,6 +31,7 @@ References
 import numpy as np
 
 from mdao.physics import friction, losses, transition
+from mdao.physics.numeric import abs as cs_abs, asarray, scalar
 
 
 def required_pressure_rise(jet_loss_factor, freestream_assist, density, jet_velocity,
@@ -77,11 +78,11 @@ def required_pressure_rise(jet_loss_factor, freestream_assist, density, jet_velo
     >>> float(required_pressure_rise(1.3, 1.0, 1.225, 80.0, 980.0))
     4116.0
     """
-    kj = np.asarray(jet_loss_factor, float)
-    ki = np.asarray(freestream_assist, float)
-    rho = np.asarray(density, float)
-    vj = np.asarray(jet_velocity, float)
-    q = np.asarray(dynamic_pressure, float)
+    kj = asarray(jet_loss_factor)
+    ki = asarray(freestream_assist)
+    rho = asarray(density)
+    vj = asarray(jet_velocity)
+    q = asarray(dynamic_pressure)
     head = rho * vj
     head *= vj
     head *= 0.5                             # = 0.5 rho vj vj exactly (a power of two)
@@ -149,10 +150,10 @@ def required_pressure_rise_from_head(jet_loss_factor, freestream_assist, jet_hea
     >>> float(required_pressure_rise_from_head(1.3, 1.0, 5200.0, 980.0))
     5780.0
     """
-    kj = np.asarray(jet_loss_factor, float)
-    ki = np.asarray(freestream_assist, float)
-    head = np.asarray(jet_head, float)
-    q = np.asarray(dynamic_pressure, float)
+    kj = asarray(jet_loss_factor)
+    ki = asarray(freestream_assist)
+    head = asarray(jet_head)
+    q = asarray(dynamic_pressure)
     dp = kj * head - ki * q
     if not derivatives:
         return dp
@@ -188,7 +189,7 @@ def ram_driven(required_rise):
     >>> ram_driven([-5.0, 0.0, 12.0]).tolist()
     [True, True, False]
     """
-    return np.asarray(required_rise, float) <= 0.0
+    return asarray(required_rise) <= 0.0
 
 
 def lumped_coefficients(jet_loss_factor, freestream_assist, slot_ratio):
@@ -229,9 +230,9 @@ def lumped_coefficients(jet_loss_factor, freestream_assist, slot_ratio):
     >>> float(jet_head), float(ram_recovery)
     (2.5, 0.1)
     """
-    kj = np.asarray(jet_loss_factor, float)
-    ki = np.asarray(freestream_assist, float)
-    r = np.asarray(slot_ratio, float)
+    kj = asarray(jet_loss_factor)
+    ki = asarray(freestream_assist)
+    r = asarray(slot_ratio)
     return kj / (2.0 * np.sqrt(2.0 * r)), ki * np.sqrt(0.5 * r)
 
 
@@ -254,14 +255,14 @@ def _transition_form_loss(area, position, derivatives):
     """
     a0, a1, length = area[0], area[-1], position[-1]
     dr = (np.sqrt(a1 / np.pi) - np.sqrt(a0 / np.pi))
-    angle = 2.0 * np.arctan(np.abs(dr) / length)
+    angle = 2.0 * np.arctan(cs_abs(dr) / length)
     # d(angle)/d(a0, a1, length)
     g = 2.0 / (1.0 + (dr / length) ** 2) / length
-    sgn = np.sign(dr)
+    sgn = np.sign(np.real(dr))
     dang_da1 = g * sgn * 0.5 / np.sqrt(np.pi * a1)
     dang_da0 = -g * sgn * 0.5 / np.sqrt(np.pi * a0)
-    dang_dl = -2.0 * np.abs(dr) / (length ** 2 + dr ** 2)
-    if a1 <= a0:
+    dang_dl = -2.0 * cs_abs(dr) / (length ** 2 + dr ** 2)
+    if np.real(a1) <= np.real(a0):
         k, dk_dang, dk_dratio = losses.gradual_contraction(angle, a1 / a0, derivatives=True)
         dk_da1 = dk_dang * dang_da1 + dk_dratio / a0
         dk_da0 = dk_dang * dang_da0 - dk_dratio * a1 / a0 ** 2
@@ -323,9 +324,9 @@ def coefficient_losses(slot_ratio, suction_ratio, suction_inlet_loss, bend_loss,
     >>> float(k_in), float(k_bend)
     (0.125, 0.075)
     """
-    area = np.asarray(area, float)
-    k_in = np.asarray(suction_inlet_loss, float) * (slot_ratio / np.asarray(suction_ratio)) ** 2
-    k_bend = np.asarray(bend_loss, float) * (area[-1] / area[0]) ** 2
+    area = asarray(area)
+    k_in = asarray(suction_inlet_loss) * (slot_ratio / np.asarray(suction_ratio)) ** 2
+    k_bend = asarray(bend_loss) * (area[-1] / area[0]) ** 2
     return k_in, k_bend
 
 
@@ -406,18 +407,18 @@ def geometric_jet_loss_factor(slot_ratio, suction_ratio, suction_inlet_loss, ben
     >>> round(float(kj[0]), 6)
     1.42122
     """
-    q_f = np.atleast_1d(np.asarray(volume_flow, float))
-    rho = np.atleast_1d(np.asarray(density, float))
-    mu = np.atleast_1d(np.asarray(viscosity, float))
-    x = np.asarray(position, float)
-    area = np.asarray(area, float)
-    per = np.asarray(perimeter, float)
-    r_s = float(slot_ratio)
-    r_suc = np.asarray(suction_ratio, float)
+    q_f = np.atleast_1d(asarray(volume_flow))
+    rho = np.atleast_1d(asarray(density))
+    mu = np.atleast_1d(asarray(viscosity))
+    x = asarray(position)
+    area = asarray(area)
+    per = asarray(perimeter)
+    r_s = scalar(slot_ratio)
+    r_suc = asarray(suction_ratio)
     if np.any(r_suc <= 0):
         raise ValueError(f"suction_ratio must be > 0, got {np.min(r_suc)!r}")
-    suction_inlet_loss = np.asarray(suction_inlet_loss, float)
-    bend_loss = np.asarray(bend_loss, float)
+    suction_inlet_loss = asarray(suction_inlet_loss)
+    bend_loss = asarray(bend_loss)
     a_jet, a_fan = area[-1], area[0]
 
     k_in, k_bend = coefficient_losses(r_s, r_suc, suction_inlet_loss, bend_loss, area)
@@ -428,7 +429,7 @@ def geometric_jet_loss_factor(slot_ratio, suction_ratio, suction_inlet_loss, ben
     reynolds = 4.0 * rho[:, None] * q_f[:, None] / (per[None, :] * mu[:, None])
     # No flow (jet off): friction does not matter (it multiplies a zero jet head); hold the
     # Reynolds number at a floor so the correlation stays defined, with zero derivative there.
-    stagnant = reynolds < RE_FLOOR
+    stagnant = np.real(reynolds) < RE_FLOOR
     reynolds = np.where(stagnant, RE_FLOOR, reynolds)
     eps = roughness / dh
     f, df_dre, df_deps = friction.churchill(reynolds, eps + 0 * reynolds, derivatives=True)

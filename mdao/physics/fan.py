@@ -20,6 +20,8 @@ from collections import namedtuple
 
 import numpy as np
 
+from mdao.physics.numeric import asarray
+
 FanMap = namedtuple('FanMap', ['pressure_coefficients', 'peak_efficiency', 'peak_flow_coefficient',
                                'efficiency_falloff', 'flow_coefficient_range'])
 FanMap.__doc__ = """A fitted or given fan map (see :func:`characteristic` and :func:`map_efficiency`).
@@ -63,7 +65,7 @@ def flow_coefficient_of(volume_flow, speed, diameter, derivatives=False):
     >>> round(float(flow_coefficient_of(0.1, 20000 / 60, 0.1)), 5)
     0.3
     """
-    q, n, d = np.asarray(volume_flow, float), np.asarray(speed, float), np.asarray(diameter, float)
+    q, n, d = asarray(volume_flow), asarray(speed), asarray(diameter)
     phi = q / (n * d**3)
     if not derivatives:
         return phi
@@ -102,8 +104,8 @@ def pressure_coefficient(pressure_rise, density, speed, diameter, derivatives=Fa
     >>> round(float(pressure_coefficient(2000.0, 1.225, 20000 / 60, 0.1)), 5)
     1.46939
     """
-    dp, rho = np.asarray(pressure_rise, float), np.asarray(density, float)
-    n, d = np.asarray(speed, float), np.asarray(diameter, float)
+    dp, rho = asarray(pressure_rise), asarray(density)
+    n, d = asarray(speed), asarray(diameter)
     psi = dp / (rho * n**2 * d**2)
     if not derivatives:
         return psi
@@ -141,8 +143,8 @@ def power_coefficient(power, density, speed, diameter):
     >>> round(float(power_coefficient(250.0, 1.225, 20000 / 60, 0.1)), 5)
     0.55102
     """
-    p, rho = np.asarray(power, float), np.asarray(density, float)
-    n, d = np.asarray(speed, float), np.asarray(diameter, float)
+    p, rho = asarray(power), asarray(density)
+    n, d = asarray(speed), asarray(diameter)
     return p / (rho * n**3 * d**5)
 
 
@@ -175,8 +177,8 @@ def scale(volume_flow, pressure_rise, power, speed_ratio, diameter_ratio, densit
     >>> tuple(round(float(v), 6) for v in scale(0.1, 2000.0, 250.0, 0.5, 2.0))
     (0.4, 2000.0, 1000.0)
     """
-    q, dp, p = (np.asarray(v, float) for v in (volume_flow, pressure_rise, power))
-    rn, rd, rr = (np.asarray(v, float) for v in (speed_ratio, diameter_ratio, density_ratio))
+    q, dp, p = (asarray(v) for v in (volume_flow, pressure_rise, power))
+    rn, rd, rr = (asarray(v) for v in (speed_ratio, diameter_ratio, density_ratio))
     return ScaledFan(q * rn * rd**3, dp * rr * rn**2 * rd**2, p * rr * rn**3 * rd**5)
 
 
@@ -206,8 +208,8 @@ def characteristic(flow_coefficient, coefficients):
     >>> round(float(characteristic(0.2, (0.6, 0.5, -1.5))), 12)
     0.64
     """
-    c0, c1, c2 = (np.asarray(c, float) for c in coefficients)
-    phi = np.asarray(flow_coefficient, float)
+    c0, c1, c2 = (asarray(c) for c in coefficients)
+    phi = asarray(flow_coefficient)
     return c0 + phi * (c1 + c2 * phi)
 
 
@@ -262,21 +264,22 @@ def shaft_speed(volume_flow, pressure_rise, density, diameter, coefficients, der
     >>> round(float(shaft_speed(0.1, 200.0, 1.0, 0.1, (1.0, 1.0, 0.0))), 9)
     100.0
     """
-    c0, c1, c2 = (np.asarray(c, float) for c in coefficients)
+    c0, c1, c2 = (asarray(c) for c in coefficients)
     if np.any(~(c0 > 0)):
         raise ValueError(f"coefficients: c0 = {c0} must be > 0 (positive shut-off pressure "
                          "coefficient)")
-    q, dp = np.asarray(volume_flow, float), np.asarray(pressure_rise, float)
-    rho, d = np.asarray(density, float), np.asarray(diameter, float)
+    q, dp = asarray(volume_flow), asarray(pressure_rise)
+    rho, d = asarray(density), asarray(diameter)
     k = q / d**3
     g = dp / (rho * d**2)
     b = c1 * k
     c = c2 * k**2 - g
     disc = b**2 - 4.0 * c0 * c
     with np.errstate(invalid='ignore', divide='ignore'):
-        s = np.sqrt(np.where(disc >= 0, disc, np.nan))
-        n = np.where(b < 0, (s - b) / (2.0 * c0), -2.0 * c / (b + s))
-        n = np.where(n > 0, n, np.nan)
+        # branches on the real parts (a complex step rides along)
+        s = np.sqrt(np.where(np.real(disc) >= 0, disc, np.nan))
+        n = np.where(np.real(b) < 0, (s - b) / (2.0 * c0), -2.0 * c / (b + s))
+        n = np.where(np.real(n) > 0, n, np.nan)
         if not derivatives:
             return n
         dn_dk = -(c1 * n + 2.0 * c2 * k) / s
@@ -333,8 +336,8 @@ def map_efficiency(flow_coefficient, peak_efficiency, peak_flow_coefficient, eff
     >>> round(float(map_efficiency(0.15, 0.8, 0.3, 0.8)), 12)
     0.64
     """
-    phi, pk = np.asarray(flow_coefficient, float), np.asarray(peak_efficiency, float)
-    ppk, f = np.asarray(peak_flow_coefficient, float), np.asarray(efficiency_falloff, float)
+    phi, pk = asarray(flow_coefficient), asarray(peak_efficiency)
+    ppk, f = asarray(peak_flow_coefficient), asarray(efficiency_falloff)
     u = phi / ppk - 1.0
     eta = pk * (1.0 - f * u**2)
     if not derivatives:
@@ -378,7 +381,7 @@ def shaft_power(volume_flow, pressure_rise, efficiency, derivatives=False):
     >>> round(float(shaft_power(0.1, 2000.0, 0.8)), 9)
     250.0
     """
-    q, dp, eta = (np.asarray(v, float) for v in (volume_flow, pressure_rise, efficiency))
+    q, dp, eta = (asarray(v) for v in (volume_flow, pressure_rise, efficiency))
     if not derivatives:
         # fmax(dp, 0) (0 for a NaN rise too) zeroes the windmilling points without a branch;
         # a non-finite flow or efficiency there would leave 0 * inf = NaN: zero it as before.
@@ -386,9 +389,9 @@ def shaft_power(volume_flow, pressure_rise, efficiency, derivatives=False):
         if eta.ndim or eta != 1.0:          # P / 1 is P (the air power)
             p = p / eta
         if not np.isfinite(p).all():
-            p = np.where(dp > 0, p, 0.0)
+            p = np.where(np.real(dp) > 0, p, 0.0)
         return p
-    on = dp > 0
+    on = np.real(dp) > 0
     p = np.where(on, q * dp / eta, 0.0)
     d_out = {'volume_flow': np.where(on, dp / eta, 0.0),
              'pressure_rise': np.where(on, q / eta, 0.0),
@@ -445,10 +448,10 @@ def shaft_power_isentropic(mass_flow, pressure_rise, inlet_pressure, inlet_tempe
     >>> round(float(shaft_power_isentropic(1.0, 101325.0 * (2**3.5 - 1), 101325.0, 300.0, 1.0)), 6)
     301405.5
     """
-    m, dp, p = (np.asarray(v, float) for v in (mass_flow, pressure_rise, inlet_pressure))
-    t, eta = np.asarray(inlet_temperature, float), np.asarray(efficiency, float)
+    m, dp, p = (asarray(v) for v in (mass_flow, pressure_rise, inlet_pressure))
+    t, eta = asarray(inlet_temperature), asarray(efficiency)
     k = (gamma - 1.0) / gamma
-    on = dp > 0
+    on = np.real(dp) > 0
     x = np.where(on, dp / p, 0.0)
     head = np.expm1(k * np.log1p(x))          # (1 + x)^k - 1
     power = np.where(on, m * cp * t * head / eta, 0.0)
@@ -494,7 +497,7 @@ def tip_mach(speed, diameter, speed_of_sound, derivatives=False):
     >>> round(float(tip_mach(20000 / 60, 0.1, 340.294)), 6)
     0.307733
     """
-    n, d, a = (np.asarray(v, float) for v in (speed, diameter, speed_of_sound))
+    n, d, a = (asarray(v) for v in (speed, diameter, speed_of_sound))
     mach = np.pi * n * d / a
     if not derivatives:
         return mach
@@ -538,14 +541,14 @@ def margins(speed, max_speed, flow_coefficient, flow_coefficient_range):
     >>> tuple(round(float(v), 12) for v in margins(400.0, 500.0, 0.25, (0.2, 0.4)))
     (0.2, 0.25, 0.375)
     """
-    n, nmax = np.asarray(speed, float), np.asarray(max_speed, float)
-    phi = np.asarray(flow_coefficient, float)
-    lo, hi = (np.asarray(v, float) for v in flow_coefficient_range)
+    n, nmax = asarray(speed), asarray(max_speed)
+    phi = asarray(flow_coefficient)
+    lo, hi = (asarray(v) for v in flow_coefficient_range)
     return Margins(1.0 - n / nmax, phi / lo - 1.0, 1.0 - phi / hi)
 
 
 def _positive(name, value):
-    arr = np.atleast_1d(np.asarray(value, float))
+    arr = np.atleast_1d(asarray(value))
     if not np.all(np.isfinite(arr)) or np.any(arr <= 0):
         raise ValueError(f"{name}: all values must be finite and > 0, got {value!r}")
     return arr

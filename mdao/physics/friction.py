@@ -1,6 +1,8 @@
 """Darcy friction factor for duct flow, smooth across all flow regimes."""
 import numpy as np
 
+from mdao.physics.numeric import asarray
+
 __all__ = ["churchill"]
 
 
@@ -46,8 +48,8 @@ def churchill(reynolds, relative_roughness, derivatives=False):
     >>> round(float(churchill(1e5, 0.0)), 6)
     0.017875
     """
-    re = np.asarray(reynolds, dtype=float)
-    eps = np.asarray(relative_roughness, dtype=float)
+    re = asarray(reynolds)
+    eps = asarray(relative_roughness)
     if np.any(~(re > 0.0)):
         raise ValueError(f"reynolds must be > 0; got {float(re[~(re > 0.0)].ravel()[0])!r}")
     if np.any(~(eps >= 0.0)):

@@ -21,6 +21,38 @@ from typing import NamedTuple
 
 import numpy as np
 
+from mdao.physics.bounds import snap
+from mdao.physics.numeric import asarray
+
+#: Distance below 0 taken as round-off in a momentum coefficient, [-]: an optimizer or
+#: integrator that drives C_mu to its bound of 0 lands at -2e-17 or so; 1e-12 is far above that
+#: and far below any C_mu that blows (1e-4 and up).
+MOMENTUM_ROUND_OFF = 1e-12
+
+
+def non_negative_momentum(momentum_coefficient):
+    """The momentum coefficient checked >= 0; values less than :data:`MOMENTUM_ROUND_OFF` below
+    0 (round-off at the bound) are 0.
+
+    Raises
+    ------
+    ValueError
+        If any value is further below 0 (NaN passes: it propagates to the outputs).
+
+    Examples
+    --------
+    >>> non_negative_momentum(np.array([-2e-17, 0.03])).tolist()
+    [0.0, 0.03]
+    """
+    c = momentum_coefficient
+    if np.any(np.real(c) < 0):
+        c = snap(c, lower=0.0, tolerance=MOMENTUM_ROUND_OFF)
+        bad = np.real(c) < 0
+        if np.any(bad):
+            raise ValueError(f"momentum_coefficient must be >= 0, got "
+                             f"{float(np.real(c)[bad].ravel()[0])!r}")
+    return c
+
 
 class JetState(NamedTuple):
     """Jet quantities at each operating point (SI)."""
@@ -68,7 +100,58 @@ def dynamic_pressure(density, speed):
     >>> round(float(dynamic_pressure(1.225, 40.0)), 9)
     980.0
     """
-    return 0.5 * np.asarray(density, float) * np.asarray(speed, float) ** 2
+    return 0.5 * asarray(density) * asarray(speed) ** 2
+
+
+def jet_dynamic_head(momentum_coefficient, slot_ratio, dynamic_pressure, derivatives=False):
+    r"""The incompressible jet's dynamic head, [Pa], from the momentum coefficient.
+
+    .. math::
+        \frac{\rho V_j^2}{2} = q \frac{C_\mu}{2 r_s}
+        \quad\text{since}\quad V_j = V \sqrt{C_\mu / (2 r_s)}
+
+    Linear in :math:`C_\mu`, so its derivative is finite at :math:`C_\mu = 0`, where that of
+    :math:`V_j` is not: the required pressure rise is carried on this head rather than on the
+    jet velocity.
+
+    Parameters
+    ----------
+    momentum_coefficient : array_like
+        :math:`C_\mu`, [-], >= 0.
+    slot_ratio : array_like
+        :math:`r_s` = slot height / chord, [-], > 0.
+    dynamic_pressure : array_like
+        Freestream :math:`q`, [Pa].
+    derivatives : bool
+        Also return the partials, keyed by the argument names.
+
+    Returns
+    -------
+    head : ndarray
+        [Pa].
+    partials : dict
+        Only with ``derivatives``.
+
+    References
+    ----------
+    .. [1] docs/theory.md, section "Jet kinematics" (the momentum coefficient's definition).
+
+    Examples
+    --------
+    By hand: 980 * 0.03 / (2 * 0.01) = 1470 Pa, the head of a 49 m/s jet at sea level.
+
+    >>> round(float(jet_dynamic_head(0.03, 0.01, 980.0)), 9)
+    1470.0
+    """
+    c = np.asarray(momentum_coefficient)
+    r = np.asarray(slot_ratio)
+    q = np.asarray(dynamic_pressure)
+    per_ratio = 0.5 / r
+    head = q * c * per_ratio
+    if not derivatives:
+        return head
+    return head, {"momentum_coefficient": q * per_ratio, "slot_ratio": -head / r,
+                  "dynamic_pressure": c * per_ratio}
 
 
 def jet_velocity_ratio(momentum_coefficient, slot_ratio):
@@ -111,12 +194,11 @@ def jet_velocity_ratio(momentum_coefficient, slot_ratio):
     >>> float(jet_velocity_ratio(0.08, 0.01))
     2.0
     """
-    c = np.asarray(momentum_coefficient, float)
-    r = np.asarray(slot_ratio, float)
+    c = asarray(momentum_coefficient)
+    r = asarray(slot_ratio)
     if np.any(r <= 0):
         raise ValueError(f"slot_ratio must be > 0, got {np.min(r)!r}")
-    if np.any(c < 0):
-        raise ValueError(f"momentum_coefficient must be >= 0, got {np.min(c)!r}")
+    c = non_negative_momentum(c)
     ratio = c / (2.0 * r)
     return np.sqrt(ratio, out=ratio) if isinstance(ratio, np.ndarray) else np.sqrt(ratio)
 
@@ -172,13 +254,13 @@ def kinematics(momentum_coefficient, slot_ratio, speed, density, chord, blown_sp
     >>> float(s.jet_velocity), round(float(s.volume_flow), 6), float(s.slot_height)
     (80.0, 0.8, 0.005)
     """
-    c = np.asarray(momentum_coefficient, float)
-    r = np.asarray(slot_ratio, float)
-    v = np.asarray(speed, float)
-    rho = np.asarray(density, float)
-    ch = np.asarray(chord, float)
-    b = np.asarray(blown_span, float)
-    a = np.asarray(speed_of_sound, float)
+    c = asarray(momentum_coefficient)
+    r = asarray(slot_ratio)
+    v = asarray(speed)
+    rho = asarray(density)
+    ch = asarray(chord)
+    b = asarray(blown_span)
+    a = asarray(speed_of_sound)
     ratio = jet_velocity_ratio(c, r)
     q = rho * v
     q *= v
@@ -189,7 +271,8 @@ def kinematics(momentum_coefficient, slot_ratio, speed, density, chord, blown_sp
         vj = v * ratio
     else:                                   # the ratio is not kept: the jet velocity in its place
         vj = ratio
-        if isinstance(vj, np.ndarray) and v.shape in ((), vj.shape):
+        if (isinstance(vj, np.ndarray) and v.shape in ((), vj.shape)
+                and vj.dtype == np.result_type(vj, v)):   # (a complex speed: a new array)
             vj *= v
         else:
             vj = v * vj
@@ -322,12 +405,11 @@ def compressible_kinematics(momentum_coefficient, slot_ratio, speed, density, pr
     (0.5, 18867.996)
     """
     c, r, v, rho, p, t, ch, b, eta = np.broadcast_arrays(*(
-        np.asarray(x, float) for x in (momentum_coefficient, slot_ratio, speed, density, pressure,
-                                       temperature, chord, blown_span, heating_efficiency)))
+        asarray(x) for x in (momentum_coefficient, slot_ratio, speed, density, pressure,
+                             temperature, chord, blown_span, heating_efficiency)))
     if np.any(r <= 0):
         raise ValueError(f"slot_ratio must be > 0, got {np.min(r)!r}")
-    if np.any(c < 0):
-        raise ValueError(f"momentum_coefficient must be >= 0, got {np.min(c)!r}")
+    c = non_negative_momentum(c)
     g = 0.5 * (gamma - 1.0)
     e = gamma / (gamma - 1.0)
     q = 0.5 * rho * v * v
@@ -341,7 +423,7 @@ def compressible_kinematics(momentum_coefficient, slot_ratio, speed, density, pr
     vj = np.sqrt(flux * gas_constant * tj / p)
     h = r * ch
     momentum = c * q * ch * b                        # J = C_mu q S [N]
-    on = vj > 0
+    on = np.real(vj) > 0
     with np.errstate(divide="ignore", invalid="ignore"):
         mdot = np.where(on, momentum / vj, 0.0)
     vol = mdot / rho

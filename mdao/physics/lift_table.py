@@ -27,6 +27,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from mdao.physics.numeric import asarray
+
 
 @dataclass(frozen=True)
 class LiftTable:
@@ -65,7 +67,7 @@ class LiftTable:
     def contains(self, lift_coefficient, tolerance=1e-9):
         """Whether each lift coefficient lies within the table (ends included)."""
         lo, hi = self.range
-        cl = np.asarray(lift_coefficient, float)
+        cl = asarray(lift_coefficient)
         return (cl >= lo - tolerance) & (cl <= hi + tolerance)
 
     def as_dict(self):
@@ -109,7 +111,11 @@ def interpolate(table, lift_coefficient, derivatives=False):
     (-1.5, -1.133333)
     """
     spline, slope_spline = _pieces(table)
-    cl = np.asarray(lift_coefficient, float)
+    cl = asarray(lift_coefficient)
+    if np.iscomplexobj(cl):   # a complex step: the spline at the real part, the step by its slope
+        res = interpolate(table, cl.real, derivatives=True)
+        value = res[0] + 1j * res[1] * cl.imag
+        return (value, res[1]) if derivatives else value
     lo, hi = table.range
     inside = np.clip(cl, lo, hi)
     end_slope = np.where(cl < lo, slope_spline(lo), slope_spline(hi))

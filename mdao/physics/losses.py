@@ -2,6 +2,7 @@
 import numpy as np
 
 from mdao.physics.friction import churchill
+from mdao.physics.numeric import asarray
 
 __all__ = ["gradual_contraction", "gradual_expansion", "sudden_expansion", "bend_rounded",
            "SHARP_INLET", "EXIT"]
@@ -13,7 +14,7 @@ _SWITCH = np.pi / 4   # Crane's two formulas meet at a total angle of 45 deg
 
 
 def _angle(value):
-    value = np.asarray(value, dtype=float)
+    value = asarray(value)
     bad = ~((value > 0.0) & (value <= np.pi))
     if np.any(bad):
         raise ValueError(f"total_angle must be in (0, pi] rad; got {float(value[bad].ravel()[0])!r}")
@@ -21,7 +22,7 @@ def _angle(value):
 
 
 def _fraction(name, value):
-    value = np.asarray(value, dtype=float)
+    value = asarray(value)
     bad = ~((value > 0.0) & (value <= 1.0))
     if np.any(bad):
         raise ValueError(f"{name} must be in (0, 1]; got {float(value[bad].ravel()[0])!r}")
@@ -70,7 +71,7 @@ def gradual_contraction(total_angle, area_ratio, derivatives=False):
     """
     theta, r = _angle(total_angle), _fraction("area_ratio", area_ratio)
     half_sin = np.sin(0.5 * theta)
-    narrow = theta <= _SWITCH
+    narrow = np.real(theta) <= _SWITCH
     shape = np.where(narrow, 0.8 * half_sin, 0.5 * np.sqrt(half_sin))
     k = shape * (1.0 - r)
     if not derivatives:
@@ -116,7 +117,7 @@ def gradual_expansion(total_angle, area_ratio, derivatives=False):
     """
     theta, r = _angle(total_angle), _fraction("area_ratio", area_ratio)
     half_sin = np.sin(0.5 * theta)
-    narrow = theta <= _SWITCH
+    narrow = np.real(theta) <= _SWITCH
     shape = np.where(narrow, 2.6 * half_sin, 1.0)
     k = shape * (1.0 - r) ** 2
     if not derivatives:
@@ -199,16 +200,16 @@ def bend_rounded(radius_ratio, darcy, angle=np.pi / 2, reynolds=1e5):
     >>> round(float(bend_rounded(1.0, 0.017990)), 4)
     0.3133
     """
-    ratio = np.asarray(radius_ratio, dtype=float)
+    ratio = asarray(radius_ratio)
     if np.any(~(ratio >= 0.5)):
         raise ValueError(f"radius_ratio must be >= 0.5; got {float(ratio[~(ratio >= 0.5)].ravel()[0])!r}")
-    alpha = np.asarray(angle, dtype=float)
+    alpha = asarray(angle)
     bad = ~((alpha > 0.0) & (alpha <= np.pi))
     if np.any(bad):
         raise ValueError(f"angle must be in (0, pi] rad; got {float(alpha[bad].ravel()[0])!r}")
     if darcy is None:
         darcy = churchill(reynolds, 0.0)
-    fd = np.asarray(darcy, dtype=float)
+    fd = asarray(darcy)
     if np.any(~(fd > 0.0)):
         raise ValueError(f"darcy must be > 0; got {float(fd[~(fd > 0.0)].ravel()[0])!r}")
     s = np.sin(0.5 * alpha)

@@ -48,12 +48,14 @@ References
 """
 import numpy as np
 
+from mdao.physics.numeric import asarray
+
 __all__ = ["rotating_mass", "transition_wetted_area", "lumped_wetted_area",
            "blowing_system_mass", "power_headroom"]
 
 
 def _positive(name, value, allow_zero=False):
-    value = np.asarray(value, dtype=float)
+    value = asarray(value)
     bad = ~(value >= 0.0) if allow_zero else ~(value > 0.0)
     if np.any(bad):
         allowed = ">= 0" if allow_zero else "> 0"
@@ -166,7 +168,7 @@ def transition_wetted_area(position, perimeter, fans=1, derivatives=False):
     """
     if isinstance(fans, bool) or not isinstance(fans, (int, np.integer)) or fans < 1:
         raise ValueError(f"fans must be an integer >= 1; got {fans!r}")
-    x = np.asarray(position, dtype=float)
+    x = asarray(position)
     p = _positive("perimeter", perimeter, allow_zero=True)
     if x.shape[-1:] != p.shape[-1:] or x.shape[-1] < 2:
         raise ValueError(f"position and perimeter must have the same number (>= 2) of stations "
@@ -284,7 +286,7 @@ def blowing_system_mass(rotating, wetted_area, duct_areal_density, installation_
     m = _positive("rotating", rotating, allow_zero=True)
     a = _positive("wetted_area", wetted_area, allow_zero=True)
     s = _positive("duct_areal_density", duct_areal_density, allow_zero=True)
-    k = np.asarray(installation_factor, dtype=float)
+    k = asarray(installation_factor)
     if np.any(~(k >= 1.0)):
         raise ValueError(f"installation_factor must be >= 1; got {float(k[~(k >= 1.0)].ravel()[0])!r}")
     bare = m + s * a
@@ -337,9 +339,9 @@ def power_headroom(rated_shaft_power, fan_shaft_power, power_margin, derivatives
     >>> float(power_headroom(1000.0, 600.0, 1.25))
     250.0
     """
-    r = np.asarray(rated_shaft_power, dtype=float)
-    p = np.asarray(fan_shaft_power, dtype=float)
-    k = np.asarray(power_margin, dtype=float)
+    r = asarray(rated_shaft_power)
+    p = asarray(fan_shaft_power)
+    k = asarray(power_margin)
     if np.any(~(k >= 1.0)):
         raise ValueError(f"power_margin must be >= 1; got {float(k[~(k >= 1.0)].ravel()[0])!r}")
     headroom = r - k * p

@@ -24,6 +24,8 @@ which :math:`\max_x n = 0`: :math:`\eta_{eff} = \min_x r(x)`,
 """
 import numpy as np
 
+from mdao.physics.numeric import asarray
+
 
 def segment_power(drag_saving, speed, fan_shaft_power, chain_efficiency, motor_efficiency,
                   blowing=True, derivatives=False):
@@ -74,14 +76,14 @@ def segment_power(drag_saving, speed, fan_shaft_power, chain_efficiency, motor_e
     >>> float(p), round(float(f), 4), round(float(net), 4)
     (500.0, 111.1111, 388.8889)
     """
-    dd = np.asarray(drag_saving, float)
-    v = np.asarray(speed, float)
-    ps = np.asarray(fan_shaft_power, float)
-    ec = np.asarray(chain_efficiency, float)
-    em = np.asarray(motor_efficiency, float)
+    dd = asarray(drag_saving)
+    v = asarray(speed)
+    ps = asarray(fan_shaft_power)
+    ec = asarray(chain_efficiency)
+    em = asarray(motor_efficiency)
     if not derivatives:
         prop = dd * v
-        if prop.ndim and ec.ndim == 0:
+        if prop.ndim and ec.ndim == 0 and prop.dtype == np.result_type(prop, ec):
             prop /= ec                          # in place: no temporary
         else:
             prop = prop / ec
@@ -90,7 +92,7 @@ def segment_power(drag_saving, speed, fan_shaft_power, chain_efficiency, motor_e
         if not (on.shape in ((), np.shape(fan)) and on.all()):
             fan = on.astype(float) * fan        # no fan power where it does not run
         return prop, fan, prop - fan
-    on = np.asarray(blowing, float)
+    on = asarray(blowing)
     prop = dd * v / ec
     fan = on * ps / em
     net = prop - fan
@@ -157,14 +159,15 @@ def energy_margin(air_power, section_drag, speed, thrust_power_ceiling, derivati
     >>> float(energy_margin(100.0, -2.0, 40.0, 1.0))
     20.0
     """
-    pa = np.asarray(air_power, float)
-    dr = np.asarray(section_drag, float)
-    v = np.asarray(speed, float)
-    c = np.asarray(thrust_power_ceiling, float)
+    pa = asarray(air_power)
+    dr = asarray(section_drag)
+    v = asarray(speed)
+    c = asarray(thrust_power_ceiling)
     if not derivatives:                     # a ceiling of 1 multiplies nothing
         air = pa if c.ndim == 0 and c == 1.0 else c * pa
         margin = dr * v
-        if margin.ndim and np.shape(air) in ((), margin.shape):
+        if (margin.ndim and np.shape(air) in ((), margin.shape)
+                and margin.dtype == np.result_type(margin, air)):
             margin += air                       # in place: no temporary
             return margin
         return air + margin
@@ -202,7 +205,7 @@ def segment_energy(net_power, duration):
     >>> float(segment_energy(250.0, 3600.0))
     900000.0
     """
-    return np.asarray(net_power, float) * np.asarray(duration, float)
+    return asarray(net_power) * asarray(duration)
 
 
 def lumped_optimum(jet_head, ram_recovery, drag_per_momentum, efficiency_ratio):
@@ -246,10 +249,10 @@ def lumped_optimum(jet_head, ram_recovery, drag_per_momentum, efficiency_ratio):
     >>> round(float(lumped_optimum(2.5, 0.1, -1.5, 0.8)), 8)
     0.12767423
     """
-    k1 = np.asarray(jet_head, float)
-    k2 = np.asarray(ram_recovery, float)
-    b = -np.asarray(drag_per_momentum, float)
-    e = np.asarray(efficiency_ratio, float)
+    k1 = asarray(jet_head)
+    k2 = asarray(ram_recovery)
+    b = -asarray(drag_per_momentum)
+    e = asarray(efficiency_ratio)
     x = (2 * b * e + np.sqrt(4 * b * b * e * e + 12 * k1 * k2)) / (6 * k1)
     return x * x
 
@@ -295,7 +298,7 @@ def lumped_net_saving(cmu, jet_head, ram_recovery, slot_drag, drag_per_momentum,
     >>> round(float(lumped_net_saving(0.04, 2.5, 0.1, 0.02, -1.5, 0.8)), 6)
     0.04
     """
-    c = np.asarray(cmu, float)
+    c = asarray(cmu)
     return (-np.asarray(slot_drag) - np.asarray(drag_per_momentum) * c
             - (jet_head * c ** 1.5 - ram_recovery * np.sqrt(c)) / efficiency_ratio)
 
@@ -353,7 +356,7 @@ def break_even_lumped(jet_head, ram_recovery, slot_drag, drag_per_momentum, cmu_
     >>> round(float(break_even_lumped(2.5, 0.1, 0.02, -1.5, 0.05, 0.5)), 6)
     0.101639
     """
-    k1, k2, k3, beta, lo, hi = np.broadcast_arrays(*(np.asarray(v, float) for v in (
+    k1, k2, k3, beta, lo, hi = np.broadcast_arrays(*(asarray(v) for v in (
         jet_head, ram_recovery, slot_drag, drag_per_momentum, cmu_min, cmu_max)))
     b = -beta
     qa = k1 * b

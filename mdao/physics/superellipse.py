@@ -4,7 +4,9 @@ r"""Area, perimeter and sizing of the super-ellipse (Lame curve) :math:`|y/a|^n 
 exponent ``n >= 2`` runs from the ellipse (n = 2) towards the rectangle (large n).
 """
 import numpy as np
-from scipy.special import digamma, gammaln
+from scipy.special import digamma, gammaln, loggamma
+
+from mdao.physics.numeric import asarray
 
 __all__ = ["area", "perimeter", "semi_axes"]
 
@@ -12,7 +14,7 @@ _LN2 = np.log(2.0)
 
 
 def _check(name, value, low, strict=True):
-    value = np.asarray(value, dtype=float)
+    value = asarray(value)
     bad = ~(value > low) if strict else ~(value >= low)
     if np.any(bad):
         relation = ">" if strict else ">="
@@ -22,7 +24,10 @@ def _check(name, value, low, strict=True):
 
 def _shape_factor(n, derivatives=False):
     """G(n) = Gamma(1+1/n)**2 / Gamma(1+2/n), the area over 4ab, and dlnG/dn."""
-    g = np.exp(2.0 * gammaln(1.0 + 1.0 / n) - gammaln(1.0 + 2.0 / n))
+    # gammaln takes no complex argument: under a complex step, loggamma (the same on the
+    # positive real axis, and analytic there)
+    lngamma = loggamma if np.iscomplexobj(n) else gammaln
+    g = np.exp(2.0 * lngamma(1.0 + 1.0 / n) - lngamma(1.0 + 2.0 / n))
     if not derivatives:
         return g
     return g, 2.0 / n**2 * (digamma(1.0 + 2.0 / n) - digamma(1.0 + 1.0 / n))

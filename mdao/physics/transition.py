@@ -14,6 +14,7 @@ from collections import namedtuple
 import numpy as np
 
 from mdao.physics import superellipse
+from mdao.physics.numeric import arctan2, asarray
 
 __all__ = ["TransitionStations", "SCHEDULES", "INPUTS", "FIELDS", "BETWEEN", "stations",
            "equivalent_cone_half_angle", "friction_integral"]
@@ -37,7 +38,7 @@ BETWEEN = ("half_angle", "span_wall_half_angle", "thickness_wall_half_angle")
 
 
 def _positive(name, value):
-    value = np.asarray(value, dtype=float)
+    value = asarray(value)
     if np.any(~(value > 0.0)):
         raise ValueError(f"{name} must be > 0; got {float(value[~(value > 0.0)].ravel()[0])!r}")
     return value
@@ -46,7 +47,7 @@ def _positive(name, value):
 def _slope_angle(position, height, d_position=None, d_height=None):
     """atan(diff(height) / diff(x)) between stations, and its differential."""
     dh, dx = np.diff(height, axis=-1), np.diff(position, axis=-1)
-    angle = np.arctan2(dh, dx)
+    angle = arctan2(dh, dx)
     if d_height is None:
         return angle
     ddh, ddx = np.diff(d_height, axis=-1), np.diff(d_position, axis=-1)
@@ -144,7 +145,7 @@ def stations(fan_diameter, slot_width, slot_height, length, slot_exponent,
         raise ValueError(f"count must be an integer >= 3; got {count!r}")
     d, w, h, length = (_positive(k, v)[..., None] for k, v in
                        zip(INPUTS[:4], (fan_diameter, slot_width, slot_height, length)))
-    n1 = np.asarray(slot_exponent, dtype=float)[..., None]
+    n1 = asarray(slot_exponent)[..., None]
     if np.any(~(n1 >= 2.0)):
         raise ValueError(f"slot_exponent must be >= 2; got {float(n1[~(n1 >= 2.0)].ravel()[0])!r}")
 
@@ -312,10 +313,10 @@ def friction_integral(position, area, perimeter, darcy, area_ref, derivatives=Fa
     >>> float(friction_integral(x, a, p, np.full((1, 3), 0.02), np.pi / 4)[0])
     0.02
     """
-    position = np.asarray(position, dtype=float)
+    position = asarray(position)
     area = _positive("area", area)
     perimeter = _positive("perimeter", perimeter)
-    darcy = np.atleast_2d(np.asarray(darcy, dtype=float))
+    darcy = np.atleast_2d(asarray(darcy))
     area_ref = _positive("area_ref", area_ref)
     ref = np.reshape(area_ref, (-1, 1)) if area_ref.ndim else area_ref
     scale = perimeter / (4.0 * area) * (ref / area) ** 2
@@ -325,10 +326,10 @@ def friction_integral(position, area, perimeter, darcy, area_ref, derivatives=Fa
     k = np.sum(mean * dx, axis=-1)
     if not derivatives:
         return k
-    weights = np.zeros(position.shape)
+    weights = np.zeros(position.shape, dx.dtype)
     weights[1:] += 0.5 * dx
     weights[:-1] += 0.5 * dx
-    d_position = np.zeros(g.shape)
+    d_position = np.zeros(g.shape, mean.dtype)
     d_position[:, 1:] += mean
     d_position[:, :-1] -= mean
     d_g = np.broadcast_to(weights, g.shape)

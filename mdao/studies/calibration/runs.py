@@ -21,7 +21,7 @@ column                      SI unit       meaning
 ==========================  ============  =========================================================
 speed                       m/s           freestream speed (> 0)
 density                     kg/m^3        freestream density (> 0); this or ``altitude``
-altitude                    m             ISA altitude, 0-20 km; sets density when ``density`` is
+altitude                    m             ISA altitude, -5 to 20 km; sets density when ``density`` is
                                           absent, and the viscosity
 chord                       m             chord (> 0)
 span                        m             blown span of the model (1 m for a 2-D run) (> 0)
@@ -187,10 +187,12 @@ def check_runs(runs):
                     f"{COLUMNS[name][0] or '[-]'} is out of range: allowed magnitudes up to "
                     f"{limit:g} {COLUMNS[name][0] or '[-]'} ({COLUMNS[name][2]})")
     if "altitude" in out:
-        bad = np.flatnonzero((out["altitude"] < 0) | (out["altitude"] > 20000))
+        from mdao.physics.atmosphere import ALTITUDE_RANGE
+        low, high = ALTITUDE_RANGE
+        bad = np.flatnonzero((out["altitude"] < low) | (out["altitude"] > high))
         if bad.size:
             raise CalibrationError(f"row {bad[0] + 1}, column 'altitude': {out['altitude'][bad[0]]:g}"
-                                   " m; the ISA is used from 0 to 20 000 m")
+                                   f" m; the ISA is used from {low:g} to {high:g} m")
     variables = derived(out)
     for name in ("momentum_coefficient", "reynolds", "jet_velocity", "air_power"):
         bad = np.flatnonzero(~np.isfinite(variables[name]))
@@ -245,7 +247,7 @@ def read_runs(path):
 
 
 def atmosphere_state(altitude):
-    """(density [kg/m^3], viscosity [Pa s]) from the ISA at ``altitude`` [m] (0-20 km)."""
+    """(density [kg/m^3], viscosity [Pa s]) from the ISA at ``altitude`` [m] (-5 to 20 km)."""
     from mdao.physics.atmosphere import isa
 
     state = isa(np.asarray(altitude, float))
