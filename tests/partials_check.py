@@ -14,7 +14,8 @@ import numpy as np
 import openmdao.api as om
 
 
-def _problem(comp, inputs):
+def component_problem(comp, inputs):
+    """A problem of ``comp`` alone (complex memory allocated), ``inputs`` set and run."""
     prob = om.Problem(reports=False)
     prob.model.add_subsystem("c", comp, promotes=["*"])
     prob.setup(force_alloc_complex=True)
@@ -68,7 +69,7 @@ def assert_partials(comp, inputs=None, rtol=1e-6, atol=1e-10, skip_outputs=()):
         Outputs that are flags without derivatives (compared against zero analytic partials
         is then skipped).
     """
-    prob = _problem(comp, inputs or {})
+    prob = component_problem(comp, inputs or {})
     data = prob.check_partials(out_stream=None, method="fd", form="central", step=1e-6,
                                step_calc="rel_avg")
     cdata = data["c"]

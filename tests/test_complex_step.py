@@ -16,7 +16,7 @@ from mdao.case import load_case
 from mdao.components.chain import ChainComp
 from mdao.physics import chain, numeric
 from mdao.system import build_problem
-from partials_check import chain_inputs
+from partials_check import chain_inputs, component_problem
 from test_chain_agreement import BLOWING, COMBOS, FANS, IDS, STATIONS, _schedule, _values
 from totals_check import assert_totals, worst_relative
 
@@ -124,16 +124,6 @@ def test_every_partial_of_the_chain_by_complex_step(combo):
     assert not failures, "\n".join(failures)
 
 
-def _component_problem(comp, inputs):
-    prob = om.Problem(reports=False)
-    prob.model.add_subsystem("c", comp, promotes=["*"])
-    prob.setup(force_alloc_complex=True)
-    for name, value in inputs.items():
-        prob.set_val(name, value)
-    prob.run_model()
-    return prob
-
-
 def _assert_partials_cs(prob, rtol=1e-10):
     """Every pair of check_partials(method="cs"), element by element: |analytic - cs| <=
     rtol times the pair's largest entry (each pair on its own scale)."""
@@ -163,7 +153,7 @@ def test_fused_component_partials_by_complex_step(models):
         inputs.update(GEOMETRIC_MAP)
     comp = ChainComp(num_nodes=4, duct_model=duct_model, fan_model=fan_model, fans=FANS,
                      stations=STATIONS, aircraft=True)
-    prob = _component_problem(comp, inputs)
+    prob = component_problem(comp, inputs)
     assert np.all(prob.get_val("net_power_saving") != 0.0)
     worst, pairs = _assert_partials_cs(prob)
     assert pairs > 50

@@ -6,25 +6,14 @@ optimum), the example runs and converges, its mass and energy accounting close a
 clean-wing model (an independent path through the aircraft model), and the optimizer's answers
 are consistent (a constrained variant is no lighter; the clean optimum is a minimum).
 """
-import importlib.util
-from pathlib import Path
 
 import numpy as np
 import pytest
+from examples import load_example
 from totals_check import assert_totals, worst_relative
 
-ROOT = Path(__file__).resolve().parents[1]
-EXAMPLE = ROOT / "docs" / "examples" / "electric_aircraft.py"
 
-
-def _example():
-    spec = importlib.util.spec_from_file_location("electric_aircraft", EXAMPLE)
-    module = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(module)
-    return module
-
-
-ea = _example()
+ea = load_example("electric_aircraft")
 
 
 @pytest.fixture(scope="module")

@@ -7,28 +7,15 @@ accounting across the boundary closes (``P_clean - P_blown = net_power_saving`` 
 whole problem's total derivatives at the start point match central finite differences in every
 (of, wrt) pair; the example's own aircraft component has exact partials.
 """
-import importlib.util
-from pathlib import Path
-
 import numpy as np
 import pytest
+from examples import load_example
 from partials_check import assert_partials
 from totals_check import assert_totals, worst_relative
 
 pytest.importorskip("dymos")
 
-ROOT = Path(__file__).resolve().parents[1]
-EXAMPLE = ROOT / "docs" / "examples" / "trajectory.py"
-
-
-def _example():
-    spec = importlib.util.spec_from_file_location("trajectory", EXAMPLE)
-    module = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(module)
-    return module
-
-
-tr = _example()
+tr = load_example("trajectory")
 
 
 @pytest.fixture(scope="module")
