@@ -82,12 +82,15 @@ class BlownWingGroup(om.Group):
         if o["follow_requirement"]:     # the fan gives what the duct requires: no free input
             self.connect("required_pressure_rise", "fan_pressure_rise")
         self.add_subsystem("airfoil", AirfoilComp(num_nodes=n), promotes=["*"])
-        self.add_subsystem("power", SegmentPowerComp(num_nodes=n, blowing=o["blowing"]),
+        self.add_subsystem("power", SegmentPowerComp(num_nodes=n, blowing=o["blowing"],
+                                                     mission_sums=o["mission_sums"]),
                            promotes=["*"])
         shared = SHARED_INPUTS
         if o["aircraft"]:
-            self.add_subsystem("aircraft", AircraftComp(num_nodes=n), promotes=["*"])
-            shared = shared + ("duration", "chain_efficiency")
+            self.add_subsystem("aircraft", AircraftComp(num_nodes=n,
+                                                        mission_sums=o["mission_sums"]),
+                               promotes=["*"])
+            shared = shared + (("duration",) if o["mission_sums"] else ()) + ("chain_efficiency",)
 
         # inputs that several components share: one default each, from the declarations
         for name in shared:

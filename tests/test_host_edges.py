@@ -260,3 +260,80 @@ def test_fan_speed_connects_to_rpm_and_rad_per_s(fused):
     assert np.all(np.isfinite(rev_s)) and np.all(rev_s > 0)
     np.testing.assert_allclose(prob.get_val("motor.y"), 60.0 * rev_s, rtol=1e-14)
     np.testing.assert_allclose(prob.get_val("shaft.w"), 2.0 * np.pi * rev_s, rtol=1e-14)
+
+
+@pytest.mark.parametrize("aircraft", [False, True])
+@pytest.mark.parametrize("fused", [True, False])
+def test_without_mission_sums_for_an_ode(fused, aircraft):
+    """``mission_sums=False`` (inside an ODE, where the host integrates power over time): no
+    ``duration`` input and no energy output, in both groups; every other output is unchanged."""
+    from partials_check import chain_inputs
+    inputs = chain_inputs(5, aircraft=aircraft)
+    probs = {}
+    for sums in (True, False):
+        prob = om.Problem(reports=False)
+        prob.model.add_subsystem("w", BlownWingGroup(num_nodes=4, fused=fused, aircraft=aircraft,
+                                                     mission_sums=sums), promotes=["*"])
+        prob.setup()
+        for name, value in inputs.items():
+            if sums or name != "duration":
+                prob.set_val(name, value)
+        prob.run_model()
+        probs[sums] = prob
+    ins = {s: {m["prom_name"] for _, m in p.model.list_inputs(out_stream=None, prom_name=True)}
+           for s, p in probs.items()}
+    outs = {s: _outputs(p) for s, p in probs.items()}
+    assert ins[True] - ins[False] == {"duration"}
+    energies = {"energy_saving", "mission_energy_saving"} | (
+        {"clean_source_energy", "mission_clean_energy"} if aircraft else set())
+    assert set(outs[True]) - set(outs[False]) == energies
+    for name in outs[False]:
+        np.testing.assert_array_equal(probs[False].get_val(name), probs[True].get_val(name),
+                                      err_msg=name)
+    if fused:      # and the fused component's partials, without the sums
+        from partials_check import assert_partials
+        from mdao.components.chain import ChainComp
+        assert_partials(ChainComp(num_nodes=4, aircraft=aircraft, mission_sums=False),
+                        {k: v for k, v in inputs.items() if k != "duration"})
+
+
+def _interface_tables():
+    """``{name: (unit, shape)}`` of the input and output tables of docs/embedding.md."""
+    from pathlib import Path
+    text = (Path(__file__).resolve().parents[1] / "docs" / "embedding.md").read_text()
+    rows = {}
+    for line in text.splitlines():
+        cells = [c.strip() for c in line.strip().strip("|").split("|")]
+        if len(cells) >= 4 and cells[0].startswith("`") and cells[0].endswith("`"):
+            rows[cells[0].strip("`")] = (cells[1], cells[2])
+    return rows
+
+
+def _same_unit(a, b):
+    """Whether two OpenMDAO unit strings ("-": none) are the same unit (``K`` is ``degK``)."""
+    from openmdao.utils.units import unit_conversion
+    if "-" in (a, b):
+        return a == b
+    return unit_conversion(a, b) == (1.0, 0.0)
+
+
+@pytest.mark.parametrize("options", [
+    dict(), dict(duct_model="geometric", fan_model="map", stations=5),
+    dict(aircraft=True), dict(aircraft=True, sized_fan=True),
+    dict(compressible=True, compressible_jet=True, duct_model="geometric", stations=5)])
+def test_interface_table_lists_every_name_with_its_unit(options):
+    """docs/embedding.md's interface table names every input and output of the fused group,
+    with the unit OpenMDAO declares."""
+    table = _interface_tables()
+    prob = _group(True, num_nodes=3, **options)
+    variables = (prob.model.list_inputs(out_stream=None, prom_name=True, units=True)
+                 + prob.model.list_outputs(out_stream=None, prom_name=True, units=True))
+    missing, wrong = [], []
+    for _, meta in variables:
+        name, unit = meta["prom_name"], meta["units"] or "-"
+        if name not in table:
+            missing.append(name)
+        elif not _same_unit(table[name][0], unit):
+            wrong.append((name, table[name][0], unit))
+    assert not missing, f"not in docs/embedding.md's interface table: {sorted(set(missing))}"
+    assert not wrong, f"units differ from the table: {wrong}"

@@ -26,11 +26,15 @@ class AircraftComp(om.ExplicitComponent):
 
     def initialize(self):
         self.options.declare("num_nodes", **NUM_NODES, desc="segments")
+        self.options.declare("mission_sums", types=bool, default=True,
+                             desc="the clean aircraft's source energy per segment and for the "
+                                  "mission (input duration); False inside an ODE")
 
     def setup(self):
         n = self.options["num_nodes"]
+        sums = self.options["mission_sums"]
         add_parameter_inputs(self, aircraft.FLIGHT_INPUTS[:5])
-        add_parameter_inputs(self, ("climb_rate", "speed", "duration"), n)
+        add_parameter_inputs(self, ("climb_rate", "speed") + (("duration",) if sums else ()), n)
         add_parameter_inputs(self, ("chain_efficiency",))
         self.add_input("dynamic_pressure", val=np.ones(n), units="Pa",
                        desc="freestream dynamic pressure")
@@ -41,8 +45,9 @@ class AircraftComp(om.ExplicitComponent):
         self.add_output("main_thrust", val=np.ones(n), units="N",
                         desc="main-propulsor thrust with the blown section")
         self.add_output("clean_source_power", val=np.ones(n), units="W")
-        self.add_output("clean_source_energy", val=np.ones(n), units="J")
-        self.add_output("mission_clean_energy", val=0.0, units="J")
+        if sums:
+            self.add_output("clean_source_energy", val=np.ones(n), units="J")
+            self.add_output("mission_clean_energy", val=0.0, units="J")
 
     def setup_partials(self):
         n = self.options["num_nodes"]
@@ -65,17 +70,21 @@ class AircraftComp(om.ExplicitComponent):
                 declare("main_thrust", wrt)
         self._power_wrt = sorted({w for (o, w) in d if o == "main_thrust_clean"}
                                  | {"speed", "chain_efficiency"})
+        sums = self.options["mission_sums"]
         for wrt in self._power_wrt:
             declare("clean_source_power", wrt)
+            if not sums:
+                continue
             declare("clean_source_energy", wrt)
             if wrt in WING_INPUTS:
                 self.declare_partials("mission_clean_energy", wrt)
             else:
                 self.declare_partials("mission_clean_energy", wrt, rows=np.zeros(n, int),
                                       cols=np.arange(n))
-        declare("clean_source_energy", "duration")
-        self.declare_partials("mission_clean_energy", "duration", rows=np.zeros(n, int),
-                              cols=np.arange(n))
+        if sums:
+            declare("clean_source_energy", "duration")
+            self.declare_partials("mission_clean_energy", "duration", rows=np.zeros(n, int),
+                                  cols=np.arange(n))
 
     def _flight(self, inputs, derivatives=False):
         args = [inputs[k] for k in aircraft.FLIGHT_INPUTS]
@@ -90,8 +99,9 @@ class AircraftComp(om.ExplicitComponent):
         power = aircraft.clean_source_power(fc.main_thrust_clean, inputs["speed"],
                                             inputs["chain_efficiency"])
         outputs["clean_source_power"] = power
-        outputs["clean_source_energy"] = power * inputs["duration"]
-        outputs["mission_clean_energy"] = np.sum(power * inputs["duration"])
+        if self.options["mission_sums"]:
+            outputs["clean_source_energy"] = power * inputs["duration"]
+            outputs["mission_clean_energy"] = np.sum(power * inputs["duration"])
 
     @analysis_errors
     def compute_partials(self, inputs, partials):
@@ -105,7 +115,8 @@ class AircraftComp(om.ExplicitComponent):
         partials["main_thrust", "drag_saving"] = -np.ones(n)
         power, dp = aircraft.clean_source_power(fc.main_thrust_clean, inputs["speed"],
                                                 inputs["chain_efficiency"], derivatives=True)
-        t = inputs["duration"]
+        sums = self.options["mission_sums"]
+        t = inputs["duration"] if sums else None
         for wrt in self._power_wrt:
             total = 0.0
             if ("main_thrust_clean", wrt) in d:
@@ -114,8 +125,10 @@ class AircraftComp(om.ExplicitComponent):
                 total = total + dp[wrt]
             total = broadcast(total, n)
             partials["clean_source_power", wrt] = total
-            partials["clean_source_energy", wrt] = total * t
-            partials["mission_clean_energy", wrt] = ((total * t).sum() if wrt in WING_INPUTS
-                                                    else total * t)
-        partials["clean_source_energy", "duration"] = power
-        partials["mission_clean_energy", "duration"] = power
+            if sums:
+                partials["clean_source_energy", wrt] = total * t
+                partials["mission_clean_energy", wrt] = ((total * t).sum() if wrt in WING_INPUTS
+                                                        else total * t)
+        if sums:
+            partials["clean_source_energy", "duration"] = power
+            partials["mission_clean_energy", "duration"] = power

@@ -38,6 +38,67 @@ OUTPUT_UNITS = {
     "max_lift_coefficient": None, "lift_reserve": None, "fan_thickness_fraction": None,
     "aircraft_clean_drag": "N", "main_thrust_clean": "N", "main_thrust": "N",
     "clean_source_power": "W", "clean_source_energy": "J"}
+#: What each output is (its ``desc``; the interface table of docs/embedding.md).
+OUTPUT_MEANINGS = {
+    "temperature": "ISA air temperature at the node's altitude",
+    "pressure": "ISA static pressure",
+    "density": "ISA air density",
+    "speed_of_sound": "ISA speed of sound",
+    "viscosity": "ISA dynamic viscosity (Sutherland)",
+    "dynamic_pressure": "freestream dynamic pressure rho V^2 / 2",
+    "jet_velocity": "jet velocity at the injection slot",
+    "mass_flow": "jet mass flow, all fans",
+    "volume_flow": "jet volume flow, all fans",
+    "jet_mach": "jet Mach number at the slot",
+    "slot_height": "injection slot height, slot ratio x chord (wing)",
+    "jet_loss_factor": "K_j: the jet's head plus every duct loss, on the jet velocity",
+    "diffusion_half_angle": "equivalent-cone half-angle of each transition interval (wing)",
+    "span_wall_half_angle": "spanwise walls' divergence half-angle per interval (wing)",
+    "thickness_wall_half_angle": "thickness-wise walls' divergence half-angle per interval "
+                                 "(wing)",
+    "required_pressure_rise": "fan total-pressure rise the jet requires (<= 0: ram-driven)",
+    "fan_efficiency": "fan efficiency at the operating point",
+    "air_power": "power the fans put into the air, Q dp (or the isentropic work rate)",
+    "fan_shaft_power": "shaft power of all fans",
+    "fan_speed": "fan shaft speed (map fan)",
+    "flow_coefficient": "fan flow coefficient Q / (N D^3) (map fan)",
+    "pressure_coefficient": "fan pressure coefficient dp / (rho N^2 D^2) (map fan)",
+    "tip_mach": "fan blade tip Mach number (map fan)",
+    "drag_coefficient": "blown section's drag coefficient on chord x blown span",
+    "section_drag": "blown span's section drag force (negative: net thrust); not the "
+                    "aircraft's drag",
+    "clean_section_drag": "the same span's drag unblown (clean section)",
+    "drag_saving": "clean minus blown section drag",
+    "lift_increment": "section lift coefficient gained by blowing",
+    "propulsion_power_saving": "main-propulsion power saved at the source by the drag saving",
+    "fan_electric_power": "electric power the fans' motors draw (shaft power / motor "
+                          "efficiency)",
+    "net_power_saving": "propulsion power saved minus fan electric power (negative: blowing "
+                        "costs power)",
+    "energy_margin": "fans' air power minus the net thrust power returned (first law: >= 0)",
+    "energy_saving": "net energy saved in the segment (net power x duration)",
+    "lift_coefficient": "the aircraft's lift coefficient (aircraft)",
+    "jet_head": "jet total-to-static head (compressible jet)",
+    "jet_temperature": "jet static temperature after the fan (compressible jet)",
+    "blowing_system_mass": "installed mass of fans, motors and ducts (sized fan, wing)",
+    "mass_thrust_penalty": "main thrust the system's weight costs (sized fan)",
+    "thrust_saving": "drag saving less the weight's thrust penalty (sized fan)",
+    "power_headroom": "rated shaft power minus margin x shaft power (sized fan, >= 0)",
+    "max_lift_coefficient": "section maximum lift coefficient with blowing",
+    "lift_reserve": "maximum lift over the high-lift requirement (>= 0)",
+    "fan_thickness_fraction": "fan diameter over the section's thickness (wing)",
+    "aircraft_clean_drag": "the clean aircraft's drag (aircraft)",
+    "main_thrust_clean": "main-propulsor thrust without blowing (aircraft)",
+    "main_thrust": "main-propulsor thrust with the blown section (aircraft)",
+    "clean_source_power": "the clean aircraft's main-propulsion power at the source (aircraft)",
+    "clean_source_energy": "the same over the segment's duration (aircraft)",
+    "mission_energy_saving": "net energy saved over all nodes (wing)",
+    "mission_clean_energy": "the clean aircraft's source energy over all nodes (aircraft, wing)",
+    "station_position": "transition station positions along the duct (stations)",
+    "station_area": "transition station flow areas (stations)",
+    "station_perimeter": "transition station wetted perimeters (stations)",
+    "station_hydraulic_diameter": "transition station hydraulic diameters (stations)",
+}
 #: Station outputs of the geometric duct: output name -> (station field, units).
 STATION_OUTPUTS = {"station_position": ("position", "m"), "station_area": ("area", "m**2"),
                    "station_perimeter": ("perimeter", "m"),
@@ -75,7 +136,8 @@ class ChainComp(om.ExplicitComponent):
         tabled = self._chain_opts.tabled()
         params = [p for p in registry.chain_parameters(o["duct_model"], o["fan_model"],
                                                        aircraft=o["aircraft"])
-                  if p.name not in tabled]
+                  if p.name not in tabled
+                  and (o["mission_sums"] or p.name != "duration")]
         if o["sized_fan"]:   # the blowing system's mass from the rated power (issue: sizing)
             params += [p for p in registry.MASS_PARAMETERS
                        if p.used_by(o["duct_model"], o["fan_model"])]
@@ -112,15 +174,19 @@ class ChainComp(om.ExplicitComponent):
         self._chain_outputs = [k for k in OUTPUT_UNITS if k in out and k not in probe]
         for name in self._chain_outputs:
             shape = np.shape(out[name]) if name in WING_OUTPUTS else (n,)
-            self.add_output(name, val=np.ones(shape), units=OUTPUT_UNITS[name])
+            self.add_output(name, val=np.ones(shape), units=OUTPUT_UNITS[name],
+                            desc=OUTPUT_MEANINGS[name])
         self._chain_stations = o["duct_model"] == "geometric"
         if self._chain_stations:
             for name, (field, units) in STATION_OUTPUTS.items():
-                self.add_output(name, val=np.ones(o["stations"]), units=units)
-        self.add_output("mission_energy_saving", val=0.0, units="J")
-        if o["aircraft"]:
+                self.add_output(name, val=np.ones(o["stations"]), units=units,
+                                desc=OUTPUT_MEANINGS[name])
+        if o["mission_sums"]:
+            self.add_output("mission_energy_saving", val=0.0, units="J",
+                            desc=OUTPUT_MEANINGS["mission_energy_saving"])
+        if o["aircraft"] and o["mission_sums"]:
             self.add_output("mission_clean_energy", val=0.0, units="J",
-                            desc="source energy of the clean aircraft's main propulsion")
+                            desc=OUTPUT_MEANINGS["mission_clean_energy"])
 
     def _params(self, inputs):
         return {k: inputs[k] for k in self._chain_node + self._chain_wing}
@@ -196,6 +262,8 @@ class ChainComp(om.ExplicitComponent):
 
     def _mission_totals(self):
         """Wing-level sums over the segments: ``{sum: per-segment output}``."""
+        if not self.options["mission_sums"]:
+            return {}
         totals = {"mission_energy_saving": "energy_saving"}
         if self.options["aircraft"]:
             totals["mission_clean_energy"] = "clean_source_energy"

@@ -115,6 +115,12 @@ CHAIN_OPTIONS = {
     "blowing": dict(default=None, allow_none=True,
                     desc="does the fan run: one bool for every node, or one per node "
                          "(default: at every node)"),
+    "mission_sums": dict(types=bool, default=True,
+                         desc="energies per segment and for the mission from the input "
+                              "duration (energy_saving, mission_energy_saving and, with the "
+                              "aircraft, clean_source_energy, mission_clean_energy); False "
+                              "inside an ODE, where the host integrates the powers: no "
+                              "duration input, no energy output"),
     "partials_of": dict(types=tuple, default=None, allow_none=True,
                         desc="fused chain: the outputs whose partials are declared (default "
                              "every output); set to what a problem differentiates (its "

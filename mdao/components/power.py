@@ -23,6 +23,9 @@ class SegmentPowerComp(om.ExplicitComponent):
         self.options.declare("blowing", default=None, allow_none=True,
                              desc="does the fan run: one bool for every node, or one per node "
                                   "(default: at every node)")
+        self.options.declare("mission_sums", types=bool, default=True,
+                             desc="energy per segment and for the mission (input duration); "
+                                  "False inside an ODE, where the host integrates the power")
 
     def _blowing(self):
         return self._blowing_flags      # checked once, in setup
@@ -33,7 +36,9 @@ class SegmentPowerComp(om.ExplicitComponent):
         self.add_input("drag_saving", val=np.ones(n), units="N", desc="clean minus blown drag")
         add_parameter_inputs(self, ("speed",), n)
         self.add_input("fan_shaft_power", val=np.zeros(n), units="W", desc="fan shaft power")
-        add_parameter_inputs(self, ("duration",), n)
+        sums = self.options["mission_sums"]
+        if sums:
+            add_parameter_inputs(self, ("duration",), n)
         add_parameter_inputs(self, WING_INPUTS)
         for name in POWER_OUTPUTS:
             self.add_output(name, val=np.zeros(n), units="W")
@@ -42,17 +47,19 @@ class SegmentPowerComp(om.ExplicitComponent):
         add_parameter_inputs(self, ("thrust_power_ceiling",))
         self.add_output("energy_margin", val=np.zeros(n), units="W",
                         desc="ceiling x air power + drag x speed (first law: >= 0)")
-        self.add_output("energy_saving", val=np.zeros(n), units="J")
-        self.add_output("mission_energy_saving", val=0.0, units="J")
+        if sums:
+            self.add_output("energy_saving", val=np.zeros(n), units="J")
+            self.add_output("mission_energy_saving", val=0.0, units="J")
 
     def setup_partials(self):
         n = self.options["num_nodes"]
         _, _, _, d = power.segment_power(1.0, 1.0, 1.0, 0.8, 0.9, derivatives=True)
         self._pairs = sorted(d)
+        sums = self.options["mission_sums"]
         for key, wrt in self._pairs:
             rows, cols = column(n) if wrt in WING_INPUTS else diagonal(n)
             self.declare_partials(key, wrt, rows=rows, cols=cols)
-            if key == "net_power_saving":
+            if key == "net_power_saving" and sums:
                 self.declare_partials("energy_saving", wrt, rows=rows, cols=cols)
                 if wrt in WING_INPUTS:
                     self.declare_partials("mission_energy_saving", wrt)
@@ -64,9 +71,10 @@ class SegmentPowerComp(om.ExplicitComponent):
                               cols=cols)
         self.declare_partials("energy_margin", "thrust_power_ceiling", rows=rows,
                               cols=np.zeros(n, int))
-        self.declare_partials("energy_saving", "duration", rows=rows, cols=cols)
-        self.declare_partials("mission_energy_saving", "duration", rows=np.zeros(n, int),
-                              cols=np.arange(n))
+        if sums:
+            self.declare_partials("energy_saving", "duration", rows=rows, cols=cols)
+            self.declare_partials("mission_energy_saving", "duration", rows=np.zeros(n, int),
+                                  cols=np.arange(n))
 
     def _physics(self, inputs, derivatives=False):
         return power.segment_power(inputs["drag_saving"], inputs["speed"], inputs["fan_shaft_power"],
@@ -80,25 +88,28 @@ class SegmentPowerComp(om.ExplicitComponent):
         outputs["fan_electric_power"] = fan
         outputs["net_power_saving"] = net
         outputs["energy_margin"] = power.energy_margin(*self._margin_inputs(inputs))
-        energy = power.segment_energy(net, inputs["duration"])
-        outputs["energy_saving"] = energy
-        outputs["mission_energy_saving"] = energy.sum()
+        if self.options["mission_sums"]:
+            energy = power.segment_energy(net, inputs["duration"])
+            outputs["energy_saving"] = energy
+            outputs["mission_energy_saving"] = energy.sum()
 
     @analysis_errors
     def compute_partials(self, inputs, partials):
         n = self.options["num_nodes"]
         *_, net, d = self._physics(inputs, derivatives=True)
-        t = inputs["duration"]
+        sums = self.options["mission_sums"]
+        t = inputs["duration"] if sums else None
         for key, wrt in self._pairs:
             value = broadcast(d[key, wrt], n)
             partials[key, wrt] = value
-            if key == "net_power_saving":
+            if key == "net_power_saving" and sums:
                 partials["energy_saving", wrt] = value * t
                 total = value * t
                 partials["mission_energy_saving", wrt] = (total.sum() if wrt in WING_INPUTS
                                                           else total)
-        partials["energy_saving", "duration"] = net
-        partials["mission_energy_saving", "duration"] = net
+        if sums:
+            partials["energy_saving", "duration"] = net
+            partials["mission_energy_saving", "duration"] = net
         _, dm = power.energy_margin(*self._margin_inputs(inputs), derivatives=True)
         for wrt, value in dm.items():
             partials["energy_margin", wrt] = broadcast(value, n)
