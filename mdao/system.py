@@ -21,7 +21,7 @@ from mdao.components.aircraft import AircraftComp
 from mdao.components.airfoil import AirfoilComp
 from mdao.components.atmosphere import AtmosphereComp
 from mdao.components.chain import ChainComp
-from mdao.components.common import CHAIN_OPTIONS, declare_chain_options
+from mdao.components.common import CHAIN_OPTIONS, declare_chain_options, host_air
 from mdao.components.duct import DuctLossComp
 from mdao.components.fan import FanComp
 from mdao.components.jet import JetComp
@@ -68,7 +68,11 @@ class BlownWingGroup(om.Group):
             self.add_subsystem("chain", ChainComp(**{k: o[k] for k in CHAIN_OPTIONS}),
                 promotes=["*"])
             return
-        self.add_subsystem("atmosphere", AtmosphereComp(num_nodes=n), promotes=["*"])
+        if o["atmosphere"] == "isa":
+            self.add_subsystem("atmosphere", AtmosphereComp(num_nodes=n), promotes=["*"])
+        else:       # the host's air: inputs of the components that read it, one default each
+            for name, (units, start) in host_air(o).items():
+                self.set_input_defaults(name, start * np.ones(n), units=units)
         self.add_subsystem("jet", JetComp(num_nodes=n), promotes=["*"])
         if o["duct_model"] == "geometric":
             self.add_subsystem("transition", TransitionComp(

@@ -337,3 +337,60 @@ def test_interface_table_lists_every_name_with_its_unit(options):
             wrong.append((name, table[name][0], unit))
     assert not missing, f"not in docs/embedding.md's interface table: {sorted(set(missing))}"
     assert not wrong, f"units differ from the table: {wrong}"
+
+
+@pytest.mark.parametrize("options", [dict(), dict(duct_model="geometric", fan_model="map",
+                                                  stations=5),
+                                     dict(aircraft=True),
+                                     dict(compressible=True, duct_model="geometric", stations=5)])
+@pytest.mark.parametrize("fused", [True, False])
+def test_the_hosts_atmosphere(fused, options):
+    """``atmosphere="host"``: the air's state per node is an input (no altitude). Fed the ISA's
+    values it gives the ISA group's answers; both groups take the same inputs; a hot day (ISA
+    + 15 K at the same pressure) changes the answer."""
+    from partials_check import chain_inputs
+    inputs = chain_inputs(3, aircraft=options.get("aircraft", False))
+    air = isa(inputs["altitude"])
+    probs = {}
+    for mode in ("isa", "host"):
+        prob = _group(fused, num_nodes=4, atmosphere=mode, **options)
+        names = {m["prom_name"] for _, m in prob.model.list_inputs(out_stream=None,
+                                                                    prom_name=True)}
+        for name, value in inputs.items():
+            if name in names:
+                prob.set_val(name, value)
+        if mode == "host":
+            assert "altitude" not in names
+            taken = {f for f in air._fields if f in names}
+            assert {"density", "speed_of_sound"} <= taken
+            for field in taken:
+                prob.set_val(field, getattr(air, field))
+        prob.run_model()
+        probs[mode] = (prob, names)
+    for name in ("net_power_saving", "required_pressure_rise", "fan_shaft_power",
+                 "energy_margin", "jet_mach"):
+        np.testing.assert_allclose(probs["host"][0].get_val(name), probs["isa"][0].get_val(name),
+                                   rtol=1e-12, err_msg=name)
+    other = _group(not fused, num_nodes=4, atmosphere="host", **options)
+    other_names = {m["prom_name"] for _, m in other.model.list_inputs(out_stream=None,
+                                                                       prom_name=True)}
+    host_air_names = {f for f in air._fields}
+    assert probs["host"][1] & host_air_names == other_names & host_air_names
+    prob = probs["host"][0]
+    before = prob.get_val("net_power_saving").copy()
+    hot = air.temperature + 15.0
+    prob.set_val("density", air.pressure / (287.05287 * hot))
+    if "temperature" in probs["host"][1]:
+        prob.set_val("temperature", hot)
+    prob.run_model()
+    after = prob.get_val("net_power_saving")
+    assert np.all(np.isfinite(after)) and not np.allclose(after, before)
+
+
+def test_host_atmosphere_partials():
+    from partials_check import assert_partials, chain_inputs
+    from mdao.components.chain import ChainComp
+    inputs = {k: v for k, v in chain_inputs(4).items() if k != "altitude"}
+    air = isa(np.array([100.0, 900.0, 2000.0, 3100.0]))
+    inputs.update(density=air.density, speed_of_sound=air.speed_of_sound)
+    assert_partials(ChainComp(num_nodes=4, atmosphere="host"), inputs)

@@ -12,7 +12,7 @@ from mdao import om
 
 from mdao import parameters as registry
 from mdao.components.common import (analysis_errors, blowing_flags, column,
-                                   declare_chain_options, diagonal)
+                                   declare_chain_options, diagonal, host_air)
 from mdao.physics import chain
 
 #: Node inputs that are design variables rather than model parameters: start values.
@@ -126,7 +126,7 @@ class ChainComp(om.ExplicitComponent):
                                   compressible=o["compressible"], aircraft=o["aircraft"],
                                   lift_tables=tuple(o["lift_tables"]),
                                   compressible_jet=o["compressible_jet"],
-                                  sized_fan=o["sized_fan"])
+                                  sized_fan=o["sized_fan"], atmosphere=o["atmosphere"])
 
     def setup(self):
         o = self.options
@@ -137,7 +137,8 @@ class ChainComp(om.ExplicitComponent):
         params = [p for p in registry.chain_parameters(o["duct_model"], o["fan_model"],
                                                        aircraft=o["aircraft"])
                   if p.name not in tabled
-                  and (o["mission_sums"] or p.name != "duration")]
+                  and (o["mission_sums"] or p.name != "duration")
+                  and (o["atmosphere"] == "isa" or p.name != "altitude")]
         if o["sized_fan"]:   # the blowing system's mass from the rated power (issue: sizing)
             params += [p for p in registry.MASS_PARAMETERS
                        if p.used_by(o["duct_model"], o["fan_model"])]
@@ -165,6 +166,11 @@ class ChainComp(om.ExplicitComponent):
             self._chain_node.append(name)
             probe[name] = start * np.ones(n)
             self.add_input(name, val=probe[name], units=units)
+        if o["atmosphere"] == "host":       # the host's air, per node, in place of the ISA
+            for name, (units, start) in host_air(o).items():
+                self._chain_node.append(name)
+                probe[name] = start * np.ones(n)
+                self.add_input(name, val=probe[name], units=units, desc=f"air {name} (host)")
         self._chain_probe = probe
 
         out = chain.evaluate(probe, self._chain_opts, blowing=self._chain_blowing)

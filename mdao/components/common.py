@@ -85,6 +85,25 @@ def add_parameter_inputs(component, names, num_nodes=1):
         component.add_input(name, val=value, units=p.unit, desc=p.description)
 
 
+#: The air's state a host gives with ``atmosphere="host"``: name -> (units, ISA sea-level start
+#: value).
+HOST_AIR = {"temperature": ("K", 288.15), "pressure": ("Pa", 101325.0),
+            "density": ("kg/m**3", 1.225), "speed_of_sound": ("m/s", 340.294),
+            "viscosity": ("Pa*s", 1.7894e-5)}
+
+
+def host_air(options):
+    """The fields of :data:`HOST_AIR` the chosen models read (``atmosphere="host"``): density
+    and speed of sound always, viscosity for the geometric duct's friction, pressure and
+    temperature for the compressible fan or jet."""
+    names = ["density", "speed_of_sound"]
+    if options["duct_model"] == "geometric":
+        names.append("viscosity")
+    if options["compressible"] or options["compressible_jet"]:
+        names += ["pressure", "temperature"]
+    return {name: HOST_AIR[name] for name in HOST_AIR if name in names}
+
+
 #: Options of the whole chain, shared by :class:`mdao.components.chain.ChainComp` and
 #: :class:`mdao.system.BlownWingGroup`: name -> keyword arguments of ``options.declare``.
 CHAIN_OPTIONS = {
@@ -115,6 +134,11 @@ CHAIN_OPTIONS = {
     "blowing": dict(default=None, allow_none=True,
                     desc="does the fan run: one bool for every node, or one per node "
                          "(default: at every node)"),
+    "atmosphere": dict(default="isa", values=("isa", "host"),
+                       desc="isa: the standard atmosphere at the input altitude; host: the "
+                            "air's temperature, pressure, density, speed_of_sound and "
+                            "viscosity are inputs per node (a non-standard day or the host's "
+                            "own model), no altitude"),
     "mission_sums": dict(types=bool, default=True,
                          desc="energies per segment and for the mission from the input "
                               "duration (energy_saving, mission_energy_saving and, with the "

@@ -70,6 +70,11 @@ class ChainOptions:
     #: (:mod:`mdao.physics.mass`, the ``[mass]`` constants) flies in every segment, and each
     #: segment reports its ``power_headroom``.
     sized_fan: bool = False
+    #: Where the air's state comes from: ``"isa"`` (:func:`mdao.physics.atmosphere.isa` at the
+    #: input ``altitude``) or ``"host"`` (the inputs ``temperature``, ``pressure``,
+    #: ``density``, ``speed_of_sound`` and ``viscosity`` per point: a non-standard day or the
+    #: host's own atmosphere model; no ``altitude``).
+    atmosphere: str = "isa"
 
     def tabled(self, params=()):
         """Names of the constants this chain takes from lift tables (those not in ``params``)."""
@@ -185,13 +190,17 @@ def _evaluate(params, options, blowing, d, outputs, wrt):
                 tan[root] = {root: 1.0}
 
     # Atmosphere and jet.
-    if d:
+    if options.atmosphere == "host":    # the host's air: inputs, their tangents seeded above
+        atm = atmosphere.Atmosphere(*(asarray(p[f]) if f in p else None    # unused by the models
+                                      for f in atmosphere.Atmosphere._fields))
+    elif d:
         atm, datm = atmosphere.isa(p["altitude"], derivatives=True)
         for field in atm._fields:
             tan[field] = _chain({"altitude": getattr(datm, field)}, tan)
+        out.update(atm._asdict())
     else:
         atm = atmosphere.isa(p["altitude"])
-    out.update(atm._asdict())
+        out.update(atm._asdict())
     if options.compressible_jet:
         js = _compressible_jet(p, options, atm, out, tan if d else None)
     else:
@@ -511,7 +520,9 @@ def lift_dependent(params, options=ChainOptions()):
     (the break-even search)."""
     p = with_defaults(params, options)
     if options.tabled(params):
-        q = jet.dynamic_pressure(atmosphere.isa(p["altitude"]).density, p["speed"])
+        rho = (p["density"] if options.atmosphere == "host"
+               else atmosphere.isa(p["altitude"]).density)
+        q = jet.dynamic_pressure(rho, p["speed"])
         _lift(p, params, options, q, {}, None)
     return p
 
