@@ -119,6 +119,15 @@ def _at_least(option, value, low):
         raise CaseError(f"{option} {value}: a whole number >= {low} is needed")
 
 
+def _check_sampling(args, least_samples):
+    """The options of a command that samples and may scale out (``--samples``, ``--seed``,
+    ``--workers``, ``--scheduler``), refused before any computation."""
+    _at_least("--samples", args.samples, least_samples)
+    _at_least("--seed", args.seed, 0)
+    _at_least("--workers", args.workers, 1)
+    check_scheduler(args.scheduler)
+
+
 def check_scheduler(address, timeout=None):
     """Refuse a ``--scheduler`` that is not ``tcp://host:port`` (or ``tls://``) or that does not
     accept a connection within ``timeout`` seconds (raises :class:`mdao.case.CaseError`)."""
@@ -305,10 +314,7 @@ def _review(args):
     from mdao.report.review import review_summary, write_review, write_review_failure
     from mdao.studies.review import run_review
 
-    _at_least("--samples", args.samples, 10)
-    _at_least("--seed", args.seed, 0)
-    _at_least("--workers", args.workers, 1)
-    check_scheduler(args.scheduler)
+    _check_sampling(args, least_samples=10)
     with _outputs(args) as outputs:
         case = load_case(args.case)
         steps = StepDisplay("review", enabled=_progress(args))
@@ -347,10 +353,7 @@ def _many(args):
     from mdao.report.console import many_summary
     from mdao.studies.scaleout import run_many
 
-    _at_least("--samples", args.samples, 1)
-    _at_least("--seed", args.seed, 0)
-    _at_least("--workers", args.workers, 1)
-    check_scheduler(args.scheduler)
+    _check_sampling(args, least_samples=1)
     with _outputs(args) as outputs:
         case = load_case(args.case)
         data = run_many(case, args.kind, samples=args.samples, seed=args.seed,
