@@ -10,7 +10,7 @@ are consistent (a constrained variant is no lighter; the clean optimum is a mini
 import numpy as np
 import pytest
 from examples import load_example
-from totals_check import assert_totals, worst_relative
+from totals_check import assert_totals, central_totals, worst_relative
 
 
 ea = load_example("electric_aircraft")
@@ -27,8 +27,7 @@ def test_totals_across_the_boundary(blown):
     names (speed, duration, density, drag, fan power, shaft power, slot ratio, C_mu, ...)."""
     prob = ea.build_aircraft(blown)
     prob.run_model()
-    data = prob.check_totals(out_stream=None, method="fd", form="central", step=1e-5,
-                             step_calc="rel_avg")
+    data = central_totals(prob, step=1e-5)
     assert_totals(data, atol=1e-6, rtol=1e-7)
     worst = worst_relative(data)
     print(f"blown={blown}: worst relative totals error {worst:.2e}")
@@ -42,8 +41,7 @@ def test_totals_across_the_boundary(blown):
 def test_totals_at_the_blown_optimum():
     prob = ea.build_aircraft(True)
     assert prob.run_driver().success
-    data = prob.check_totals(out_stream=None, method="fd", form="central", step=1e-5,
-                             step_calc="rel_avg")
+    data = central_totals(prob, step=1e-5)
     assert worst_relative(data) < 1e-8
 
 

@@ -50,3 +50,11 @@ def worst_relative(data):
             if scale > 0:
                 worst = max(worst, np.abs(jac - fd).max() / scale)
     return worst
+
+
+def central_totals(prob, step=1e-6):
+    """``prob.check_totals`` against central finite differences with a relative step (scaled
+    by the average of the values), silent: the data :func:`assert_totals` and
+    :func:`worst_relative` read. The problem has been run."""
+    return prob.check_totals(out_stream=None, method="fd", form="central", step=step,
+                             step_calc="rel_avg")
