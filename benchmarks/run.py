@@ -26,7 +26,8 @@ CASES = sorted((ROOT / "cases").glob("*.toml"))
 
 CONST = dict(slot_ratio=0.012, chord=0.5, blown_span=2.0, jet_loss_factor=1.25,
              freestream_assist=0.9, fan_rated_efficiency=0.7, motor_efficiency=0.9,
-             drag_clean=0.011, slot_drag=0.02, drag_per_momentum=-1.6, chain_efficiency=0.8)
+             drag_clean=0.011, slot_drag=0.02, drag_per_momentum=-1.6, chain_efficiency=0.8,
+             slot_drag_per_ratio=0.0, drag_per_momentum_per_ratio=0.0, lift_per_momentum=0.0)
 
 
 def operating_points(n, seed=0):

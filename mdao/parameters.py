@@ -107,6 +107,18 @@ class Parameter:
             return self.default
         return self.example
 
+    @property
+    def host_gives(self):
+        """Whether a host model that embeds the group must give it: the flight condition (every
+        per-segment value), every calibration constant, and every parameter the models need
+        that has no default. The group starts such an input unset (NaN) and its evaluation
+        refuses it by name (:func:`mdao.components.common.refuses_unset`), so a forgotten one
+        is never silently an example value. A case file still fills the defaults it
+        documents. Optional parameters (default None: the fan's fit in the section, the
+        high-lift requirement) start at their example, and only the outputs of that check
+        read them."""
+        return self.default is REQUIRED or self.calibrated or self.per_segment
+
     def used_by(self, duct_model, fan_model, aircraft=False):
         """Whether a chain with these models (and the aircraft, when ``aircraft``) uses the
         parameter."""

@@ -21,7 +21,8 @@ from mdao.components.aircraft import AircraftComp
 from mdao.components.airfoil import AirfoilComp
 from mdao.components.atmosphere import AtmosphereComp
 from mdao.components.chain import ChainComp
-from mdao.components.common import CHAIN_OPTIONS, declare_chain_options, host_air
+from mdao.components.common import (CHAIN_OPTIONS, HOST_GIVES, HOST_INPUTS,
+                                    declare_chain_options, host_air, unset_start)
 from mdao.components.duct import DuctLossComp
 from mdao.components.fan import FanComp
 from mdao.components.jet import JetComp
@@ -68,11 +69,8 @@ class BlownWingGroup(om.Group):
             self.add_subsystem("chain", ChainComp(**{k: o[k] for k in CHAIN_OPTIONS}),
                 promotes=["*"])
             return
-        if o["atmosphere"] == "isa":
+        if o["atmosphere"] == "isa":    # else the host's air: inputs of the components
             self.add_subsystem("atmosphere", AtmosphereComp(num_nodes=n), promotes=["*"])
-        else:       # the host's air: inputs of the components that read it, one default each
-            for name, (units, start) in host_air(o).items():
-                self.set_input_defaults(name, start * np.ones(n), units=units)
         self.add_subsystem("jet", JetComp(num_nodes=n), promotes=["*"])
         if o["duct_model"] == "geometric":
             self.add_subsystem("transition", TransitionComp(
@@ -96,13 +94,27 @@ class BlownWingGroup(om.Group):
                                promotes=["*"])
             shared = shared + (("duration",) if o["mission_sums"] else ()) + ("chain_efficiency",)
 
-        # inputs that several components share: one default each, from the declarations
-        for name in shared:
-            p = registry.BY_NAME[name]
-            if p.used_by(o["duct_model"], o["fan_model"]):
-                value = p.start_value * (np.ones(n) if p.per_segment else 1.0)
-                self.set_input_defaults(name, value, units=p.unit)
-        self.set_input_defaults("momentum_coefficient", 0.03 * np.ones(n))
+        # one start value for each input the host gives or several components share: unset
+        # (NaN) for what the host must give (the first evaluation refuses it by name), else
+        # the declared default
+        starts = {p.name: (p.unit, np.atleast_1d(p.start_value)
+                           * (np.ones(n) if p.per_segment else 1.0))
+                  for p in registry.chain_parameters(o["duct_model"], o["fan_model"],
+                                                     aircraft=o["aircraft"])
+                  if not p.fused_only
+                  and (o["mission_sums"] or p.name != "duration")
+                  and (o["atmosphere"] == "isa" or p.name != "altitude")}
+        starts["momentum_coefficient"] = (None, HOST_INPUTS["momentum_coefficient"][0] * np.ones(n))
+        if not o["follow_requirement"]:
+            starts["fan_pressure_rise"] = ("Pa", HOST_INPUTS["fan_pressure_rise"][0] * np.ones(n))
+        if o["atmosphere"] == "host":
+            starts.update({name: (units, start * np.ones(n))
+                           for name, (units, start) in host_air(o).items()})
+        for name, (units, value) in starts.items():
+            if name in HOST_GIVES:
+                self.set_input_defaults(name, unset_start(value, o["examples"]), units=units)
+            elif name in shared:
+                self.set_input_defaults(name, value, units=units)
 
 
 def group_options(case, fused=None):

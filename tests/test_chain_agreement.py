@@ -355,7 +355,7 @@ def test_required_rise_derivative_is_finite_where_the_jet_stops(fused):
     the jet's head q C_mu / (2 r_s): d(dp_req)/dC_mu = K_j q / (2 r_s), by hand."""
     n = 3
     prob = om.Problem(reports=False)
-    prob.model.add_subsystem("wing", BlownWingGroup(num_nodes=n, fused=fused,
+    prob.model.add_subsystem("wing", BlownWingGroup(num_nodes=n, fused=fused, examples=True,
                                                     follow_requirement=True), promotes=["*"])
     prob.setup()
     prob.set_val("momentum_coefficient", [0.0, 0.02, 0.05])

@@ -16,7 +16,9 @@ COMPONENTS = [("atmosphere", "AtmosphereComp"), ("jet", "JetComp"),
 def test_component_alone_with_defaults(module, name):
     cls = getattr(importlib.import_module(f"mdao.components.{module}"), name)
     prob = om.Problem(reports=False)
-    prob.model.add_subsystem("c", cls(), promotes=["*"])
+    # the fused chain's inputs that a host must give start unset: its examples stand in
+    prob.model.add_subsystem("c", cls(examples=True) if name == "ChainComp" else cls(),
+                             promotes=["*"])
     prob.setup()
     prob.run_model()
     for _, meta in prob.model.list_outputs(out_stream=None):
@@ -62,7 +64,7 @@ def test_fused_chain_partials(compressible, follow):
               "drag_quadratic": 0.5, "lift_per_momentum": 2.0}
     if not follow:
         inputs["fan_pressure_rise"] = RNG.uniform(200, 3000, n)
-    assert_partials(ChainComp(num_nodes=n, compressible=compressible, follow_requirement=follow,
+    assert_partials(ChainComp(num_nodes=n, examples=True, compressible=compressible, follow_requirement=follow,
                               blowing=[True, True, False, True, True]), inputs)
 
 

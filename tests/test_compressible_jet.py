@@ -69,7 +69,8 @@ def test_fused_partials_with_the_compressible_jet(fan_model):
     else:
         inputs.update(fan_diameter=0.09, pressure_coefficients=[0.7, 0.4, -1.6],
                       peak_efficiency=0.74, peak_flow_coefficient=0.3, efficiency_falloff=0.9)
-    comp = ChainComp(num_nodes=n, fan_model=fan_model, compressible=True, compressible_jet=True)
+    comp = ChainComp(num_nodes=n, examples=True, fan_model=fan_model, compressible=True,
+                     compressible_jet=True)
     prob = assert_partials(comp, inputs)
     assert np.all(prob.get_val("jet_head") > 0.5 * prob.get_val("density")
                   * prob.get_val("jet_velocity") ** 2 * 0.99)

@@ -36,16 +36,21 @@ def test_every_parameter_is_a_case_key_with_its_declared_range():
             assert spec.dimension == p.dimension, p.key
 
 
-def test_one_default_per_parameter_in_every_component(cases_dir):
-    """Each input that a declared parameter feeds starts at the declared value, with the
-    declared unit, in both the per-discipline group and the fused chain, for every model."""
+@pytest.mark.parametrize("examples", [False, True])
+def test_one_default_per_parameter_in_every_component(cases_dir, examples):
+    """Each input that a declared parameter feeds has the declared unit and starts at the
+    declared value in both the per-discipline group and the fused chain, for every model; in
+    the group, one the host must give starts unset (NaN) unless the examples option asks for
+    the example (a per-discipline component alone keeps the example)."""
     for duct in ("lumped", "geometric"):
         for fan in ("constant", "map"):
             for fused in (False, True):
                 prob = Problem(reports=False)
                 prob.model.add_subsystem("wing", BlownWingGroup(
-                    num_nodes=3, duct_model=duct, fan_model=fan, fused=fused), promotes=["*"])
+                    num_nodes=3, duct_model=duct, fan_model=fan, fused=fused,
+                    examples=examples), promotes=["*"])
                 prob.setup()
+                prob.final_setup()
                 meta = prob.model.get_io_metadata(iotypes="input", metadata_keys=["units", "val"],
                                                   return_rel_names=False)
                 seen = set()
@@ -55,9 +60,14 @@ def test_one_default_per_parameter_in_every_component(cases_dir):
                         continue
                     p = parameters.BY_NAME[name]
                     assert m["units"] == p.unit, (path, m["units"], p.unit)
-                    np.testing.assert_array_equal(
-                        np.asarray(m["val"]).ravel()[:1],
-                        np.ravel(np.asarray(p.start_value, float))[:1], err_msg=path)
+                    example = np.ravel(np.asarray(p.start_value, float))[:1]
+                    expected = example
+                    if p.host_gives and not examples:
+                        expected = np.full_like(expected, np.nan)
+                    np.testing.assert_array_equal(prob.get_val(name).ravel()[:1], expected,
+                                                  err_msg=path)
+                    np.testing.assert_array_equal(np.asarray(m["val"]).ravel()[:1],
+                                                  expected if fused else example, err_msg=path)
                     seen.add(name)
                 used = {p.name for p in parameters.chain_parameters(duct, fan)
                         if fused or not p.fused_only}
@@ -100,7 +110,7 @@ def test_fan_speed_connects_to_an_rpm_input():
     prob = Problem(reports=False)
     model = prob.model
     model.add_subsystem("wing", BlownWingGroup(num_nodes=2, duct_model="geometric",
-                                               fan_model="map", fused=False))
+                                               fan_model="map", fused=False, examples=True))
     model.add_subsystem("host", ExecComp("y = x", x={"units": "rpm", "shape": 2},
                                          y={"units": "rpm", "shape": 2}))
     model.connect("wing.fan_speed", "host.x")

@@ -22,7 +22,7 @@ COMPONENTS = [("aircraft", "AircraftComp"), ("airfoil", "AirfoilComp"),
 
 def _group(fused, **options):
     prob = om.Problem(reports=False)
-    prob.model.add_subsystem("wing", BlownWingGroup(fused=fused, **options), promotes=["*"])
+    prob.model.add_subsystem("wing", BlownWingGroup(fused=fused, examples=True, **options), promotes=["*"])
     prob.setup()
     return prob
 
@@ -244,7 +244,7 @@ def test_fan_speed_connects_to_rpm_and_rad_per_s(fused):
     and 2 pi rad/s."""
     prob = om.Problem(reports=False)
     model = prob.model
-    model.add_subsystem("wing", BlownWingGroup(num_nodes=2, duct_model="geometric",
+    model.add_subsystem("wing", BlownWingGroup(num_nodes=2, examples=True, duct_model="geometric",
                                                fan_model="map", fused=fused))
     model.add_subsystem("motor", om.ExecComp("y = x", x={"units": "rpm", "shape": 2},
                                              y={"units": "rpm", "shape": 2}))
@@ -272,7 +272,7 @@ def test_without_mission_sums_for_an_ode(fused, aircraft):
     probs = {}
     for sums in (True, False):
         prob = om.Problem(reports=False)
-        prob.model.add_subsystem("w", BlownWingGroup(num_nodes=4, fused=fused, aircraft=aircraft,
+        prob.model.add_subsystem("w", BlownWingGroup(num_nodes=4, examples=True, fused=fused, aircraft=aircraft,
                                                      mission_sums=sums), promotes=["*"])
         prob.setup()
         for name, value in inputs.items():
@@ -293,7 +293,7 @@ def test_without_mission_sums_for_an_ode(fused, aircraft):
     if fused:      # and the fused component's partials, without the sums
         from partials_check import assert_partials
         from mdao.components.chain import ChainComp
-        assert_partials(ChainComp(num_nodes=4, aircraft=aircraft, mission_sums=False),
+        assert_partials(ChainComp(num_nodes=4, examples=True, aircraft=aircraft, mission_sums=False),
                         {k: v for k, v in inputs.items() if k != "duration"})
 
 
@@ -393,4 +393,4 @@ def test_host_atmosphere_partials():
     inputs = {k: v for k, v in chain_inputs(4).items() if k != "altitude"}
     air = isa(np.array([100.0, 900.0, 2000.0, 3100.0]))
     inputs.update(density=air.density, speed_of_sound=air.speed_of_sound)
-    assert_partials(ChainComp(num_nodes=4, atmosphere="host"), inputs)
+    assert_partials(ChainComp(num_nodes=4, examples=True, atmosphere="host"), inputs)

@@ -170,7 +170,8 @@ def test_fused_component_partials_with_tables(aircraft):
                           aircraft=aircraft, drop=[name for name, _ in tables])
     if not aircraft:
         inputs["lift_coefficient"] = np.random.default_rng(6).uniform(0.3, 1.2, n)
-    comp = ChainComp(num_nodes=n, lift_tables=tables, aircraft=aircraft)
+    comp = ChainComp(num_nodes=n, examples=True, lift_tables=tables,
+                     aircraft=aircraft)
     prob = assert_partials(comp, inputs)
     names = {m["prom_name"] for _, m in comp.list_inputs(out_stream=None, prom_name=True)}
     assert not names & {name for name, _ in tables}      # tabled: no scalar input

@@ -143,7 +143,7 @@ def test_fused_partials_with_sizing_and_high_lift(duct_model):
         del inputs["jet_loss_factor"]
         inputs.update(fan_diameter=0.09, transition_length=0.3, suction_ratio=0.02,
                       bend_loss=0.2, extra_loss=0.1, thickness_ratio=0.14)
-    prob = assert_partials(ChainComp(num_nodes=n, duct_model=duct_model, aircraft=True,
+    prob = assert_partials(ChainComp(num_nodes=n, examples=True, duct_model=duct_model, aircraft=True,
                                      sized_fan=True, stations=9), inputs)
     assert prob.get_val("blowing_system_mass")[0] > 0
 

@@ -77,6 +77,8 @@ WING = {
     "slot_drag": (0.012, None),
     "slot_drag_per_ratio": (1.0, None),
     "drag_per_momentum": (-1.7, None),
+    "drag_per_momentum_per_ratio": (0.0, None),
+    "lift_per_momentum": (0.0, None),    # lift increment not credited (conservative)
 }
 SLOT_RATIO_BOUNDS = (0.004, 0.02)
 MIN_SLOT_HEIGHT = 0.002                  # [m]

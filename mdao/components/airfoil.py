@@ -3,7 +3,7 @@
 import numpy as np
 from mdao import om
 
-from mdao.components.common import NUM_NODES, analysis_errors
+from mdao.components.common import NUM_NODES, analysis_errors, refuses_unset
 from mdao.components.common import add_parameter_inputs
 from mdao.physics import airfoil as phys
 
@@ -67,6 +67,7 @@ class AirfoilComp(om.ExplicitComponent):
                                      derivatives=derivatives)
 
     @analysis_errors
+    @refuses_unset
     def compute(self, inputs, outputs):
         # straight into the output arrays (no temporaries, no copies); q (c b) as in the chain
         dcd = self._increment(inputs)

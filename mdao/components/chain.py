@@ -11,16 +11,17 @@ import numpy as np
 from mdao import om
 
 from mdao import parameters as registry
-from mdao.components.common import (analysis_errors, blowing_flags, column,
-                                   declare_chain_options, diagonal, host_air)
+from mdao.components.common import (HOST_GIVES, HOST_INPUTS, analysis_errors, blowing_flags,
+                                    column, declare_chain_options, diagonal, host_air,
+                                    refuses_unset, unset_start)
 from mdao.physics import chain
 
-#: Node inputs that are design variables rather than model parameters: start values.
-DESIGN_INPUTS = {"momentum_coefficient": (0.03, None), "fan_pressure_rise": (1000.0, "Pa")}
-#: Wing-level design input of the fan sized across the mission: start value, units.
-RATED_POWER = ("rated_shaft_power", 500.0, "W")
-#: Start value of the section lift coefficient input (lift tables without the aircraft).
-LIFT_START = 0.5
+#: Node inputs that are design variables rather than model parameters: example value, units.
+DESIGN_INPUTS = {k: HOST_INPUTS[k] for k in ("momentum_coefficient", "fan_pressure_rise")}
+#: Wing-level design input of the fan sized across the mission: example value, units.
+RATED_POWER = ("rated_shaft_power",) + HOST_INPUTS["rated_shaft_power"]
+#: Example value of the section lift coefficient input (lift tables without the aircraft).
+LIFT_START = HOST_INPUTS["lift_coefficient"][0]
 #: Units of the outputs, the same names as the per-discipline components'.
 OUTPUT_UNITS = {
     "temperature": "K", "pressure": "Pa", "density": "kg/m**3", "speed_of_sound": "m/s",
@@ -144,33 +145,42 @@ class ChainComp(om.ExplicitComponent):
                        if p.used_by(o["duct_model"], o["fan_model"])]
         self._chain_node = [p.name for p in params if p.per_segment]
         self._chain_wing = [p.name for p in params if not p.per_segment]
-        probe = {}
+
+        def initial(name, example):
+            """An input's value before the host gives it: unset (NaN) for what the host must
+            give, unless the examples option asks for the example values."""
+            return unset_start(example, o["examples"]) if name in HOST_GIVES else example
+
+        probe = {}      # the example values: the derivative pattern is found at them
         for p in params:
             val = np.asarray(p.start_value, float)
             probe[p.name] = val * np.ones(n) if p.per_segment else np.atleast_1d(val)
-            self.add_input(p.name, val=probe[p.name], units=p.unit, desc=p.description)
+            self.add_input(p.name, val=initial(p.name, probe[p.name]), units=p.unit,
+                           desc=p.description)
         if tabled and not o["aircraft"]:    # the lift the tables are read at, per node
             self._chain_node.append("lift_coefficient")
             probe["lift_coefficient"] = LIFT_START * np.ones(n)
-            self.add_input("lift_coefficient", val=probe["lift_coefficient"],
+            self.add_input("lift_coefficient", val=initial("lift_coefficient",
+                                                         probe["lift_coefficient"]),
                            desc="section lift coefficient (the lift tables' argument)")
         if o["sized_fan"]:
             name, start, units = RATED_POWER
             self._chain_wing.append(name)
             probe[name] = np.atleast_1d(start)
-            self.add_input(name, val=probe[name], units=units,
+            self.add_input(name, val=initial(name, probe[name]), units=units,
                            desc="rated shaft power of all fans together")
         for name, (start, units) in DESIGN_INPUTS.items():
             if name == "fan_pressure_rise" and o["follow_requirement"]:
                 continue
             self._chain_node.append(name)
             probe[name] = start * np.ones(n)
-            self.add_input(name, val=probe[name], units=units)
+            self.add_input(name, val=initial(name, probe[name]), units=units)
         if o["atmosphere"] == "host":       # the host's air, per node, in place of the ISA
             for name, (units, start) in host_air(o).items():
                 self._chain_node.append(name)
                 probe[name] = start * np.ones(n)
-                self.add_input(name, val=probe[name], units=units, desc=f"air {name} (host)")
+                self.add_input(name, val=initial(name, probe[name]), units=units,
+                               desc=f"air {name} (host)")
         self._chain_probe = probe
 
         out = chain.evaluate(probe, self._chain_opts, blowing=self._chain_blowing)
@@ -276,6 +286,7 @@ class ChainComp(om.ExplicitComponent):
         return totals
 
     @analysis_errors
+    @refuses_unset
     def compute(self, inputs, outputs):
         # In strips of nodes (the chain is elementwise over them): a strip's intermediates stay
         # in cache and in memory the allocator hands back at once, where the whole vector's

@@ -6,7 +6,7 @@ each node from the transition stations, friction and form losses.
 import numpy as np
 from mdao import om
 
-from mdao.components.common import NUM_NODES, analysis_errors
+from mdao.components.common import NUM_NODES, analysis_errors, refuses_unset
 from mdao.components.common import add_parameter_inputs, broadcast, column, diagonal, full
 from mdao.physics import duct, jet
 
@@ -84,6 +84,7 @@ class DuctLossComp(om.ExplicitComponent):
             derivatives=derivatives)
 
     @analysis_errors
+    @refuses_unset
     def compute(self, inputs, outputs):
         if self.options["duct_model"] == "lumped":
             kj = inputs["jet_loss_factor"]

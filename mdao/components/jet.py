@@ -2,7 +2,7 @@
 import numpy as np
 from mdao import om
 
-from mdao.components.common import NUM_NODES, analysis_errors
+from mdao.components.common import NUM_NODES, analysis_errors, refuses_unset
 from mdao.components.common import add_parameter_inputs, broadcast, column, diagonal
 from mdao.physics import jet
 
@@ -53,6 +53,7 @@ class JetComp(om.ExplicitComponent):
                               derivatives=derivatives)
 
     @analysis_errors
+    @refuses_unset
     def compute(self, inputs, outputs):
         state = self._physics(inputs)
         for name, value in state._asdict().items():

@@ -9,7 +9,7 @@ aircraft's mass build-up charges.
 import numpy as np
 from mdao import om
 
-from mdao.components.common import NUM_NODES, analysis_errors
+from mdao.components.common import NUM_NODES, analysis_errors, refuses_unset
 from mdao.components.common import add_parameter_inputs, blowing_flags, broadcast, column
 from mdao.parameters import MASS_PARAMETERS
 from mdao.physics import mass as phys
@@ -123,6 +123,7 @@ class BlowingSystemMassComp(om.ExplicitComponent):
                                   inputs["motor_specific_power"][0], derivatives=derivatives)
 
     @analysis_errors
+    @refuses_unset
     def compute(self, inputs, outputs):
         rot = self._rotating(inputs)
         area = self._area(inputs)
