@@ -46,10 +46,11 @@ class BlownWingGroup(om.Group):
 
     def initialize(self):
         declare_chain_options(self.options)
-        self.options.declare("fused", types=bool, default=False,
-                             desc="one ChainComp (the NumPy chain with its derivatives) instead "
-                                  "of one component per discipline: the fast path for large "
-                                  "vectors, any model; same names, values and derivatives")
+        self.options.declare("fused", types=bool, default=True,
+                             desc="one ChainComp (the NumPy chain with its derivatives; the "
+                                  "default) instead of one component per discipline (False): "
+                                  "the fast path, every model and option; the same names, "
+                                  "values and derivatives")
 
     def setup(self):
         o = self.options
@@ -58,6 +59,9 @@ class BlownWingGroup(om.Group):
             raise ValueError("lift_tables: constants tabulated over the lift coefficient are "
                              "evaluated by the fused chain (fused=True, the default); the "
                              "per-discipline group takes one value per constant")
+        if o["per_node"] and not o["fused"]:
+            raise ValueError("per_node: wing-level constants given per node are evaluated by "
+                             "the fused chain (fused=True, the default)")
         if o["sized_fan"] and not o["fused"]:
             raise ValueError("sized_fan: the fan sized across the mission is evaluated by the "
                              "fused chain (fused=True, the default)")

@@ -13,7 +13,7 @@ from mdao import om
 from mdao import parameters as registry
 from mdao.components.common import (HOST_GIVES, HOST_INPUTS, analysis_errors, blowing_flags,
                                     column, declare_chain_options, diagonal, host_air,
-                                    refuses_unset, unset_start)
+                                    per_node_names, refuses_unset, unset_start)
 from mdao.physics import chain
 
 #: Node inputs that are design variables rather than model parameters: example value, units.
@@ -143,8 +143,9 @@ class ChainComp(om.ExplicitComponent):
         if o["sized_fan"]:   # the blowing system's mass from the rated power (issue: sizing)
             params += [p for p in registry.MASS_PARAMETERS
                        if p.used_by(o["duct_model"], o["fan_model"])]
-        self._chain_node = [p.name for p in params if p.per_segment]
-        self._chain_wing = [p.name for p in params if not p.per_segment]
+        per_node = per_node_names(o)
+        self._chain_node = [p.name for p in params if p.per_segment or p.name in per_node]
+        self._chain_wing = [p.name for p in params if p.name not in self._chain_node]
 
         def initial(name, example):
             """An input's value before the host gives it: unset (NaN) for what the host must
@@ -154,7 +155,7 @@ class ChainComp(om.ExplicitComponent):
         probe = {}      # the example values: the derivative pattern is found at them
         for p in params:
             val = np.asarray(p.start_value, float)
-            probe[p.name] = val * np.ones(n) if p.per_segment else np.atleast_1d(val)
+            probe[p.name] = val * np.ones(n) if p.name in self._chain_node else np.atleast_1d(val)
             self.add_input(p.name, val=initial(p.name, probe[p.name]), units=p.unit,
                            desc=p.description)
         if tabled and not o["aircraft"]:    # the lift the tables are read at, per node

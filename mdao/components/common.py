@@ -108,6 +108,41 @@ def unset_message(component, names):
             f"and tests only).")
 
 
+def _per_node_allowed():
+    from mdao.parameters import PARAMETERS
+    return tuple(p.name for p in PARAMETERS if p.lift_table) + (
+        "chain_efficiency", "motor_efficiency", "fan_rated_efficiency", "thrust_power_ceiling")
+
+
+#: Wing-level constants that may be given one value per node (option ``per_node``): the
+#: efficiencies, the share of air power that may return as thrust power, and the constants that
+#: may be tabulated over the lift coefficient. Each acts at its own node only (no wing-level
+#: output, such as the slot height or the fan's size, reads it).
+PER_NODE_ALLOWED = _per_node_allowed()
+
+
+def per_node_names(options):
+    """The ``per_node`` option checked: names of :data:`PER_NODE_ALLOWED` that the chosen models
+    use and that no lift table gives."""
+    from mdao.parameters import chain_parameters
+
+    names = tuple(options["per_node"])
+    wrong = sorted(set(names) - set(PER_NODE_ALLOWED))
+    if wrong:
+        raise ValueError(f"per_node: {wrong} may not vary per node; allowed: "
+                         f"{sorted(PER_NODE_ALLOWED)}")
+    used = {p.name for p in chain_parameters(options["duct_model"], options["fan_model"],
+                                             aircraft=options["aircraft"])}
+    unused = sorted(set(names) - used)
+    if unused:
+        raise ValueError(f"per_node: {unused} are not inputs with duct_model="
+                         f"{options['duct_model']!r} and fan_model={options['fan_model']!r}")
+    tabled = sorted(set(names) & {name for name, _ in options["lift_tables"]})
+    if tabled:
+        raise ValueError(f"per_node: {tabled} already come from lift tables (per node)")
+    return names
+
+
 def _python_int(meta, value):
     """An integer option's value as a Python int (a NumPy integer accepted)."""
     return int(value)
@@ -204,6 +239,10 @@ CHAIN_OPTIONS = {
                         desc="constants tabulated over the section lift coefficient: "
                              "((name, mdao.physics.lift_table.LiftTable), ...); without the "
                              "aircraft the lift coefficient is an input per node"),
+    "per_node": dict(types=tuple, default=(),
+                     desc="wing-level constants given one value per node instead (a host's "
+                          "per-node propeller or motor efficiency): any of PER_NODE_ALLOWED "
+                          "(fused chain)"),
     "blowing": dict(default=None, allow_none=True,
                     desc="does the fan run: one bool for every node, or one per node "
                          "(default: at every node)"),
