@@ -36,12 +36,17 @@ SHARED_INPUTS = ("slot_ratio", "chord", "blown_span", "speed", "fan_diameter")
 class BlownWingGroup(om.Group):
     """Blown wing at ``num_nodes`` operating points: from flight condition to net power saved.
 
-    Inputs (promoted): ``altitude`` [m], ``speed`` [m/s], ``duration`` [s],
-    ``momentum_coefficient`` and ``fan_pressure_rise`` [Pa] per node; the wing-level constants
-    declared in :mod:`mdao.parameters` that the chosen models use. Outputs include
+    Inputs (promoted) per node: ``speed`` [m/s], ``momentum_coefficient``, ``fan_pressure_rise``
+    [Pa] (not with ``follow_requirement``), ``altitude`` [m] (with the ISA; with
+    ``atmosphere="host"`` the air's state instead), ``duration`` [s] (with ``mission_sums``);
+    and the wing-level constants declared in :mod:`mdao.parameters` that the chosen models use.
+    Every input the host must give starts unset and is refused by name at the first evaluation
+    (``examples=True`` starts them at documented examples). Outputs include
     ``required_pressure_rise`` [Pa], ``jet_velocity`` [m/s], ``volume_flow`` [m**3/s],
-    ``fan_shaft_power`` [W], ``section_drag`` [N], ``net_power_saving`` [W], ``energy_saving``
-    [J] per node and ``mission_energy_saving`` [J].
+    ``fan_shaft_power`` [W], ``section_drag`` [N] (the blown span's section drag, not the
+    aircraft's), ``net_power_saving`` [W], and with ``mission_sums`` ``energy_saving`` [J] per
+    node and ``mission_energy_saving`` [J]. docs/embedding.md, section 5, lists every input,
+    output and option.
     """
 
     def initialize(self):

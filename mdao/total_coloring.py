@@ -87,6 +87,22 @@ def total_sparsity(problem):
         reach[src] = reach[src] + seed if src in reach else seed
         start += meta["size"]
     sources = model._conn_global_abs_in2out
+    shapes = {name: meta["shape"] for name, meta in model._var_allprocs_abs2meta["output"].items()}
+    graph = model.get_conn_graph()
+    taken = {}      # input -> its source's pattern, through the input's src_indices if any
+
+    def _input_reach(abs_in, src):
+        if abs_in not in taken:
+            picks = graph.nodes[("i", abs_in)]["attrs"].src_inds_list
+            if picks:   # a host's input that takes some entries of its source (Dymos does)
+                flat = np.arange(sizes[src]).reshape(shapes[src])
+                for pick in picks:
+                    flat = pick.indexed_val(flat)
+                taken[abs_in] = reach[src][np.asarray(flat).ravel()]
+            else:
+                taken[abs_in] = reach[src]
+        return taken[abs_in]
+
     for comp in model.system_iter(recurse=True, typ=Component):
         if not isinstance(comp, ExplicitComponent):
             raise NotImplementedError(f"{comp.pathname}: total coloring from the declared "
@@ -99,7 +115,7 @@ def total_sparsity(problem):
             src = sources.get(wrt)
             if src not in reach:
                 continue
-            part = _pattern(info) @ reach[src]
+            part = _pattern(info) @ _input_reach(wrt, src)
             reach[of] = reach[of] + part if of in reach else part
 
     blocks = []

@@ -394,3 +394,23 @@ def test_host_atmosphere_partials():
     air = isa(np.array([100.0, 900.0, 2000.0, 3100.0]))
     inputs.update(density=air.density, speed_of_sound=air.speed_of_sound)
     assert_partials(ChainComp(num_nodes=4, examples=True, atmosphere="host"), inputs)
+
+
+def test_options_table_lists_every_option_with_its_default():
+    """docs/embedding.md's table of options names every option of the group that OpenMDAO's
+    own groups do not have, with the default the group declares."""
+    import ast
+    from pathlib import Path
+    text = (Path(__file__).resolve().parents[1] / "docs" / "embedding.md").read_text()
+    table = text.split("### The options", 1)[1].split("\n### ", 1)[0]
+    said = {}
+    for line in table.splitlines():
+        cells = [c.strip() for c in line.strip().strip("|").split("|")]
+        if len(cells) == 3 and cells[0].startswith("`"):
+            for name in cells[0].split(","):
+                said[name.strip().strip("`")] = cells[1]
+    group = BlownWingGroup()
+    own = set(group.options) - set(om.Group().options)
+    assert set(said) == own, (sorted(own - set(said)), sorted(set(said) - own))
+    for name, default in said.items():
+        assert ast.literal_eval(default) == group.options[name], name

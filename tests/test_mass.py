@@ -107,7 +107,7 @@ def test_bad_input(call, match):
 
 def test_component_alone_with_defaults():
     prob = om.Problem(reports=False)
-    prob.model.add_subsystem("c", BlowingSystemMassComp(), promotes=["*"])
+    prob.model.add_subsystem("c", BlowingSystemMassComp(examples=True), promotes=["*"])
     prob.setup()
     prob.run_model()
     # 500 W (1/2500 + 1/5000) + 1.2 kg/m2 * 1.5 * 0.5 m * 1 m, times 1.2
@@ -142,8 +142,8 @@ def test_partials_geometric():
 
 def test_headroom_ignores_nodes_without_blowing():
     prob = om.Problem(reports=False)
-    prob.model.add_subsystem("c", BlowingSystemMassComp(num_nodes=3, blowing=[True, False, True]),
-                             promotes=["*"])
+    prob.model.add_subsystem("c", BlowingSystemMassComp(num_nodes=3, blowing=[True, False, True],
+                                                        examples=True), promotes=["*"])
     prob.setup()
     prob.set_val("fan_shaft_power", [100.0, 5000.0, 300.0])
     prob.set_val("rated_shaft_power", 400.0)
@@ -235,3 +235,21 @@ def test_beside_geometric_group_totals():
     data = central_totals(prob, step=1e-6)
     assert_totals(data, atol=1e-8, rtol=1e-7)
     assert worst_relative(data) < 1e-8
+
+
+def test_rating_and_planform_left_unset_are_refused():
+    """Beside a host's group the rating (a design variable) and the planform must be given:
+    the component alone refuses them by name instead of flying 500 W on a 0.5 m x 1 m span."""
+    from mdao.components.common import UnsetInputError
+    prob = om.Problem(reports=False)
+    prob.model.add_subsystem("c", BlowingSystemMassComp(num_nodes=2), promotes=["*"])
+    prob.setup()
+    with pytest.raises(UnsetInputError) as err:
+        prob.run_model()
+    for name in ("rated_shaft_power [W]", "chord [m]", "blown_span [m]"):
+        assert f"  {name}" in str(err.value)
+    prob.set_val("rated_shaft_power", 500.0)
+    prob.set_val("chord", 0.5)
+    prob.set_val("blown_span", 1.0)
+    prob.run_model()
+    assert prob.get_val("blowing_system_mass")[0] == pytest.approx(1.2 * (0.3 + 0.9), rel=1e-14)

@@ -186,3 +186,25 @@ def test_totals_check_compares_every_pair():
     data = prob.check_totals(out_stream=None, method="fd")
     with pytest.raises(AssertionError, match=r"\(z, x\)"):
         assert_totals(data, atol=1e-6, rtol=1e-6)
+
+
+def test_a_dymos_host_is_colored_through_its_src_indices():
+    """In a Dymos phase the ODE's inputs take some entries of their sources (src_indices): the
+    pattern follows them, covers every nonzero of the true total Jacobian, and the colored
+    gradient equals the uncolored one. (Before, the pattern's product failed on the differing
+    sizes: "matmul: dimension mismatch".)"""
+    pytest.importorskip("dymos")
+    from examples import load_example
+    tr = load_example("trajectory")
+    prob = tr.build(blown=True)
+    prob.run_model()
+    plain = _uncolored(prob)
+    pattern, _, _ = total_sparsity(prob)
+    dense = pattern.toarray()
+    assert dense.shape == plain.shape
+    assert not np.any((plain != 0) & ~dense)
+    assert dense.sum() < 0.2 * dense.size
+    coloring = color_totals(prob)
+    assert coloring is not None and coloring.total_solves() < plain.shape[1] // 3
+    colored = prob.driver._compute_totals(return_format="array")
+    np.testing.assert_allclose(colored, plain, rtol=0, atol=1e-12 * np.abs(plain).max())

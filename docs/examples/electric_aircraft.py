@@ -366,7 +366,9 @@ def _set_values(prob, blown):
         for name, (value, units) in MASS.items():
             prob.set_val(name, value, units=units)
         # start: mid-range blowing, the fan at the pressure rise it requires, rated for it
+        # (a first rating for the first run, then 1.5 times the largest shaft power)
         prob.set_val("momentum_coefficient", np.full(len(SEGMENTS["name"]), 0.05))
+        prob.set_val("rated_shaft_power", 1000.0, units="W")
         prob.run_model()
         prob.set_val("fan_pressure_rise", np.clip(prob.get_val("required_pressure_rise", units="Pa"),
                                                   *PRESSURE_RISE_BOUNDS), units="Pa")

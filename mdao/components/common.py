@@ -95,7 +95,7 @@ def unset_meaning(name):
 def unset_message(component, names):
     """The error text of unset inputs: each one's name, meaning and unit, and how to give
     them."""
-    group = component.pathname.rsplit(".", 1)[0] if "." in component.pathname else "<group>"
+    path = component.pathname.rsplit(".", 1)[0] + "." if "." in component.pathname else ""
     lines = []
     for name in names:
         unit, what = unset_meaning(name)
@@ -103,9 +103,11 @@ def unset_message(component, names):
     return (f"{len(names)} input(s) of {component.pathname or 'the component'} were never "
             f"given (they hold NaN); the host must give each one:\n" + "\n".join(lines)
             + f"\nConnect each to an output of the host model, or set it after setup, e.g. "
-            f"prob.set_val('{group}.{names[0]}', value, units=...). The option examples=True "
-            f"starts every such input at a documented example value instead (demonstrations "
-            f"and tests only).")
+            f"prob.set_val('{path}{names[0]}', value, units=...) (the name as promoted; in a "
+            f"Dymos ODE a wing-level constant is a phase parameter: phase.add_parameter(name, "
+            f"val=..., opt=False, static_target=True)). The option examples=True starts every "
+            f"such input at a documented example value instead (demonstrations and tests "
+            f"only).")
 
 
 def _per_node_allowed():
@@ -186,10 +188,11 @@ def blowing_flags(flags, n):
     return flags
 
 
-def add_parameter_inputs(component, names, num_nodes=1):
+def add_parameter_inputs(component, names, num_nodes=1, examples=True):
     """Add the inputs of declared model parameters (:mod:`mdao.parameters`) to a component:
     the declared unit, start value and description; per-segment parameters get one value per
-    node. One declaration serves every component, so defaults cannot disagree."""
+    node. One declaration serves every component, so defaults cannot disagree. With
+    ``examples=False`` an input the host must give (:data:`HOST_GIVES`) starts unset (NaN)."""
     from mdao.parameters import BY_NAME
 
     for name in names:
@@ -197,6 +200,8 @@ def add_parameter_inputs(component, names, num_nodes=1):
         value = np.asarray(p.start_value, float)
         if p.per_segment:
             value = value * np.ones(num_nodes)
+        if name in HOST_GIVES:
+            value = unset_start(value, examples)
         component.add_input(name, val=value, units=p.unit, desc=p.description)
 
 

@@ -9,7 +9,8 @@ aircraft's mass build-up charges.
 import numpy as np
 from mdao import om
 
-from mdao.components.common import NUM_NODES, analysis_errors, refuses_unset
+from mdao.components.common import (HOST_GIVES, NUM_NODES, analysis_errors, refuses_unset,
+                                    unset_start)
 from mdao.components.common import add_parameter_inputs, blowing_flags, broadcast, column
 from mdao.parameters import MASS_PARAMETERS
 from mdao.physics import mass as phys
@@ -53,18 +54,26 @@ class BlowingSystemMassComp(om.ExplicitComponent):
         self.options.declare("blowing", default=None, allow_none=True,
                              desc="does the fan run: one bool for every node, or one per node "
                                   "(default: at every node)")
+        self.options.declare("examples", types=bool, default=False,
+                             desc="start rated_shaft_power, chord and blown_span at example "
+                                  "values instead of unset (NaN, refused by name at the first "
+                                  "evaluation): demonstrations and tests only")
 
     def _blowing(self):
         return blowing_flags(self.options["blowing"], self.options["num_nodes"])
 
     def setup(self):
         n = self.options["num_nodes"]
+        examples = self.options["examples"]
         for name, units, value, desc in _HOST_INPUTS:
+            if name in HOST_GIVES:
+                value = unset_start(value, examples)
             self.add_input(name, val=value, units=units, desc=desc)
         add_parameter_inputs(self, _MASS_INPUTS)
         self.add_input("fan_shaft_power", val=np.zeros(n), units="W", desc="fan shaft power per node")
         if self.options["duct_model"] == "lumped":
-            add_parameter_inputs(self, ("chord", "blown_span", "duct_wetted_ratio"))
+            add_parameter_inputs(self, ("chord", "blown_span", "duct_wetted_ratio"),
+                                 examples=examples)
         else:
             m = self.options["stations"]
             self.add_input("station_position", val=np.linspace(0.0, 0.3, m), units="m",

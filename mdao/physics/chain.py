@@ -76,6 +76,14 @@ class ChainOptions:
     #: host's own atmosphere model; no ``altitude``).
     atmosphere: str = "isa"
 
+    def __post_init__(self):
+        if self.sized_fan and not self.aircraft:
+            raise ValueError("sized_fan: the fan sized across the mission needs the aircraft "
+                             "around the wing (aircraft=True): the blowing system's weight "
+                             "costs main thrust through the aircraft's lift and drag. Without "
+                             "the aircraft, size the fans beside the group with "
+                             "mdao.components.mass.add_blowing_system_mass")
+
     def tabled(self, params=()):
         """Names of the constants this chain takes from lift tables (those not in ``params``)."""
         return tuple(name for name, _ in self.lift_tables if name not in params)
