@@ -64,6 +64,9 @@ class BlownWingGroup(om.Group):
             raise ValueError("lift_tables: constants tabulated over the lift coefficient are "
                              "evaluated by the fused chain (fused=True, the default); the "
                              "per-discipline group takes one value per constant")
+        if o["outputs"] is not None and not o["fused"]:
+            raise ValueError("outputs: a chosen set of outputs is declared by the fused chain "
+                             "(fused=True, the default)")
         if o["per_node"] and not o["fused"]:
             raise ValueError("per_node: wing-level constants given per node are evaluated by "
                              "the fused chain (fused=True, the default)")

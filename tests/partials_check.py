@@ -100,7 +100,8 @@ def assert_partials(comp, inputs=None, rtol=1e-6, atol=1e-10, skip_outputs=()):
 WING = {"slot_ratio": 0.01, "chord": 0.4, "blown_span": 2.8, "jet_loss_factor": 1.25,
         "freestream_assist": 0.9, "fan_rated_efficiency": 0.7, "drag_clean": 0.012,
         "drag_per_momentum": -1.3, "slot_drag": 0.006, "slot_drag_per_ratio": 0.5,
-        "drag_per_momentum_per_ratio": 30.0, "drag_quadratic": 0.4, "lift_per_momentum": 3.0}
+        "drag_per_momentum_per_ratio": 30.0, "drag_quadratic": 0.4, "lift_per_momentum": 3.0,
+        "motor_efficiency": 0.9, "chain_efficiency": 0.8}
 #: The aircraft around it (four nodes; rates of climb away from zero, where a relative step is
 #: all round-off).
 AIRCRAFT = {"aircraft_mass": 21.0, "wing_area": 1.4, "zero_lift_drag": 0.03,

@@ -67,7 +67,7 @@ def test_a_hosts_per_node_propeller_efficiency_connects_with_exact_totals():
     """The friction case: a host computes its propeller efficiency per node and connects it;
     the totals across the boundary match central differences in every pair."""
     n = 4
-    inputs = chain_inputs(13, motor_efficiency=0.9)
+    inputs = chain_inputs(13)
     prob = om.Problem(reports=False)
     host = prob.model.add_subsystem("host", om.ExecComp(
         "eta = 0.85 - 0.002 * (v - 30.0)**2 / 30.0", eta={"shape": n}, v={"shape": n,

@@ -189,21 +189,35 @@ class ChainComp(om.ExplicitComponent):
         if unknown:     # a new output of the chain needs its unit here
             raise RuntimeError(f"ChainComp: no unit declared for {sorted(unknown)}")
         self._chain_outputs = [k for k in OUTPUT_UNITS if k in out and k not in probe]
+        wanted = self._declared_outputs(o)
+        self._set_declared_totals(wanted)
+        self._chain_outputs = [k for k in self._chain_outputs if k in wanted]
         for name in self._chain_outputs:
             shape = np.shape(out[name]) if name in WING_OUTPUTS else (n,)
             self.add_output(name, val=np.ones(shape), units=OUTPUT_UNITS[name],
                             desc=OUTPUT_MEANINGS[name])
-        self._chain_stations = o["duct_model"] == "geometric"
+        self._chain_stations = (o["duct_model"] == "geometric"
+                                and any(name in wanted for name in STATION_OUTPUTS))
         if self._chain_stations:
             for name, (field, units) in STATION_OUTPUTS.items():
                 self.add_output(name, val=np.ones(o["stations"]), units=units,
                                 desc=OUTPUT_MEANINGS[name])
-        if o["mission_sums"]:
-            self.add_output("mission_energy_saving", val=0.0, units="J",
-                            desc=OUTPUT_MEANINGS["mission_energy_saving"])
-        if o["aircraft"] and o["mission_sums"]:
-            self.add_output("mission_clean_energy", val=0.0, units="J",
-                            desc=OUTPUT_MEANINGS["mission_clean_energy"])
+        for total in self._mission_totals():
+            self.add_output(total, val=0.0, units="J", desc=OUTPUT_MEANINGS[total])
+
+    def _declared_outputs(self, o):
+        """The ``outputs`` option checked against the chain's outputs for these models: the
+        set to declare (every one by default)."""
+        everything = set(self._chain_outputs) | set(self._all_mission_totals())
+        if o["duct_model"] == "geometric":
+            everything |= set(STATION_OUTPUTS)
+        if o["outputs"] is None:
+            return everything
+        unknown = sorted(set(o["outputs"]) - everything)
+        if unknown:
+            raise ValueError(f"outputs: {unknown} are not outputs of this chain; allowed: "
+                             f"{sorted(everything)}")
+        return set(o["outputs"])
 
     def _params(self, inputs):
         return {k: inputs[k] for k in self._chain_node + self._chain_wing}
@@ -277,14 +291,22 @@ class ChainComp(om.ExplicitComponent):
                 else:
                     self.declare_partials(total, wrt)
 
-    def _mission_totals(self):
-        """Wing-level sums over the segments: ``{sum: per-segment output}``."""
+    def _all_mission_totals(self):
+        """Wing-level sums over the segments these options give: ``{sum: per-node output}``."""
         if not self.options["mission_sums"]:
             return {}
         totals = {"mission_energy_saving": "energy_saving"}
         if self.options["aircraft"]:
             totals["mission_clean_energy"] = "clean_source_energy"
         return totals
+
+    def _mission_totals(self):
+        """The declared wing-level sums (option ``outputs``): ``{sum: per-node output}``."""
+        return self._declared_totals
+
+    def _set_declared_totals(self, wanted):
+        self._declared_totals = {k: v for k, v in self._all_mission_totals().items()
+                                 if k in wanted}
 
     @analysis_errors
     @refuses_unset

@@ -262,6 +262,9 @@ CHAIN_OPTIONS = {
                               "aircraft, clean_source_energy, mission_clean_energy); False "
                               "inside an ODE, where the host integrates the powers: no "
                               "duration input, no energy output"),
+    "outputs": dict(types=tuple, default=None, allow_none=True,
+                    desc="fused chain: the outputs declared (default every one); a host that "
+                         "reads a few of them on many nodes keeps OpenMDAO's vectors small"),
     "partials_of": dict(types=tuple, default=None, allow_none=True,
                         desc="fused chain: the outputs whose partials are declared (default "
                              "every output); set to what a problem differentiates (its "
