@@ -83,19 +83,21 @@ class BlownWingGroup(om.Group):
             return
         if o["atmosphere"] == "isa":    # else the host's air: inputs of the components
             self.add_subsystem("atmosphere", AtmosphereComp(num_nodes=n), promotes=["*"])
-        self.add_subsystem("jet", JetComp(num_nodes=n), promotes=["*"])
+        self.add_subsystem("jet", JetComp(num_nodes=n, blowing=o["blowing"]), promotes=["*"])
         if o["duct_model"] == "geometric":
             self.add_subsystem("transition", TransitionComp(
                 num_nodes=n, fans=o["fans"], stations=o["stations"], schedule=o["schedule"]),
                 promotes=["*"])
-        self.add_subsystem("duct", DuctLossComp(num_nodes=n, duct_model=o["duct_model"], fans=o["fans"],
-                                                stations=o["stations"]), promotes=["*"])
+        self.add_subsystem("duct", DuctLossComp(num_nodes=n, duct_model=o["duct_model"],
+                                                fans=o["fans"], stations=o["stations"],
+                                                blowing=o["blowing"]), promotes=["*"])
         fan = FanComp(num_nodes=n, fan_model=o["fan_model"], fans=o["fans"],
-                      compressible=o["compressible"])
+                      compressible=o["compressible"], blowing=o["blowing"])
         self.add_subsystem("fan", fan, promotes=["*"])
         if o["follow_requirement"]:     # the fan gives what the duct requires: no free input
             self.connect("required_pressure_rise", "fan_pressure_rise")
-        self.add_subsystem("airfoil", AirfoilComp(num_nodes=n), promotes=["*"])
+        self.add_subsystem("airfoil", AirfoilComp(num_nodes=n, blowing=o["blowing"]),
+                           promotes=["*"])
         self.add_subsystem("power", SegmentPowerComp(num_nodes=n, blowing=o["blowing"],
                                                      mission_sums=o["mission_sums"]),
                            promotes=["*"])

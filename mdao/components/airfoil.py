@@ -3,7 +3,8 @@
 import numpy as np
 from mdao import om
 
-from mdao.components.common import NUM_NODES, analysis_errors, refuses_unset
+from mdao.components.common import (BLOWING_OPTION, NUM_NODES, analysis_errors, jet_momentum,
+                                    refuses_unset)
 from mdao.components.common import add_parameter_inputs
 from mdao.physics import airfoil as phys
 
@@ -29,6 +30,7 @@ class AirfoilComp(om.ExplicitComponent):
 
     def initialize(self):
         self.options.declare('num_nodes', **NUM_NODES, desc='operating points')
+        self.options.declare('blowing', **BLOWING_OPTION)
 
     def setup(self):
         n = self.options['num_nodes']
@@ -63,7 +65,7 @@ class AirfoilComp(om.ExplicitComponent):
         that the saving does not depend on it even by rounding."""
         args = {k: inputs[k][0] for k in _CONSTANTS}
         args['drag_clean'] = 0.0
-        return phys.drag_coefficient(inputs['momentum_coefficient'], **args,
+        return phys.drag_coefficient(jet_momentum(self, inputs)[0], **args,
                                      derivatives=derivatives)
 
     @analysis_errors
@@ -78,12 +80,15 @@ class AirfoilComp(om.ExplicitComponent):
         np.multiply(area_q, cd0, out=outputs['clean_section_drag'])
         saving = np.multiply(area_q, dcd, out=outputs['drag_saving'])
         np.negative(saving, out=saving)
-        outputs['lift_increment'] = phys.lift_increment(inputs['momentum_coefficient'],
+        outputs['lift_increment'] = phys.lift_increment(jet_momentum(self, inputs)[0],
                                                         inputs['lift_per_momentum'][0])
 
     @analysis_errors
     def compute_partials(self, inputs, partials):
         inc, dinc = self._increment(inputs, derivatives=True)
+        cmu, gate = jet_momentum(self, inputs)
+        if 'momentum_coefficient' in dinc:      # no jet where the fan does not run
+            dinc['momentum_coefficient'] = dinc['momentum_coefficient'] * gate
         q, c, b = inputs['dynamic_pressure'], inputs['chord'][0], inputs['blown_span'][0]
         cd0 = inputs['drag_clean'][0]
         area_q = q * c * b
@@ -98,5 +103,5 @@ class AirfoilComp(om.ExplicitComponent):
             partials[of, 'blown_span'] = q * c * coef
         partials['clean_section_drag', 'drag_clean'] = area_q
         partials['lift_increment', 'momentum_coefficient'] = (
-            inputs['lift_per_momentum'][0] * np.ones_like(q))
-        partials['lift_increment', 'lift_per_momentum'] = inputs['momentum_coefficient']
+            inputs['lift_per_momentum'][0] * np.ones_like(q) * gate)
+        partials['lift_increment', 'lift_per_momentum'] = cmu

@@ -73,11 +73,42 @@ def refuses_unset(compute):
     @functools.wraps(compute)
     def checked(self, inputs, outputs, *args, **kwargs):
         unset = sorted(name for name in HOST_GIVES.intersection(inputs.keys())
-                       if np.isnan(inputs[name]).any())
+                       if np.isnan(_where_used(self, name, inputs[name])).any())
         if unset:
             raise UnsetInputError(unset_message(self, unset))
         return compute(self, inputs, outputs, *args, **kwargs)
     return checked
+
+
+def _where_used(component, name, value):
+    """An input's values where the component uses them: the momentum coefficient only at the
+    nodes whose fan runs (option ``blowing``; elsewhere the jet is off whatever it holds)."""
+    if (name != "momentum_coefficient" or "blowing" not in component.options
+            or component.options["blowing"] is None):
+        return value
+    return value[blowing_flags(component.options["blowing"], value.shape[0])]
+
+
+def jet_momentum(component, inputs):
+    """The momentum coefficient the jet blows at each node and its derivative with respect to
+    the input: the input where the fan runs, 0 where it does not (option ``blowing``: a node
+    whose fan is off has no jet, whatever momentum coefficient the host gives it). Returns
+    ``(C_mu, factor)``, the factor 1.0 when every fan runs, else 1 or 0 per node."""
+    cmu = inputs["momentum_coefficient"]
+    blowing = component.options["blowing"]
+    if blowing is None:
+        return cmu, 1.0
+    flags = blowing_flags(blowing, component.options["num_nodes"])
+    if flags.all():
+        return cmu, 1.0
+    return np.where(flags, cmu, 0.0), flags.astype(float)
+
+
+#: The ``blowing`` option of a component that reads the momentum coefficient.
+BLOWING_OPTION = dict(default=None, allow_none=True,
+                      desc="does the fan run: one bool for every node, or one per node "
+                           "(default: at every node); where it does not, the jet is off and "
+                           "the momentum coefficient is taken as 0")
 
 
 def unset_meaning(name):
@@ -248,9 +279,7 @@ CHAIN_OPTIONS = {
                      desc="wing-level constants given one value per node instead (a host's "
                           "per-node propeller or motor efficiency): any of PER_NODE_ALLOWED "
                           "(fused chain)"),
-    "blowing": dict(default=None, allow_none=True,
-                    desc="does the fan run: one bool for every node, or one per node "
-                         "(default: at every node)"),
+    "blowing": BLOWING_OPTION,
     "atmosphere": dict(default="isa", values=("isa", "host"),
                        desc="isa: the standard atmosphere at the input altitude; host: the "
                             "air's temperature, pressure, density, speed_of_sound and "

@@ -6,7 +6,8 @@ each node from the transition stations, friction and form losses.
 import numpy as np
 from mdao import om
 
-from mdao.components.common import NUM_NODES, analysis_errors, refuses_unset
+from mdao.components.common import (BLOWING_OPTION, NUM_NODES, analysis_errors, jet_momentum,
+                                    refuses_unset)
 from mdao.components.common import add_parameter_inputs, broadcast, column, diagonal, full
 from mdao.physics import duct, jet
 
@@ -24,6 +25,7 @@ class DuctLossComp(om.ExplicitComponent):
 
     def initialize(self):
         self.options.declare("num_nodes", **NUM_NODES, desc="operating points")
+        self.options.declare("blowing", **BLOWING_OPTION)
         self.options.declare("duct_model", default="lumped", values=("lumped", "geometric"),
                              desc="lumped: K_j given; geometric: K_j from the duct's geometry")
         self.options.declare("fans", types=int, default=1, lower=1, desc="number of fans")
@@ -91,7 +93,7 @@ class DuctLossComp(om.ExplicitComponent):
         else:
             kj = self._loss_factor(inputs)
             outputs["jet_loss_factor"] = kj
-        head = jet.jet_dynamic_head(inputs["momentum_coefficient"], inputs["slot_ratio"],
+        head = jet.jet_dynamic_head(jet_momentum(self, inputs)[0], inputs["slot_ratio"],
                                     inputs["dynamic_pressure"])
         outputs["required_pressure_rise"] = duct.required_pressure_rise_from_head(
             kj, inputs["freestream_assist"], head, inputs["dynamic_pressure"])
@@ -102,12 +104,14 @@ class DuctLossComp(om.ExplicitComponent):
         of = "required_pressure_rise"
         lumped = self.options["duct_model"] == "lumped"
         kj, dk = (inputs["jet_loss_factor"], None) if lumped else self._loss_factor(inputs, True)
-        head, dh = jet.jet_dynamic_head(inputs["momentum_coefficient"], inputs["slot_ratio"],
-                                        inputs["dynamic_pressure"], derivatives=True)
+        cmu, gate = jet_momentum(self, inputs)
+        head, dh = jet.jet_dynamic_head(cmu, inputs["slot_ratio"], inputs["dynamic_pressure"],
+                                        derivatives=True)
         _, d = duct.required_pressure_rise_from_head(kj, inputs["freestream_assist"], head,
                                                      inputs["dynamic_pressure"], derivatives=True)
         along = broadcast(d["jet_head"], n)           # d(required)/d(head) = K_j
-        partials[of, "momentum_coefficient"] = along * broadcast(dh["momentum_coefficient"], n)
+        partials[of, "momentum_coefficient"] = (along * broadcast(dh["momentum_coefficient"], n)
+                                                * gate)
         partials[of, "dynamic_pressure"] = (broadcast(d["dynamic_pressure"], n)
                                             + along * broadcast(dh["dynamic_pressure"], n))
         partials[of, "freestream_assist"] = broadcast(d["freestream_assist"], n)

@@ -2,7 +2,8 @@
 import numpy as np
 from mdao import om
 
-from mdao.components.common import NUM_NODES, analysis_errors, refuses_unset
+from mdao.components.common import (BLOWING_OPTION, NUM_NODES, analysis_errors, blowing_flags,
+                                    refuses_unset)
 from mdao.components.common import add_parameter_inputs
 from mdao.physics import fan as phys
 
@@ -44,6 +45,14 @@ class FanComp(om.ExplicitComponent):
                              desc='number of identical fans sharing the flow')
         self.options.declare('compressible', types=bool, default=False,
                              desc='isentropic compression power instead of Q dp / eta')
+        self.options.declare('blowing', **BLOWING_OPTION)
+
+    def _stopped(self):
+        """Nodes where the map fan is stopped (option ``blowing`` False), or None."""
+        if self.options['fan_model'] != 'map' or self.options['blowing'] is None:
+            return None
+        off = ~blowing_flags(self.options['blowing'], self.options['num_nodes'])
+        return off if off.any() else None
 
     def setup(self):
         n = self.options['num_nodes']
@@ -194,6 +203,10 @@ class FanComp(om.ExplicitComponent):
             outputs['pressure_coefficient'] = phys.pressure_coefficient(dp, rho, speed, d)
             outputs['tip_mach'] = phys.tip_mach(speed, d, inputs['speed_of_sound'])
         outputs['fan_efficiency'] = eta
+        off = self._stopped()
+        if off is not None:     # a fan that does not run is stopped: no point on its map
+            for name in STOPPED:
+                outputs[name][off] = 0.0
         if self.options['compressible']:
             mdot, p, t = rho * q, inputs['pressure'], inputs['temperature']
             outputs['fan_shaft_power'] = phys.shaft_power_isentropic(mdot, dp, p, t, eta)
@@ -205,9 +218,17 @@ class FanComp(om.ExplicitComponent):
     @analysis_errors
     def compute_partials(self, inputs, partials):
         _, jac = self._evaluate(inputs)
+        off = self._stopped()
         for of, row in jac.items():
             for wrt, value in row.items():
+                if off is not None and of in STOPPED:
+                    value = np.array(np.broadcast_to(value, np.shape(value)), float)
+                    value[off] = 0.0
                 partials[of, wrt] = value.ravel()
+
+
+#: The map fan's operating point, 0 where the fan does not run.
+STOPPED = ('fan_speed', 'flow_coefficient', 'pressure_coefficient', 'tip_mach', 'fan_efficiency')
 
 
 def _chain(d_mid, df_dmid, direct):

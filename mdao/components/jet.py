@@ -2,8 +2,9 @@
 import numpy as np
 from mdao import om
 
-from mdao.components.common import NUM_NODES, analysis_errors, refuses_unset
-from mdao.components.common import add_parameter_inputs, broadcast, column, diagonal
+from mdao.components.common import (BLOWING_OPTION, NUM_NODES, add_parameter_inputs,
+                                    analysis_errors, broadcast, column, diagonal, jet_momentum,
+                                    refuses_unset)
 from mdao.physics import jet
 
 NODE_INPUTS = ("momentum_coefficient", "speed", "density", "speed_of_sound")
@@ -17,6 +18,7 @@ class JetComp(om.ExplicitComponent):
 
     def initialize(self):
         self.options.declare("num_nodes", **NUM_NODES, desc="operating points")
+        self.options.declare("blowing", **BLOWING_OPTION)
 
     def setup(self):
         n = self.options["num_nodes"]
@@ -47,7 +49,8 @@ class JetComp(om.ExplicitComponent):
             self._pairs.append((of, wrt))
 
     def _physics(self, inputs, derivatives=False):
-        return jet.kinematics(inputs["momentum_coefficient"], inputs["slot_ratio"][0],
+        cmu, _ = jet_momentum(self, inputs)
+        return jet.kinematics(cmu, inputs["slot_ratio"][0],
                               inputs["speed"], inputs["density"], inputs["chord"][0],
                               inputs["blown_span"][0], inputs["speed_of_sound"],
                               derivatives=derivatives)
@@ -63,8 +66,11 @@ class JetComp(om.ExplicitComponent):
     def compute_partials(self, inputs, partials):
         n = self.options["num_nodes"]
         _, d = self._physics(inputs, derivatives=True)
+        _, gate = jet_momentum(self, inputs)
         for of, wrt in self._pairs:
             partials[of, wrt] = d[of, wrt] if of == "slot_height" else broadcast(d[of, wrt], n)
+            if wrt == "momentum_coefficient":
+                partials[of, wrt] *= gate
 
 
 def _dependencies():

@@ -189,10 +189,17 @@ def _evaluate(params, options, blowing, d, outputs, wrt):
     p = with_defaults(params, options)
     out = {}
     tan = {}
+    # A node whose fan does not run has no jet, whatever momentum coefficient it is given: the
+    # chain blows C_mu = 0 there, and the tangent with respect to the input is 0 there.
+    on = np.asarray(blowing, bool)
+    seed = {}
+    if "momentum_coefficient" in p and not on.all():
+        p = dict(p, momentum_coefficient=np.where(on, p["momentum_coefficient"], 0.0))
+        seed["momentum_coefficient"] = on.astype(float)
     if d:
         for name in p:
             if wrt is None or name in wrt:
-                tan[name] = {name: 1.0}
+                tan[name] = {name: seed.get(name, 1.0)}
         if wrt is None or "pressure_coefficients" in wrt:
             for root in _COEFFICIENTS:
                 tan[root] = {root: 1.0}
@@ -279,6 +286,8 @@ def _evaluate(params, options, blowing, d, outputs, wrt):
             tan["fan_efficiency"] = _chain({"fan_rated_efficiency": 1.0}, tan)
     else:
         eta = eta_shaft = _fan_map(p, options, atm, js, dp, out, tan if d else None)
+        if not on.all():    # a fan that does not run is stopped: no operating point on its map
+            eta = eta_shaft = _stopped(on, eta, out, tan if d else None)
     out["fan_efficiency"] = eta
     if options.compressible:
         res = fan.shaft_power_isentropic(js.mass_flow, dp, atm.pressure, atm.temperature, 1.0,
@@ -717,6 +726,24 @@ def _fan_map(p, options, atm, js, dp, out, tan):
     _step(tan, "tip_mach", res_tip, True,
           {"speed": "fan_speed", "diameter": "fan_diameter", "speed_of_sound": "speed_of_sound"})
     return _step(tan, "fan_efficiency", res_eta, True)
+
+
+#: The map fan's operating point, 0 where the fan is stopped (a fan-off node).
+_MAP_POINT = ("fan_speed", "flow_coefficient", "pressure_coefficient", "tip_mach",
+              "fan_efficiency")
+
+
+def _stopped(on, eta, out, tan):
+    """The map fan's operating point (``out``, ``tan`` and the efficiency ``eta``, returned)
+    zeroed where the fan does not run (``on`` False): speed, coefficients, tip Mach number and
+    efficiency 0 and their partials 0, where the map has no operating point at zero flow and
+    zero pressure rise (the values would be 0/0)."""
+    for name in _MAP_POINT[:-1]:
+        out[name] = np.where(on, out[name], 0.0)
+    if tan is not None:
+        for name in _MAP_POINT:
+            tan[name] = {k: np.where(on, v, 0.0) for k, v in tan[name].items()}
+    return np.where(on, eta, 0.0)
 
 
 def _airfoil_tangents(p, q, area, cd, inc, dinc, tan):
