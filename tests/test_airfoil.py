@@ -65,7 +65,7 @@ def _random_inputs(rng, n):
             'dynamic_pressure': rng.uniform(200, 3000, n),
             'slot_ratio': rng.uniform(0.003, 0.03), 'chord': rng.uniform(0.3, 1.5),
             'blown_span': rng.uniform(0.5, 5.0), 'drag_clean': rng.uniform(0.008, 0.02),
-            'slot_drag': rng.uniform(0.0, 0.05), 'slot_drag_per_ratio': rng.uniform(-1, 1),
+            'slot_drag': rng.uniform(0.0, 0.05), 'slot_drag_per_ratio': rng.uniform(0, 1),
             'drag_per_momentum': rng.uniform(-2, -0.5), 'drag_per_momentum_per_ratio': rng.uniform(-10, 10),
             'drag_quadratic': rng.uniform(0, 3), 'lift_per_momentum': rng.uniform(0, 8)}
 

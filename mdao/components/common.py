@@ -69,15 +69,57 @@ def unset_start(value, examples):
 def refuses_unset(compute):
     """Decorate a component's ``compute``: an input of :data:`HOST_GIVES` that holds NaN (the
     group's unset start value: nobody connected or set it) raises :class:`UnsetInputError`
-    naming it, its meaning and unit, and how to give it. 14 microseconds per 1e5-node input."""
+    naming it, its meaning and unit, and how to give it (14 microseconds per 1e5-node input);
+    a model parameter outside its declared range (:mod:`mdao.parameters`, the ranges a case
+    file is held to) raises a ``ValueError`` naming it, the value and the range, which
+    :func:`analysis_errors` turns into an ``AnalysisError`` a solver's line search can back
+    off from."""
     @functools.wraps(compute)
     def checked(self, inputs, outputs, *args, **kwargs):
-        unset = sorted(name for name in HOST_GIVES.intersection(inputs.keys())
-                       if np.isnan(_where_used(self, name, inputs[name])).any())
+        names = inputs.keys()
+        given = [name for name in names if name in HOST_GIVES or name in RANGES]
+        unset = sorted(name for name in given if name in HOST_GIVES
+                       and np.isnan(_where_used(self, name, inputs[name])).any())
         if unset:
             raise UnsetInputError(unset_message(self, unset))
+        for name in given:
+            if name in RANGES:
+                _within(name, inputs[name], RANGES[name])
         return compute(self, inputs, outputs, *args, **kwargs)
     return checked
+
+
+def _ranges():
+    from mdao.parameters import PARAMETERS
+    # the altitude's range is the atmosphere's, with its round-off allowance
+    return {p.name: p for p in PARAMETERS if p.name != "altitude"
+            and (np.isfinite(p.low) or np.isfinite(p.high))}
+
+
+#: Model parameters whose declared range the components hold a host's input to.
+RANGES = _ranges()
+
+
+#: How far past a closed end of its range an input may lie, relative to max(1, |end|): a
+#: finite-difference step or round-off at a bound (a design variable at its upper bound, stepped
+#: forward) is not an input out of range.
+RANGE_ALLOWANCE = 1e-5
+
+
+def _within(name, value, prm):
+    """Raise a ``ValueError`` if ``value`` (one or more) leaves ``prm``'s allowed range (a
+    closed end with :data:`RANGE_ALLOWANCE`)."""
+    v = np.real(value)
+    lo, hi = (v.flat[0], v.flat[0]) if v.size == 1 else (v.min(), v.max())
+    below = (lo <= prm.low) if prm.low_open else (
+        lo < prm.low - RANGE_ALLOWANCE * max(1.0, abs(prm.low)))
+    above = (hi >= prm.high) if prm.high_open else (
+        hi > prm.high + RANGE_ALLOWANCE * max(1.0, abs(prm.high)))
+    if below or above:
+        bad = lo if below else hi
+        where = "" if v.size == 1 else f" at node {int(np.flatnonzero(v == bad)[0])}"
+        raise ValueError(f"{name} = {bad:g}{where} is outside its allowed range "
+                         f"{prm.allowed()} ({prm.description}; case key {prm.key})")
 
 
 def _where_used(component, name, value):
@@ -134,9 +176,10 @@ def unset_message(component, names):
     return (f"{len(names)} input(s) of {component.pathname or 'the component'} were never "
             f"given (they hold NaN); the host must give each one:\n" + "\n".join(lines)
             + f"\nConnect each to an output of the host model, or set it after setup, e.g. "
-            f"prob.set_val('{path}{names[0]}', value, units=...) (the name as promoted; in a "
-            f"Dymos ODE a wing-level constant is a phase parameter: phase.add_parameter(name, "
-            f"val=..., opt=False, static_target=True)). The option examples=True starts every "
+            f"prob.set_val('{path}{names[0]}', value, units=...) (the group's path, or the "
+            f"name your model promotes it to; in a Dymos ODE a wing-level constant is a phase "
+            f"parameter: phase.add_parameter(name, val=..., opt=False, static_target=True)). "
+            f"The option examples=True starts every "
             f"such input at a documented example value instead (demonstrations and tests "
             f"only).")
 

@@ -427,9 +427,29 @@ def _lift(p, params, options, dynamic_pressure, out, tan):
     for name, table in tabled:
         res = lift_table.interpolate(table, cl, derivatives=d)
         p[name] = res[0] if d else res
+        _within_range(name, p[name], table, cl)
         if d:
             tan[name] = _chain({"lift_coefficient": res[1]}, tan)
     return fc
+
+
+def _within_range(name, value, table, cl):
+    """Refuse a tabulated constant that the table's linear extrapolation (a lift coefficient
+    beyond its breakpoints) carried outside the constant's allowed range."""
+    prm = registry.BY_NAME[name]
+    v = np.real(value)
+    low = v <= prm.low if prm.low_open else v < prm.low
+    high = v >= prm.high if prm.high_open else v > prm.high
+    bad = low | high
+    if np.any(bad):
+        i = int(np.flatnonzero(np.broadcast_to(bad, np.shape(v)))[0])
+        c = float(np.real(np.broadcast_to(cl, np.shape(v)).flat[i]))
+        lo, hi = table.range
+        raise ValueError(f"{name}: its lift table read at lift coefficient {c:g} (outside the "
+                         f"table's {lo:g} to {hi:g}, extrapolated) gives "
+                         f"{float(np.asarray(v).flat[i]):g}, outside the allowed "
+                         f"{prm.allowed()}; keep the lift coefficient within the table or "
+                         f"extend the table")
 
 
 def _system_mass(p, options, out, tan):
