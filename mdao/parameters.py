@@ -112,7 +112,7 @@ class Parameter:
         """Whether a host model that embeds the group must give it: the flight condition (every
         per-segment value), every calibration constant, and every parameter the models need
         that has no default. The group starts such an input unset (NaN) and its evaluation
-        refuses it by name (:func:`mdao.components.common.refuses_unset`), so a forgotten one
+        refuses it by name (:func:`mdao.components.common.checks_host_inputs`), so a forgotten one
         is never silently an example value. A case file still fills the defaults it
         documents. Optional parameters (default None: the fan's fit in the section, the
         high-lift requirement) start at their example, and only the outputs of that check

@@ -118,7 +118,8 @@ class BlownWingGroup(om.Group):
                   if not p.fused_only
                   and (o["mission_sums"] or p.name != "duration")
                   and (o["atmosphere"] == "isa" or p.name != "altitude")}
-        starts["momentum_coefficient"] = (None, HOST_INPUTS["momentum_coefficient"][0] * np.ones(n))
+        starts["momentum_coefficient"] = (None,
+                                          HOST_INPUTS["momentum_coefficient"][0] * np.ones(n))
         if not o["follow_requirement"]:
             starts["fan_pressure_rise"] = ("Pa", HOST_INPUTS["fan_pressure_rise"][0] * np.ones(n))
         if o["atmosphere"] == "host":

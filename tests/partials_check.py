@@ -123,3 +123,17 @@ def chain_inputs(seed, speed=(18.0, 40.0), momentum=(0.01, 0.08), rise=(200.0, 3
         inputs.update(AIRCRAFT)
     inputs.update(overrides)
     return {k: v for k, v in inputs.items() if k not in drop}
+
+
+def group_problem(inputs=None, num_nodes=4, **options):
+    """A problem of :class:`mdao.system.BlownWingGroup` alone (names promoted) with
+    ``options``; with ``inputs`` they are set and the model is run."""
+    from mdao.system import BlownWingGroup
+    prob = om.Problem(reports=False)
+    prob.model.add_subsystem("w", BlownWingGroup(num_nodes=num_nodes, **options), promotes=["*"])
+    prob.setup()
+    if inputs is not None:
+        for name, value in inputs.items():
+            prob.set_val(name, value)
+        prob.run_model()
+    return prob

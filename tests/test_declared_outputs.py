@@ -3,22 +3,18 @@ for those, none of the others, and their partials."""
 import numpy as np
 import openmdao.api as om
 import pytest
-from partials_check import assert_partials, chain_inputs
+from partials_check import assert_partials, chain_inputs, group_problem
 
 from mdao.components.chain import ChainComp
 from mdao.system import BlownWingGroup
 
 
-def _run(n=4, **options):
-    prob = om.Problem(reports=False)
-    prob.model.add_subsystem("w", BlownWingGroup(num_nodes=n, **options), promotes=["*"])
-    prob.setup()
-    if not options.get("examples"):
-        for name, value in chain_inputs(21, aircraft=options.get("aircraft", False)).items():
-            if name != "fan_pressure_rise" or not options.get("follow_requirement"):
-                prob.set_val(name, value)
-    prob.run_model()
-    return prob
+def _run(**options):
+    inputs = {} if options.get("examples") else {
+        name: value for name, value in chain_inputs(21, aircraft=options.get("aircraft",
+                                                                           False)).items()
+        if name != "fan_pressure_rise" or not options.get("follow_requirement")}
+    return group_problem(inputs, **options)
 
 
 def _outputs(prob):

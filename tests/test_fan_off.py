@@ -6,16 +6,14 @@ Before, only the fan's electric power was switched off: a fan-off node given C_m
 got the jet's drag saving and lift, free thrust that broke the first law.
 """
 import numpy as np
-import openmdao.api as om
 import pytest
-from partials_check import assert_partials, chain_inputs
+from partials_check import assert_partials, chain_inputs, group_problem
 
 from mdao.components.airfoil import AirfoilComp
 from mdao.components.chain import ChainComp
 from mdao.components.common import UnsetInputError
 from mdao.components.duct import DuctLossComp
 from mdao.components.jet import JetComp
-from mdao.system import BlownWingGroup
 
 FLAGS = [True, False, True, False]
 OFF = ~np.array(FLAGS)
@@ -26,14 +24,7 @@ OUTPUTS = ("section_drag", "clean_section_drag", "drag_saving", "lift_increment"
 
 
 def _run(fused, inputs, blowing=FLAGS):
-    prob = om.Problem(reports=False)
-    prob.model.add_subsystem("w", BlownWingGroup(num_nodes=4, fused=fused, blowing=blowing),
-                             promotes=["*"])
-    prob.setup()
-    for name, value in inputs.items():
-        prob.set_val(name, value)
-    prob.run_model()
-    return prob
+    return group_problem(inputs, fused=fused, blowing=blowing)
 
 
 @pytest.mark.parametrize("fused", [True, False])
@@ -106,14 +97,9 @@ def test_unset_momentum_coefficient_is_refused_only_where_the_fan_runs():
 def test_a_stopped_map_fan_has_no_operating_point(fused):
     """With a fan map, a fan-off node reports the fan stopped (speed, coefficients, tip Mach
     number and efficiency 0), in both groups, whatever pressure rise it is given."""
-    prob = om.Problem(reports=False)
-    prob.model.add_subsystem("w", BlownWingGroup(num_nodes=4, fused=fused, blowing=FLAGS,
-                                                 fan_model="map", examples=True),
-                             promotes=["*"])
-    prob.setup()
-    prob.set_val("fan_pressure_rise", [900.0, 900.0, 1100.0, 1500.0])
-    prob.set_val("momentum_coefficient", [0.03, 0.05, 0.04, 0.02])
-    prob.run_model()
+    prob = group_problem({"fan_pressure_rise": [900.0, 900.0, 1100.0, 1500.0],
+                          "momentum_coefficient": [0.03, 0.05, 0.04, 0.02]},
+                         fused=fused, blowing=FLAGS, fan_model="map", examples=True)
     for name in ("fan_speed", "flow_coefficient", "pressure_coefficient", "tip_mach",
                  "fan_efficiency", "fan_shaft_power", "air_power"):
         value = prob.get_val(name)

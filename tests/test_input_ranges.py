@@ -10,17 +10,14 @@ import numpy as np
 import openmdao.api as om
 import pytest
 from openmdao.core.analysis_error import AnalysisError
+from partials_check import group_problem
 
 from mdao.physics.lift_table import LiftTable
 from mdao.system import BlownWingGroup
 
 
 def _problem(fused=True, **options):
-    prob = om.Problem(reports=False)
-    prob.model.add_subsystem("w", BlownWingGroup(num_nodes=3, examples=True, fused=fused,
-                                                 **options), promotes=["*"])
-    prob.setup()
-    return prob
+    return group_problem(num_nodes=3, examples=True, fused=fused, **options)
 
 
 @pytest.mark.parametrize("fused", [True, False])

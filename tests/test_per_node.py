@@ -7,7 +7,7 @@ per-node efficiency was refused ("shape (3,) incompatible with shape (1,)").
 import numpy as np
 import openmdao.api as om
 import pytest
-from partials_check import assert_partials, chain_inputs
+from partials_check import assert_partials, chain_inputs, group_problem
 from totals_check import assert_totals, central_totals
 
 from mdao.components.chain import ChainComp
@@ -23,14 +23,7 @@ OUTPUTS = ("net_power_saving", "fan_electric_power", "propulsion_power_saving",
 
 
 def _run(inputs, per_node=(), num_nodes=4, aircraft=False):
-    prob = om.Problem(reports=False)
-    prob.model.add_subsystem("w", BlownWingGroup(num_nodes=num_nodes, per_node=per_node,
-                                                 aircraft=aircraft), promotes=["*"])
-    prob.setup()
-    for name, value in inputs.items():
-        prob.set_val(name, value)
-    prob.run_model()
-    return prob
+    return group_problem(inputs, num_nodes, per_node=per_node, aircraft=aircraft)
 
 
 @pytest.mark.parametrize("aircraft", [False, True])

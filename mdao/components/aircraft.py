@@ -7,7 +7,7 @@ segment and the mission's clean source energy.
 import numpy as np
 from mdao import om
 
-from mdao.components.common import NUM_NODES, analysis_errors, refuses_unset
+from mdao.components.common import NUM_NODES, analysis_errors, checks_host_inputs
 from mdao.components.common import add_parameter_inputs, broadcast, column, diagonal
 from mdao.physics import aircraft
 
@@ -91,7 +91,7 @@ class AircraftComp(om.ExplicitComponent):
         return aircraft.flight_condition(*args, derivatives=derivatives)
 
     @analysis_errors
-    @refuses_unset
+    @checks_host_inputs
     def compute(self, inputs, outputs):
         fc = self._flight(inputs)
         for name in FLIGHT_OUTPUTS:

@@ -4,7 +4,7 @@ import numpy as np
 from mdao import om
 
 from mdao.components.common import (BLOWING_OPTION, NUM_NODES, analysis_errors, jet_momentum,
-                                    refuses_unset)
+                                    checks_host_inputs)
 from mdao.components.common import add_parameter_inputs
 from mdao.physics import airfoil as phys
 
@@ -69,7 +69,7 @@ class AirfoilComp(om.ExplicitComponent):
                                      derivatives=derivatives)
 
     @analysis_errors
-    @refuses_unset
+    @checks_host_inputs
     def compute(self, inputs, outputs):
         # straight into the output arrays (no temporaries, no copies); q (c b) as in the chain
         dcd = self._increment(inputs)

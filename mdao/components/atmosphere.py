@@ -2,7 +2,7 @@
 import numpy as np
 from mdao import om
 
-from mdao.components.common import NUM_NODES, analysis_errors, refuses_unset
+from mdao.components.common import NUM_NODES, analysis_errors, checks_host_inputs
 from mdao.components.common import add_parameter_inputs
 from mdao.physics.atmosphere import isa
 
@@ -42,7 +42,7 @@ class AtmosphereComp(om.ExplicitComponent):
             self.declare_partials(name, "altitude", rows=nodes, cols=nodes)
 
     @analysis_errors
-    @refuses_unset
+    @checks_host_inputs
     def compute(self, inputs, outputs):
         state = isa(inputs["altitude"])
         for name, *_ in _OUTPUTS:

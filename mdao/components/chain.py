@@ -13,7 +13,7 @@ from mdao import om
 from mdao import parameters as registry
 from mdao.components.common import (HOST_GIVES, HOST_INPUTS, analysis_errors, blowing_flags,
                                     column, declare_chain_options, diagonal, host_air,
-                                    per_node_names, refuses_unset, unset_start)
+                                    per_node_names, checks_host_inputs, unset_start)
 from mdao.physics import chain
 
 #: Node inputs that are design variables rather than model parameters: example value, units.
@@ -190,7 +190,8 @@ class ChainComp(om.ExplicitComponent):
             raise RuntimeError(f"ChainComp: no unit declared for {sorted(unknown)}")
         self._chain_outputs = [k for k in OUTPUT_UNITS if k in out and k not in probe]
         wanted = self._declared_outputs(o)
-        self._set_declared_totals(wanted)
+        self._declared_totals = {k: v for k, v in self._all_mission_totals().items()
+                                 if k in wanted}
         self._chain_outputs = [k for k in self._chain_outputs if k in wanted]
         for name in self._chain_outputs:
             shape = np.shape(out[name]) if name in WING_OUTPUTS else (n,)
@@ -304,12 +305,8 @@ class ChainComp(om.ExplicitComponent):
         """The declared wing-level sums (option ``outputs``): ``{sum: per-node output}``."""
         return self._declared_totals
 
-    def _set_declared_totals(self, wanted):
-        self._declared_totals = {k: v for k, v in self._all_mission_totals().items()
-                                 if k in wanted}
-
     @analysis_errors
-    @refuses_unset
+    @checks_host_inputs
     def compute(self, inputs, outputs):
         # In strips of nodes (the chain is elementwise over them): a strip's intermediates stay
         # in cache and in memory the allocator hands back at once, where the whole vector's

@@ -66,7 +66,7 @@ def unset_start(value, examples):
     return value if examples else np.full(value.shape, np.nan)
 
 
-def refuses_unset(compute):
+def checks_host_inputs(compute):
     """Decorate a component's ``compute``: an input of :data:`HOST_GIVES` that holds NaN (the
     group's unset start value: nobody connected or set it) raises :class:`UnsetInputError`
     naming it, its meaning and unit, and how to give it (14 microseconds per 1e5-node input);

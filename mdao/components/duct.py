@@ -7,7 +7,7 @@ import numpy as np
 from mdao import om
 
 from mdao.components.common import (BLOWING_OPTION, NUM_NODES, analysis_errors, jet_momentum,
-                                    refuses_unset)
+                                    checks_host_inputs)
 from mdao.components.common import add_parameter_inputs, broadcast, column, diagonal, full
 from mdao.physics import duct, jet
 
@@ -86,7 +86,7 @@ class DuctLossComp(om.ExplicitComponent):
             derivatives=derivatives)
 
     @analysis_errors
-    @refuses_unset
+    @checks_host_inputs
     def compute(self, inputs, outputs):
         if self.options["duct_model"] == "lumped":
             kj = inputs["jet_loss_factor"]

@@ -3,7 +3,7 @@ import numpy as np
 from mdao import om
 
 from mdao.components.common import (BLOWING_OPTION, NUM_NODES, analysis_errors, blowing_flags,
-                                    refuses_unset)
+                                    checks_host_inputs)
 from mdao.components.common import add_parameter_inputs
 from mdao.physics import fan as phys
 
@@ -183,7 +183,7 @@ class FanComp(om.ExplicitComponent):
         return air, {'volume_flow': d['volume_flow'], 'fan_pressure_rise': d['pressure_rise']}
 
     @analysis_errors
-    @refuses_unset
+    @checks_host_inputs
     def compute(self, inputs, outputs):
         # values only: the partials of _evaluate are compute_partials' business
         q, dp = inputs['volume_flow'], inputs['fan_pressure_rise']

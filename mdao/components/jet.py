@@ -4,7 +4,7 @@ from mdao import om
 
 from mdao.components.common import (BLOWING_OPTION, NUM_NODES, add_parameter_inputs,
                                     analysis_errors, broadcast, column, diagonal, jet_momentum,
-                                    refuses_unset)
+                                    checks_host_inputs)
 from mdao.physics import jet
 
 NODE_INPUTS = ("momentum_coefficient", "speed", "density", "speed_of_sound")
@@ -56,7 +56,7 @@ class JetComp(om.ExplicitComponent):
                               derivatives=derivatives)
 
     @analysis_errors
-    @refuses_unset
+    @checks_host_inputs
     def compute(self, inputs, outputs):
         state = self._physics(inputs)
         for name, value in state._asdict().items():

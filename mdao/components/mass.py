@@ -9,7 +9,7 @@ aircraft's mass build-up charges.
 import numpy as np
 from mdao import om
 
-from mdao.components.common import (HOST_GIVES, NUM_NODES, analysis_errors, refuses_unset,
+from mdao.components.common import (HOST_GIVES, NUM_NODES, analysis_errors, checks_host_inputs,
                                     unset_start)
 from mdao.components.common import add_parameter_inputs, blowing_flags, broadcast, column
 from mdao.parameters import MASS_PARAMETERS
@@ -132,7 +132,7 @@ class BlowingSystemMassComp(om.ExplicitComponent):
                                   inputs["motor_specific_power"][0], derivatives=derivatives)
 
     @analysis_errors
-    @refuses_unset
+    @checks_host_inputs
     def compute(self, inputs, outputs):
         rot = self._rotating(inputs)
         area = self._area(inputs)

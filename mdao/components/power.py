@@ -3,7 +3,7 @@
 import numpy as np
 from mdao import om
 
-from mdao.components.common import NUM_NODES, analysis_errors, refuses_unset
+from mdao.components.common import NUM_NODES, analysis_errors, checks_host_inputs
 from mdao.components.common import (add_parameter_inputs, blowing_flags, broadcast, column,
                                       diagonal)
 from mdao.physics import power
@@ -82,7 +82,7 @@ class SegmentPowerComp(om.ExplicitComponent):
                                    blowing=self._blowing(), derivatives=derivatives)
 
     @analysis_errors
-    @refuses_unset
+    @checks_host_inputs
     def compute(self, inputs, outputs):
         prop, fan, net = self._physics(inputs)
         outputs["propulsion_power_saving"] = prop

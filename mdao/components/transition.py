@@ -3,7 +3,7 @@
 import numpy as np
 from mdao import om
 
-from mdao.components.common import NUM_NODES, analysis_errors, refuses_unset
+from mdao.components.common import NUM_NODES, analysis_errors, checks_host_inputs
 from mdao.components.common import add_parameter_inputs
 from mdao.physics.transition import BETWEEN, SCHEDULES, stations
 
@@ -87,7 +87,7 @@ class TransitionComp(om.ExplicitComponent):
                     schedule=self.options["schedule"], count=self.options["stations"])
 
     @analysis_errors
-    @refuses_unset
+    @checks_host_inputs
     def compute(self, inputs, outputs):
         result = stations(**self._geometry(inputs))
         for name, field, *_ in _OUTPUTS:
