@@ -13,6 +13,7 @@ from mdao.components.airfoil import AirfoilComp
 from mdao.components.chain import ChainComp
 from mdao.components.common import UnsetInputError
 from mdao.components.duct import DuctLossComp
+from mdao.components.fan import FanComp
 from mdao.components.jet import JetComp
 
 FLAGS = [True, False, True, False]
@@ -82,15 +83,33 @@ def test_per_discipline_partials_at_fan_off_nodes(comp, names):
                     {k: v for k, v in inputs.items() if k in names + ("dynamic_pressure",)})
 
 
-def test_unset_momentum_coefficient_is_refused_only_where_the_fan_runs():
+def test_fan_component_partials_at_fan_off_nodes():
+    inputs = {"fan_pressure_rise": np.array([800.0, 900.0, 1200.0, 700.0]),
+              "volume_flow": np.array([0.05, 0.04, 0.06, 0.03]), "fan_rated_efficiency": 0.7}
+    prob = assert_partials(FanComp(num_nodes=4, blowing=FLAGS), inputs)
+    assert np.all(prob.get_val("air_power")[OFF] == 0.0)
+
+
+@pytest.mark.parametrize("fused", [True, False])
+@pytest.mark.parametrize("name", ["momentum_coefficient", "fan_pressure_rise"])
+def test_unset_jet_inputs_are_refused_only_where_the_fan_runs(fused, name):
     inputs = chain_inputs(34)
-    cmu = inputs["momentum_coefficient"].copy()
-    cmu[OFF] = np.nan
-    prob = _run(True, dict(inputs, momentum_coefficient=cmu))        # not used there: runs
-    assert np.all(np.isfinite(prob.get_val("net_power_saving")))
-    cmu[0] = np.nan
-    with pytest.raises(UnsetInputError, match="momentum_coefficient"):
-        _run(True, dict(inputs, momentum_coefficient=cmu))
+    value = inputs[name].copy()
+    value[OFF] = np.nan
+    prob = _run(fused, dict(inputs, **{name: value}))        # not used there: runs
+    for out in OUTPUTS:
+        assert np.all(np.isfinite(prob.get_val(out))), out
+    value[0] = np.nan
+    with pytest.raises(UnsetInputError, match=name):
+        _run(fused, dict(inputs, **{name: value}))
+
+
+def test_fan_pressure_rise_has_no_partial_where_the_fan_is_off():
+    prob = assert_partials(ChainComp(num_nodes=4, blowing=FLAGS), chain_inputs(35))
+    for of in ("air_power", "fan_shaft_power", "net_power_saving"):
+        d = prob.compute_totals(of=[of], wrt=["fan_pressure_rise"], return_format="array")
+        assert np.all(d[OFF][:, OFF] == 0.0), of
+        assert np.all(np.diag(d)[~OFF] != 0.0), of
 
 
 @pytest.mark.parametrize("fused", [True, False])

@@ -5,6 +5,8 @@ import functools
 import numpy as np
 from openmdao.core.analysis_error import AnalysisError
 
+from mdao.physics.chain import GATED_BY_BLOWING
+
 
 class UnsetInputError(ValueError):
     """An input that a host must give (:data:`HOST_GIVES`), met unset (NaN) in a component's
@@ -123,27 +125,34 @@ def _within(name, value, prm):
 
 
 def _where_used(component, name, value):
-    """An input's values where the component uses them: the momentum coefficient only at the
-    nodes whose fan runs (option ``blowing``; elsewhere the jet is off whatever it holds)."""
-    if (name != "momentum_coefficient" or "blowing" not in component.options
+    """An input's values where the component uses them: the momentum coefficient and the fan
+    pressure rise only at the nodes whose fan runs (option ``blowing``; elsewhere the jet and
+    the fan are off whatever they hold)."""
+    if (name not in GATED_BY_BLOWING or "blowing" not in component.options
             or component.options["blowing"] is None):
         return value
     return value[blowing_flags(component.options["blowing"], value.shape[0])]
 
 
-def jet_momentum(component, inputs):
-    """The momentum coefficient the jet blows at each node and its derivative with respect to
-    the input: the input where the fan runs, 0 where it does not (option ``blowing``: a node
-    whose fan is off has no jet, whatever momentum coefficient the host gives it). Returns
-    ``(C_mu, factor)``, the factor 1.0 when every fan runs, else 1 or 0 per node."""
-    cmu = inputs["momentum_coefficient"]
+def gated(component, inputs, name="momentum_coefficient"):
+    """A per-node input of :data:`GATED_BY_BLOWING` as the physics takes it, and its derivative
+    with respect to the input: the input where the fan runs, 0 where it does not (option
+    ``blowing``: a node whose fan is off has no jet and no pressure rise, whatever the host
+    gives it). Returns ``(value, factor)``, the factor 1.0 when every fan runs, else 1 or 0
+    per node."""
+    value = inputs[name]
     blowing = component.options["blowing"]
     if blowing is None:
-        return cmu, 1.0
+        return value, 1.0
     flags = blowing_flags(blowing, component.options["num_nodes"])
     if flags.all():
-        return cmu, 1.0
-    return np.where(flags, cmu, 0.0), flags.astype(float)
+        return value, 1.0
+    return np.where(flags, value, 0.0), flags.astype(float)
+
+
+def jet_momentum(component, inputs):
+    """:func:`gated` momentum coefficient: ``(C_mu the jet blows, d/d input)``."""
+    return gated(component, inputs, "momentum_coefficient")
 
 
 #: The ``blowing`` option of a component that reads the momentum coefficient.

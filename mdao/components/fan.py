@@ -3,7 +3,7 @@ import numpy as np
 from mdao import om
 
 from mdao.components.common import (BLOWING_OPTION, NUM_NODES, analysis_errors, blowing_flags,
-                                    checks_host_inputs)
+                                    checks_host_inputs, gated)
 from mdao.components.common import add_parameter_inputs
 from mdao.physics import fan as phys
 
@@ -121,7 +121,7 @@ class FanComp(om.ExplicitComponent):
     def _evaluate(self, inputs):
         """Outputs and their partials as dicts {output: {input: array (n,) or (n, 3)}}."""
         n = self.options['num_nodes']
-        q, dp = inputs['volume_flow'], inputs['fan_pressure_rise']
+        q, dp = inputs['volume_flow'], gated(self, inputs, 'fan_pressure_rise')[0]
         rho = inputs['density'] if self._uses_density() else None
         out, jac = {}, {}
         if self.options['fan_model'] == 'constant':
@@ -171,7 +171,7 @@ class FanComp(om.ExplicitComponent):
 
     def _air_power(self, inputs):
         """Power put into the air: the shaft power at unit efficiency, and its partials."""
-        q, dp = inputs['volume_flow'], inputs['fan_pressure_rise']
+        q, dp = inputs['volume_flow'], gated(self, inputs, 'fan_pressure_rise')[0]
         if self.options['compressible']:
             rho = inputs['density']
             air, d = phys.shaft_power_isentropic(rho * q, dp, inputs['pressure'],
@@ -186,7 +186,7 @@ class FanComp(om.ExplicitComponent):
     @checks_host_inputs
     def compute(self, inputs, outputs):
         # values only: the partials of _evaluate are compute_partials' business
-        q, dp = inputs['volume_flow'], inputs['fan_pressure_rise']
+        q, dp = inputs['volume_flow'], gated(self, inputs, 'fan_pressure_rise')[0]
         rho = inputs['density'] if self._uses_density() else None
         if self.options['fan_model'] == 'constant':
             eta = inputs['fan_rated_efficiency'][0]
@@ -219,11 +219,14 @@ class FanComp(om.ExplicitComponent):
     def compute_partials(self, inputs, partials):
         _, jac = self._evaluate(inputs)
         off = self._stopped()
+        _, gate = gated(self, inputs, 'fan_pressure_rise')   # no rise where the fan is off
         for of, row in jac.items():
             for wrt, value in row.items():
                 if off is not None and of in STOPPED:
                     value = np.array(np.broadcast_to(value, np.shape(value)), float)
                     value[off] = 0.0
+                if wrt == 'fan_pressure_rise':
+                    value = value * gate
                 partials[of, wrt] = value.ravel()
 
 

@@ -107,6 +107,10 @@ def _defaults(duct_model, fan_model, aircraft):
                  if prm.default is not registry.REQUIRED and prm.default is not None)
 
 
+#: Per-node inputs that a node whose fan does not run ignores (taken as 0 there).
+GATED_BY_BLOWING = ("momentum_coefficient", "fan_pressure_rise")
+
+
 def evaluate(params, options=ChainOptions(), blowing=True, derivatives=False, outputs=None,
              wrt=None):
     """Evaluate the chain at broadcast operating points, optionally with partial derivatives.
@@ -189,13 +193,16 @@ def _evaluate(params, options, blowing, d, outputs, wrt):
     p = with_defaults(params, options)
     out = {}
     tan = {}
-    # A node whose fan does not run has no jet, whatever momentum coefficient it is given: the
-    # chain blows C_mu = 0 there, and the tangent with respect to the input is 0 there.
+    # A node whose fan does not run has no jet and no fan pressure rise, whatever momentum
+    # coefficient and rise it is given: the chain takes 0 there, and the tangents with respect
+    # to those inputs are 0 there.
     on = np.asarray(blowing, bool)
     seed = {}
-    if "momentum_coefficient" in p and not on.all():
-        p = dict(p, momentum_coefficient=np.where(on, p["momentum_coefficient"], 0.0))
-        seed["momentum_coefficient"] = on.astype(float)
+    if not on.all():
+        for name in GATED_BY_BLOWING:
+            if name in p:
+                p = dict(p, **{name: np.where(on, p[name], 0.0)})
+                seed[name] = on.astype(float)
     if d:
         for name in p:
             if wrt is None or name in wrt:
