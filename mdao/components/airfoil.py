@@ -3,8 +3,8 @@
 import numpy as np
 from mdao import om
 
-from mdao.components.common import (BLOWING_OPTION, NUM_NODES, analysis_errors, jet_momentum,
-                                    checks_host_inputs)
+from mdao.components.common import (BLOWING_OPTION, NUM_NODES, analysis_errors,
+                                    checks_host_inputs, gated)
 from mdao.components.common import add_parameter_inputs
 from mdao.physics import airfoil as phys
 
@@ -65,7 +65,7 @@ class AirfoilComp(om.ExplicitComponent):
         that the saving does not depend on it even by rounding."""
         args = {k: inputs[k][0] for k in _CONSTANTS}
         args['drag_clean'] = 0.0
-        return phys.drag_coefficient(jet_momentum(self, inputs)[0], **args,
+        return phys.drag_coefficient(gated(self, inputs)[0], **args,
                                      derivatives=derivatives)
 
     @analysis_errors
@@ -80,13 +80,13 @@ class AirfoilComp(om.ExplicitComponent):
         np.multiply(area_q, cd0, out=outputs['clean_section_drag'])
         saving = np.multiply(area_q, dcd, out=outputs['drag_saving'])
         np.negative(saving, out=saving)
-        outputs['lift_increment'] = phys.lift_increment(jet_momentum(self, inputs)[0],
+        outputs['lift_increment'] = phys.lift_increment(gated(self, inputs)[0],
                                                         inputs['lift_per_momentum'][0])
 
     @analysis_errors
     def compute_partials(self, inputs, partials):
         inc, dinc = self._increment(inputs, derivatives=True)
-        cmu, gate = jet_momentum(self, inputs)
+        cmu, gate = gated(self, inputs)
         if 'momentum_coefficient' in dinc:      # no jet where the fan does not run
             dinc['momentum_coefficient'] = dinc['momentum_coefficient'] * gate
         q, c, b = inputs['dynamic_pressure'], inputs['chord'][0], inputs['blown_span'][0]

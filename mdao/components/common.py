@@ -1,10 +1,12 @@
 """Helpers shared by the components: sparsity patterns, per-node flags, the inputs of
-declared model parameters, the ``num_nodes`` option and the errors of ``compute``."""
+declared model parameters, the inputs a host must give and their checks (unset, out of range),
+the inputs a fan-off node ignores, the options of the chain and the errors of ``compute``."""
 import functools
 
 import numpy as np
 from openmdao.core.analysis_error import AnalysisError
 
+from mdao import parameters as registry
 from mdao.physics.chain import GATED_BY_BLOWING
 
 
@@ -48,17 +50,12 @@ HOST_AIR = {"temperature": ("K", 288.15), "pressure": ("Pa", 101325.0),
             "viscosity": ("Pa*s", 1.7894e-5)}
 
 
-def _host_gives():
-    from mdao.parameters import PARAMETERS
-    return frozenset({p.name for p in PARAMETERS if p.host_gives} | set(HOST_INPUTS)
-                     | set(HOST_AIR))
-
-
 #: Every input name that a host embedding the group must give (no silent default): the
 #: parameters whose :attr:`mdao.parameters.Parameter.host_gives` holds (flight condition,
 #: calibration constants, parameters without a default), :data:`HOST_INPUTS` and, with the
 #: host's atmosphere, :data:`HOST_AIR`.
-HOST_GIVES = _host_gives()
+HOST_GIVES = frozenset({p.name for p in registry.PARAMETERS if p.host_gives}
+                       | set(HOST_INPUTS) | set(HOST_AIR))
 
 
 def unset_start(value, examples):
@@ -91,15 +88,10 @@ def checks_host_inputs(compute):
     return checked
 
 
-def _ranges():
-    from mdao.parameters import PARAMETERS
-    # the altitude's range is the atmosphere's, with its round-off allowance
-    return {p.name: p for p in PARAMETERS if p.name != "altitude"
-            and (np.isfinite(p.low) or np.isfinite(p.high))}
-
-
-#: Model parameters whose declared range the components hold a host's input to.
-RANGES = _ranges()
+#: Model parameters whose declared range the components hold a host's input to (the altitude's
+#: range is the atmosphere's, with its round-off allowance).
+RANGES = {p.name: p for p in registry.PARAMETERS if p.name != "altitude"
+          and (np.isfinite(p.low) or np.isfinite(p.high))}
 
 
 #: How far past a closed end of its range an input may lie, relative to max(1, |end|): a
@@ -150,23 +142,17 @@ def gated(component, inputs, name="momentum_coefficient"):
     return np.where(flags, value, 0.0), flags.astype(float)
 
 
-def jet_momentum(component, inputs):
-    """:func:`gated` momentum coefficient: ``(C_mu the jet blows, d/d input)``."""
-    return gated(component, inputs, "momentum_coefficient")
-
-
-#: The ``blowing`` option of a component that reads the momentum coefficient.
+#: The ``blowing`` option of a component that reads the momentum coefficient or the fan rise.
 BLOWING_OPTION = dict(default=None, allow_none=True,
                       desc="does the fan run: one bool for every node, or one per node "
-                           "(default: at every node); where it does not, the jet is off and "
-                           "the momentum coefficient is taken as 0")
+                           "(default: at every node); where it does not, the jet and the fan "
+                           "are off and the momentum coefficient and fan pressure rise are "
+                           "taken as 0")
 
 
 def unset_meaning(name):
     """``(unit, meaning)`` of an input of :data:`HOST_GIVES`."""
-    from mdao.parameters import BY_NAME
-
-    p = BY_NAME.get(name)
+    p = registry.BY_NAME.get(name)
     if p is not None:
         return p.unit, f"{p.description}; case key {p.key}, allowed {p.allowed()}"
     if name in HOST_AIR:
@@ -188,36 +174,29 @@ def unset_message(component, names):
             f"prob.set_val('{path}{names[0]}', value, units=...) (the group's path, or the "
             f"name your model promotes it to; in a Dymos ODE a wing-level constant is a phase "
             f"parameter: phase.add_parameter(name, val=..., opt=False, static_target=True)). "
-            f"The option examples=True starts every "
-            f"such input at a documented example value instead (demonstrations and tests "
-            f"only).")
-
-
-def _per_node_allowed():
-    from mdao.parameters import PARAMETERS
-    return tuple(p.name for p in PARAMETERS if p.lift_table) + (
-        "chain_efficiency", "motor_efficiency", "fan_rated_efficiency", "thrust_power_ceiling")
+            f"The option examples=True starts every such input at a documented example value "
+            f"instead (demonstrations and tests only).")
 
 
 #: Wing-level constants that may be given one value per node (option ``per_node``): the
 #: efficiencies, the share of air power that may return as thrust power, and the constants that
 #: may be tabulated over the lift coefficient. Each acts at its own node only (no wing-level
 #: output, such as the slot height or the fan's size, reads it).
-PER_NODE_ALLOWED = _per_node_allowed()
+PER_NODE_ALLOWED = tuple(p.name for p in registry.PARAMETERS if p.lift_table) + (
+    "chain_efficiency", "motor_efficiency", "fan_rated_efficiency", "thrust_power_ceiling")
 
 
 def per_node_names(options):
     """The ``per_node`` option checked: names of :data:`PER_NODE_ALLOWED` that the chosen models
     use and that no lift table gives."""
-    from mdao.parameters import chain_parameters
-
     names = tuple(options["per_node"])
     wrong = sorted(set(names) - set(PER_NODE_ALLOWED))
     if wrong:
         raise ValueError(f"per_node: {wrong} may not vary per node; allowed: "
                          f"{sorted(PER_NODE_ALLOWED)}")
-    used = {p.name for p in chain_parameters(options["duct_model"], options["fan_model"],
-                                             aircraft=options["aircraft"])}
+    used = {p.name for p in registry.chain_parameters(options["duct_model"],
+                                                      options["fan_model"],
+                                                      aircraft=options["aircraft"])}
     unused = sorted(set(names) - used)
     if unused:
         raise ValueError(f"per_node: {unused} are not inputs with duct_model="
@@ -276,10 +255,8 @@ def add_parameter_inputs(component, names, num_nodes=1, examples=True):
     the declared unit, start value and description; per-segment parameters get one value per
     node. One declaration serves every component, so defaults cannot disagree. With
     ``examples=False`` an input the host must give (:data:`HOST_GIVES`) starts unset (NaN)."""
-    from mdao.parameters import BY_NAME
-
     for name in names:
-        p = BY_NAME[name]
+        p = registry.BY_NAME[name]
         value = np.asarray(p.start_value, float)
         if p.per_segment:
             value = value * np.ones(num_nodes)

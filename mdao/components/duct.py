@@ -6,8 +6,8 @@ each node from the transition stations, friction and form losses.
 import numpy as np
 from mdao import om
 
-from mdao.components.common import (BLOWING_OPTION, NUM_NODES, analysis_errors, jet_momentum,
-                                    checks_host_inputs)
+from mdao.components.common import (BLOWING_OPTION, NUM_NODES, analysis_errors,
+                                    checks_host_inputs, gated)
 from mdao.components.common import add_parameter_inputs, broadcast, column, diagonal, full
 from mdao.physics import duct, jet
 
@@ -93,7 +93,7 @@ class DuctLossComp(om.ExplicitComponent):
         else:
             kj = self._loss_factor(inputs)
             outputs["jet_loss_factor"] = kj
-        head = jet.jet_dynamic_head(jet_momentum(self, inputs)[0], inputs["slot_ratio"],
+        head = jet.jet_dynamic_head(gated(self, inputs)[0], inputs["slot_ratio"],
                                     inputs["dynamic_pressure"])
         outputs["required_pressure_rise"] = duct.required_pressure_rise_from_head(
             kj, inputs["freestream_assist"], head, inputs["dynamic_pressure"])
@@ -104,7 +104,7 @@ class DuctLossComp(om.ExplicitComponent):
         of = "required_pressure_rise"
         lumped = self.options["duct_model"] == "lumped"
         kj, dk = (inputs["jet_loss_factor"], None) if lumped else self._loss_factor(inputs, True)
-        cmu, gate = jet_momentum(self, inputs)
+        cmu, gate = gated(self, inputs)
         head, dh = jet.jet_dynamic_head(cmu, inputs["slot_ratio"], inputs["dynamic_pressure"],
                                         derivatives=True)
         _, d = duct.required_pressure_rise_from_head(kj, inputs["freestream_assist"], head,

@@ -3,8 +3,8 @@ import numpy as np
 from mdao import om
 
 from mdao.components.common import (BLOWING_OPTION, NUM_NODES, add_parameter_inputs,
-                                    analysis_errors, broadcast, column, diagonal, jet_momentum,
-                                    checks_host_inputs)
+                                    analysis_errors, broadcast, checks_host_inputs, column,
+                                    diagonal, gated)
 from mdao.physics import jet
 
 NODE_INPUTS = ("momentum_coefficient", "speed", "density", "speed_of_sound")
@@ -49,7 +49,7 @@ class JetComp(om.ExplicitComponent):
             self._pairs.append((of, wrt))
 
     def _physics(self, inputs, derivatives=False):
-        cmu, _ = jet_momentum(self, inputs)
+        cmu, _ = gated(self, inputs)
         return jet.kinematics(cmu, inputs["slot_ratio"][0],
                               inputs["speed"], inputs["density"], inputs["chord"][0],
                               inputs["blown_span"][0], inputs["speed_of_sound"],
@@ -66,7 +66,7 @@ class JetComp(om.ExplicitComponent):
     def compute_partials(self, inputs, partials):
         n = self.options["num_nodes"]
         _, d = self._physics(inputs, derivatives=True)
-        _, gate = jet_momentum(self, inputs)
+        _, gate = gated(self, inputs)
         for of, wrt in self._pairs:
             partials[of, wrt] = d[of, wrt] if of == "slot_height" else broadcast(d[of, wrt], n)
             if wrt == "momentum_coefficient":
