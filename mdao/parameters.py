@@ -13,6 +13,8 @@ This module imports nothing from the package: it sits at the bottom of the layer
 import math
 from dataclasses import dataclass
 
+import numpy as np
+
 INF = math.inf
 
 #: Marks a parameter that the case must give (no default).
@@ -127,6 +129,17 @@ class Parameter:
         if self.either:
             return duct_model in self.duct_models or fan_model in self.fan_models
         return duct_model in self.duct_models and fan_model in self.fan_models
+
+    def outside(self, value, allowance=0.0):
+        """Whether each value lies outside the allowed range (elementwise; the real part of a
+        complex step). A closed end is widened by ``allowance`` times max(1, |end|): round-off
+        or a finite-difference step at a bound."""
+        v = np.real(value)
+        low = (v <= self.low) if self.low_open else (
+            v < self.low - allowance * max(1.0, abs(self.low)))
+        high = (v >= self.high) if self.high_open else (
+            v > self.high + allowance * max(1.0, abs(self.high)))
+        return low | high
 
     def allowed(self):
         """The allowed range in words, ``"(0, 1]"``."""

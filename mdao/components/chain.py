@@ -12,8 +12,8 @@ from mdao import om
 
 from mdao import parameters as registry
 from mdao.components.common import (HOST_GIVES, HOST_INPUTS, analysis_errors, blowing_flags,
-                                    column, declare_chain_options, diagonal, host_air,
-                                    per_node_names, checks_host_inputs, unset_start)
+                                    checks_host_inputs, column, declare_chain_options, diagonal,
+                                    host_air, per_node_names, unset_start)
 from mdao.physics import chain
 
 #: Node inputs that are design variables rather than model parameters: example value, units.

@@ -105,10 +105,7 @@ def _within(name, value, prm):
     closed end with :data:`RANGE_ALLOWANCE`)."""
     v = np.real(value)
     lo, hi = (v.flat[0], v.flat[0]) if v.size == 1 else (v.min(), v.max())
-    below = (lo <= prm.low) if prm.low_open else (
-        lo < prm.low - RANGE_ALLOWANCE * max(1.0, abs(prm.low)))
-    above = (hi >= prm.high) if prm.high_open else (
-        hi > prm.high + RANGE_ALLOWANCE * max(1.0, abs(prm.high)))
+    below, above = prm.outside(lo, RANGE_ALLOWANCE), prm.outside(hi, RANGE_ALLOWANCE)
     if below or above:
         bad = lo if below else hi
         where = "" if v.size == 1 else f" at node {int(np.flatnonzero(v == bad)[0])}"

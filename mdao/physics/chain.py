@@ -445,9 +445,7 @@ def _within_range(name, value, table, cl):
     beyond its breakpoints) carried outside the constant's allowed range."""
     prm = registry.BY_NAME[name]
     v = np.real(value)
-    low = v <= prm.low if prm.low_open else v < prm.low
-    high = v >= prm.high if prm.high_open else v > prm.high
-    bad = low | high
+    bad = prm.outside(v)
     if np.any(bad):
         i = int(np.flatnonzero(np.broadcast_to(bad, np.shape(v)))[0])
         c = float(np.real(np.broadcast_to(cl, np.shape(v)).flat[i]))
