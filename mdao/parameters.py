@@ -205,7 +205,7 @@ CHAIN_PARAMETERS = (
               description="c0, c1, c2 of the characteristic psi = c0 + c1 phi + c2 phi^2"),
     Parameter("fan.peak_efficiency", "peak_efficiency", example=0.75, low=0, high=1,
               low_open=True, fan_models=_MAP, description="best efficiency of the fan map"),
-    Parameter("fan.peak_flow_coefficient", "peak_flow_coefficient", example=0.3, low=0,
+    Parameter("fan.peak_flow_coefficient", "peak_flow_coefficient", example=0.6, low=0,
               high=5, low_open=True, fan_models=_MAP,
               description="flow coefficient at the best efficiency"),
     Parameter("fan.efficiency_falloff", "efficiency_falloff", example=0.8, low=0, high=100,

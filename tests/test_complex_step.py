@@ -27,7 +27,7 @@ GEOMETRIC_MAP = {"fan_diameter": 0.08, "suction_ratio": 0.02, "transition_length
                  "slot_exponent": 8.0, "roughness": 5e-6, "bend_loss": 0.2,
                  "suction_inlet_loss": 0.5, "extra_loss": 0.05,
                  "pressure_coefficients": [0.6, 0.5, -1.5], "peak_efficiency": 0.75,
-                 "peak_flow_coefficient": 0.3, "efficiency_falloff": 0.8}
+                 "peak_flow_coefficient": 0.6, "efficiency_falloff": 0.8}
 
 
 @pytest.fixture(autouse=True)

@@ -68,7 +68,7 @@ def test_fused_partials_with_the_compressible_jet(fan_model):
         inputs["fan_rated_efficiency"] = 0.68
     else:
         inputs.update(fan_diameter=0.09, pressure_coefficients=[0.7, 0.4, -1.6],
-                      peak_efficiency=0.74, peak_flow_coefficient=0.3, efficiency_falloff=0.9)
+                      peak_efficiency=0.74, peak_flow_coefficient=0.6, efficiency_falloff=0.9)
     comp = ChainComp(num_nodes=n, examples=True, fan_model=fan_model, compressible=True,
                      compressible_jet=True)
     prob = assert_partials(comp, inputs)

@@ -77,3 +77,20 @@ def test_a_line_search_backs_off_an_out_of_range_newton_step():
     prob.run_model()
     assert prob.get_val("section_drag")[0] == pytest.approx(8.0, rel=1e-8)
     assert 0.0 < prob.get_val("speed")[0] < 200.0
+
+
+@pytest.mark.parametrize("fused", [True, False])
+def test_a_running_map_fan_off_its_map_is_refused(fused):
+    """Far from its peak the map's efficiency parabola crosses zero, where the shaft power
+    would change sign (a fan giving power back): an AnalysisError naming the node, the
+    efficiency and the flow coefficient; the same point at a fan-off node is not refused."""
+    prob = _problem(fused, fan_model="map")
+    prob.set_val("peak_flow_coefficient", 0.15)      # the example points run near 0.5-0.7
+    with pytest.raises(AnalysisError, match=r"fan map: efficiency -[0-9.]+ at node 0, flow "
+                                            r"coefficient [0-9.]+ \(the map's peak at 0.15\)"):
+        prob.run_model()
+    off = group_problem(num_nodes=3, examples=True, fused=fused, fan_model="map",
+                        blowing=False)
+    off.set_val("peak_flow_coefficient", 0.15)
+    off.run_model()
+    assert np.all(off.get_val("fan_shaft_power") == 0.0)

@@ -175,6 +175,21 @@ def unset_message(component, names):
             f"instead (demonstrations and tests only).")
 
 
+def on_the_map(efficiency, flow_coefficient, running, peak_flow_coefficient):
+    """Refuse a running map fan whose efficiency is zero or below: far off design the map's
+    efficiency parabola crosses zero, where the shaft power would change sign (a fan giving
+    power back). A ``ValueError`` (an ``AnalysisError`` in ``compute``: a driver or line search
+    backs off) naming the node, the efficiency and the flow coefficient."""
+    off = running & (np.real(efficiency) <= 0.0)
+    if np.any(off):
+        i = int(np.flatnonzero(off)[0])
+        raise ValueError(
+            f"fan map: efficiency {float(np.real(efficiency[i])):.3g} at node {i}, flow "
+            f"coefficient {float(np.real(flow_coefficient[i])):.3g} (the map's peak at "
+            f"{float(np.real(np.ravel(peak_flow_coefficient)[0])):.3g}): the operating point is "
+            f"off the map; bound flow_coefficient within the map's range")
+
+
 #: Wing-level constants that may be given one value per node (option ``per_node``): the
 #: efficiencies, the share of air power that may return as thrust power, and the constants that
 #: may be tabulated over the lift coefficient. Each acts at its own node only (no wing-level

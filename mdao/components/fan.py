@@ -3,7 +3,7 @@ import numpy as np
 from mdao import om
 
 from mdao.components.common import (BLOWING_OPTION, NUM_NODES, analysis_errors, blowing_flags,
-                                    checks_host_inputs, gated)
+                                    checks_host_inputs, gated, on_the_map)
 from mdao.components.common import add_parameter_inputs
 from mdao.physics import fan as phys
 
@@ -198,6 +198,10 @@ class FanComp(om.ExplicitComponent):
             eta = phys.map_efficiency(phi, inputs['peak_efficiency'][0],
                                       inputs['peak_flow_coefficient'][0],
                                       inputs['efficiency_falloff'][0])
+            running = np.real(q * dp) > 0
+            if self._stopped() is not None:
+                running &= ~self._stopped()
+            on_the_map(eta, phi, running, inputs['peak_flow_coefficient'])
             outputs['fan_speed'] = speed
             outputs['flow_coefficient'] = phi
             outputs['pressure_coefficient'] = phys.pressure_coefficient(dp, rho, speed, d)
