@@ -22,7 +22,8 @@ from mdao.components.airfoil import AirfoilComp
 from mdao.components.atmosphere import AtmosphereComp
 from mdao.components.chain import ChainComp
 from mdao.components.common import (CHAIN_OPTIONS, HOST_GIVES, HOST_INPUTS,
-                                    declare_chain_options, host_air, unset_start)
+                                    declare_chain_options, host_air, input_parameters,
+                                    unset_start)
 from mdao.components.duct import DuctLossComp
 from mdao.components.fan import FanComp
 from mdao.components.jet import JetComp
@@ -113,11 +114,7 @@ class BlownWingGroup(om.Group):
         # the declared default
         starts = {p.name: (p.unit, np.atleast_1d(p.start_value)
                            * (np.ones(n) if p.per_segment else 1.0))
-                  for p in registry.chain_parameters(o["duct_model"], o["fan_model"],
-                                                     aircraft=o["aircraft"])
-                  if not p.fused_only
-                  and (o["mission_sums"] or p.name != "duration")
-                  and (o["atmosphere"] == "isa" or p.name != "altitude")}
+                  for p in input_parameters(o) if not p.fused_only}
         starts["momentum_coefficient"] = (None,
                                           HOST_INPUTS["momentum_coefficient"][0] * np.ones(n))
         if not o["follow_requirement"]:

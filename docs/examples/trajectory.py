@@ -97,6 +97,7 @@ from mdao.components.atmosphere import AtmosphereComp
 from mdao.parameters import BY_NAME
 from mdao.physics.lift_table import LiftTable
 from mdao.system import BlownWingGroup
+from mdao.total_coloring import color_totals
 
 GRAVITY = 9.80665  # [m/s**2], standard gravity
 
@@ -455,9 +456,10 @@ def build(blown=True, segments=SEGMENTS, order=ORDER, lift_tables=LIFT_TABLES):
     phase.add_objective("battery_energy", loc="final", ref=-1e6)
 
     prob.driver = om.ScipyOptimizeDriver(optimizer="SLSQP", tol=1e-8, maxiter=200, disp=False)
-    prob.driver.declare_coloring(show_summary=False)
     prob.setup()
     start(prob, blown)
+    prob.final_setup()
+    color_totals(prob)      # the total Jacobian's coloring from the declared partials, in memory
     return prob
 
 

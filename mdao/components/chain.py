@@ -13,7 +13,8 @@ from mdao import om
 from mdao import parameters as registry
 from mdao.components.common import (HOST_GIVES, HOST_INPUTS, analysis_errors, blowing_flags,
                                     checks_host_inputs, column, declare_chain_options, diagonal,
-                                    host_air, on_the_map, per_node_names, unset_start)
+                                    host_air, input_parameters, on_the_map, per_node_names,
+                                    unset_start)
 from mdao.physics import chain
 
 #: Node inputs that are design variables rather than model parameters: example value, units.
@@ -135,11 +136,7 @@ class ChainComp(om.ExplicitComponent):
         self._chain_opts = self._chain_options()
         self._chain_blowing = blowing_flags(o["blowing"], n)
         tabled = self._chain_opts.tabled()
-        params = [p for p in registry.chain_parameters(o["duct_model"], o["fan_model"],
-                                                       aircraft=o["aircraft"])
-                  if p.name not in tabled
-                  and (o["mission_sums"] or p.name != "duration")
-                  and (o["atmosphere"] == "isa" or p.name != "altitude")]
+        params = input_parameters(o)
         if o["sized_fan"]:   # the blowing system's mass from the rated power (issue: sizing)
             params += [p for p in registry.MASS_PARAMETERS
                        if p.used_by(o["duct_model"], o["fan_model"])]

@@ -198,6 +198,19 @@ PER_NODE_ALLOWED = tuple(p.name for p in registry.PARAMETERS if p.lift_table) + 
     "chain_efficiency", "motor_efficiency", "fan_rated_efficiency", "thrust_power_ceiling")
 
 
+def input_parameters(options):
+    """The declared parameters that a blown-wing chain with these options (:data:`CHAIN_OPTIONS`)
+    takes as inputs: those its duct and fan models (and the aircraft) use, less the constants
+    its lift tables give, ``duration`` without the mission sums and ``altitude`` with the
+    host's atmosphere. One selection for the fused chain and the per-discipline group."""
+    tabled = {name for name, _ in options["lift_tables"]}
+    return [p for p in registry.chain_parameters(options["duct_model"], options["fan_model"],
+                                                 aircraft=options["aircraft"])
+            if p.name not in tabled
+            and (options["mission_sums"] or p.name != "duration")
+            and (options["atmosphere"] == "isa" or p.name != "altitude")]
+
+
 def per_node_names(options):
     """The ``per_node`` option checked: names of :data:`PER_NODE_ALLOWED` that the chosen models
     use and that no lift table gives."""

@@ -198,10 +198,8 @@ class FanComp(om.ExplicitComponent):
             eta = phys.map_efficiency(phi, inputs['peak_efficiency'][0],
                                       inputs['peak_flow_coefficient'][0],
                                       inputs['efficiency_falloff'][0])
-            running = np.real(q * dp) > 0
-            if self._stopped() is not None:
-                running &= ~self._stopped()
-            on_the_map(eta, phi, running, inputs['peak_flow_coefficient'])
+            # a fan that runs moves air against a rise (dp is 0 where the fan is off)
+            on_the_map(eta, phi, np.real(q * dp) > 0, inputs['peak_flow_coefficient'])
             outputs['fan_speed'] = speed
             outputs['flow_coefficient'] = phi
             outputs['pressure_coefficient'] = phys.pressure_coefficient(dp, rho, speed, d)
