@@ -13,6 +13,7 @@ from mdao import om
 from mdao import constraints as design_constraints
 from mdao import parameters as registry
 from mdao.case.loading import lift_tables, segment_lift
+from mdao.driver import VectorSLSQPDriver
 from mdao.physics import chain
 from mdao.physics.atmosphere import isa
 from mdao.total_coloring import color_totals
@@ -432,8 +433,8 @@ def _add_optimization(prob, case, blow, follow, point):
         model.add_objective("net_power_saving", index=case.segment_names.index(segment),
                             ref=-_power_scale(case))
         of.append("net_power_saving")
-    prob.driver = om.ScipyOptimizeDriver(optimizer="SLSQP", maxiter=case.optimize["max_iterations"],
-                                         tol=case.optimize["tolerance"], disp=False)
+    prob.driver = VectorSLSQPDriver(optimizer="SLSQP", maxiter=case.optimize["max_iterations"],
+                                    tol=case.optimize["tolerance"], disp=False)
     return of, wrt
 
 

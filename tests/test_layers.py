@@ -1,6 +1,7 @@
 """The package's layers: imports point down only, with no circle, lazy imports included.
 
-physics, units, files, parameters, constraints (0) <- om, total_coloring, components, case (1)
+physics, units, files, parameters, constraints (0) <- om, driver, total_coloring, components,
+case (1)
 <- system (2) <-
 optimum (3) <- studies (4) <- report (5) <- cli (6) <- __main__ (7). The physics imports nothing
 from OpenMDAO, and only the command line parses arguments.
@@ -10,7 +11,7 @@ from pathlib import Path
 
 PACKAGE = Path(__file__).resolve().parents[1] / "mdao"
 LAYERS = (("mdao.physics", 0), ("mdao.units", 0), ("mdao.files", 0), ("mdao.parameters", 0),
-          ("mdao.constraints", 0), ("mdao.om", 1), ("mdao.total_coloring", 1),
+          ("mdao.constraints", 0), ("mdao.om", 1), ("mdao.driver", 1), ("mdao.total_coloring", 1),
           ("mdao.components", 1), ("mdao.case", 1),
           ("mdao.system", 2), ("mdao.optimum", 3), ("mdao.studies", 4), ("mdao.report", 5),
           ("mdao.cli", 6), ("mdao.__main__", 7))
