@@ -5,20 +5,32 @@ constraint function (and one gradient function) per scalar: a mission of 48 segm
 200 scalar constraints, and SLSQP then calls back into Python about 200 times for every value
 and every gradient it reads. At 48 segments those calls cost about a quarter of the whole
 optimization, more than the analytic gradients themselves (docs/performance.md).
-:class:`VectorSLSQPDriver` is that driver with one change: SciPy receives two constraint
+:class:`VectorSLSQPDriver` is that driver with two changes. SciPy receives two constraint
 functions, all equalities as one vector and all inequalities as another, read from the same
-cached values and gradient rows. SLSQP sees the same constraint rows in the same order, so it
-takes the same steps to round-off; everything else (objective, gradients, scaling, total
-coloring, recording, exceptions) is the parent driver's own code.
+cached values and gradient rows: SLSQP sees the same constraint rows in the same order, so it
+takes the same steps to round-off. And a point the model refuses with OpenMDAO's
+``AnalysisError`` during a line search makes the line search step back instead of ending the
+run. Everything else (objective, gradients, scaling, total coloring, recording, other errors)
+is the parent driver's own code.
 
 SciPy's SLSQP takes vector-valued constraints (``scipy.optimize.minimize``, ``constraints`` as
 dicts whose ``fun`` returns an array and ``jac`` a matrix, one row per element).
 """
 import numpy as np
-from scipy.optimize import minimize
+from scipy.optimize import OptimizeResult, minimize
 
+from openmdao.core.analysis_error import AnalysisError
 from openmdao.core.driver import RecordingDebugging
 from openmdao.drivers.scipy_optimizer import ScipyOptimizeDriver
+
+#: Exit status of a run that stopped against points the model refuses: SLSQP asked a gradient
+#: at one (its line search had run out of shorter steps), or it stopped right after a line search
+#: that backed off from them. SciPy's own statuses are 0 to 9.
+REFUSED_STATUS = 10
+
+
+class _RefusedGradient(Exception):
+    """SLSQP asked for a gradient at a point the model refused."""
 
 
 class VectorSLSQPDriver(ScipyOptimizeDriver):
@@ -29,7 +41,24 @@ class VectorSLSQPDriver(ScipyOptimizeDriver):
     print the parent's "Optimization Complete"/"FAILED" banner (the result says so). Another
     optimizer than ``"SLSQP"`` runs the parent's code unchanged. Linear constraints are read
     with the nonlinear ones, from the same gradient (SLSQP does not treat them apart).
+
+    A point the model refuses with OpenMDAO's ``AnalysisError`` (an input out of the model's
+    range, such as a fan map run off its map) during SLSQP's line search is reported to SLSQP
+    as worse than the last point the model evaluated (its objective plus
+    :attr:`REFUSED_PENALTY` times its magnitude, its constraint values), so that the line
+    search takes a shorter step, as OpenMDAO's other drivers back off; the parent stops the
+    whole optimization with the error instead. :attr:`refused` lists each refused point's
+    message. A run that ends on a refused point, or whose SLSQP asks a gradient at one, is left
+    at the last point the model evaluated, run again, and reported as not converged (status
+    :data:`REFUSED_STATUS` in the latter case); so is a run whose SLSQP reports convergence
+    right after a line search that backed off from refused points (held there by the model's
+    range, not by the problem's constraints). An ``AnalysisError`` at the start point, and any
+    other error, stops the run as before.
     """
+
+    #: How much worse than the last evaluated point a refused one is reported, relative to
+    #: that point's objective magnitude (at least 1, in the driver's scaled objective).
+    REFUSED_PENALTY = 1e3
 
     def run(self):
         """Optimize with SLSQP. Returns the failure flag (True: not converged)."""
@@ -48,7 +77,10 @@ class VectorSLSQPDriver(ScipyOptimizeDriver):
 
         with RecordingDebugging(self._get_name(), self.iter_count, self):   # initial run
             with model._relevance.nonlinear_active("iter"):
-                self._run_solve_nonlinear()
+                try:
+                    self._run_solve_nonlinear()
+                except AnalysisError as err:    # no point to back off to: say where it was
+                    raise type(err)(f"at the optimizer's start point: {err}") from err
             self.iter_count += 1
         self._con_cache = self.get_constraint_values()
         self._dvlist = list(self._designvars)
@@ -57,18 +89,62 @@ class VectorSLSQPDriver(ScipyOptimizeDriver):
         self.opt_settings.setdefault("maxiter", self.options["maxiter"])
         self.opt_settings["disp"] = self.options["disp"]
         prob.get_total_coloring(self._coloring_info, run_model=False)
+        self.refused = []
+        self._good = (x_init.copy(), next(iter(self.get_objective_values().values())))
+        self._on_refused = False
+        self._gradients = 0
         try:
             result = minimize(self._objfunc, x_init, method="SLSQP", jac=self._gradfunc,
                               bounds=bounds, constraints=constraints, tol=self.options["tol"],
                               options=self.opt_settings)
+        except _RefusedGradient:
+            result = OptimizeResult(
+                x=self._good[0], success=False, status=REFUSED_STATUS,
+                nit=max(0, self._gradients - 1),      # the first gradient is at the start
+                message="the model refused the point SLSQP asked a gradient at")
         except Exception:
             if self._exc_info is None:      # not one of the callbacks' stored exceptions
                 raise
         if self._exc_info is not None:
             self._reraise()
+        if self._on_refused:                # leave the problem at a point the model evaluated
+            self._objfunc(self._good[0])
+            result.success = False
+        if result.success and self.refused and self._refused_after >= self._gradients - 1:
+            # its last line search backed off from refused points: the model's range, not the
+            # problem's constraints, holds the point where it is
+            result.success = False
+            result.status = REFUSED_STATUS
+            result.message = ("SLSQP stopped against points the model refuses (its last line "
+                              "search backed off from them)")
         self._scipy_optimize_result = result
         self.fail = not result.success
         return self.fail
+
+    def _objfunc(self, x_new):
+        """The parent's objective (it runs the model); a point the model refuses with an
+        ``AnalysisError`` is reported as worse than the last evaluated one (see the class)."""
+        f = super()._objfunc(x_new)
+        info = self._exc_info
+        if info is None:
+            self._good = (np.array(x_new, float), f)
+            self._on_refused = False
+            return f
+        if not issubclass(info[0], AnalysisError):
+            return f                        # stored: raised at SciPy's next call
+        self._exc_info = None
+        self.refused.append(str(info[1]))
+        self._refused_after = self._gradients      # in the line search after that gradient
+        self._on_refused = True
+        f_good = float(np.ravel(self._good[1])[0])
+        return f_good + self.REFUSED_PENALTY * max(1.0, abs(f_good))
+
+    def _gradfunc(self, x_new):
+        """The parent's gradient, refused at a point the model refused."""
+        if getattr(self, "_on_refused", False):
+            raise _RefusedGradient()
+        self._gradients = getattr(self, "_gradients", 0) + 1
+        return super()._gradfunc(x_new)
 
     def _start_and_bounds(self):
         """The start point and SLSQP's bounds (``(lower, upper)`` per scalar, None where

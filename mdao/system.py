@@ -270,7 +270,7 @@ def start_point(case):
                                           **rated), chain_options(case), blowing=case.blowing)
     rating = None
     if case.sizes_fan:   # rate the fan for the start's largest need, and fly its mass
-        rating = float(case.mass["power_margin"] * np.max(out["fan_shaft_power"][case.blowing]))
+        rating = _rating_for(case, out)
         out = chain.evaluate(chain_parameters(case, momentum_coefficient=cmu, slot_ratio=ratio,
                                               rated_shaft_power=rating),
                              chain_options(case), blowing=case.blowing)
@@ -292,8 +292,19 @@ def _start_rating(case):
     cmu = np.where(case.blowing, np.sqrt(lo * hi), 0.0)
     out = chain.evaluate(chain_parameters(case, momentum_coefficient=cmu, rated_shaft_power=0.0),
                          chain_options(case), blowing=case.blowing)
-    return {"rated_shaft_power": float(case.mass["power_margin"]
-                                     * np.max(out["fan_shaft_power"][case.blowing]))}
+    return {"rated_shaft_power": _rating_for(case, out)}
+
+
+def _rating_for(case, out):
+    """A start's fan rating [W]: the power margin times the largest shaft power of the
+    blowing segments whose fan runs on its map (efficiency above zero; off its map the values
+    chain's shaft power may be negative and means nothing). Where no segment needs power there
+    (ram-driven jets, or every fan off its map), the margin times the clean section's drag power
+    of the first segment instead: a rating must be positive, and it also scales the design
+    variable."""
+    on_map = (np.real(out["fan_efficiency"]) > 0) & case.blowing
+    need = float(np.max(np.where(on_map, out["fan_shaft_power"], 0.0), initial=0.0))
+    return float(case.mass["power_margin"] * (need if need > 0 else _power_scale(case)))
 
 
 #: Constants of the high-lift requirement (used only with a high-lift segment).

@@ -4,11 +4,13 @@ bundled case, with two constraint functions instead of one per scalar."""
 import numpy as np
 import pytest
 
+from openmdao.core.analysis_error import AnalysisError
+
 from mdao import driver as vector_driver
 from mdao import om
 from mdao import system
 from mdao.case import load_case
-from mdao.driver import VectorSLSQPDriver
+from mdao.driver import REFUSED_STATUS, VectorSLSQPDriver
 from mdao.optimum.solve import run_driver_quietly
 
 CASES = ("survey-drone", "coastal-patrol", "levee-inspector", "island-shuttle")
@@ -128,3 +130,65 @@ def test_bundled_cases_reach_openmdaos_optimum(name, cases_dir, monkeypatch):
     a, b = ours.driver.get_design_var_values(), theirs.driver.get_design_var_values()
     for key in a:
         np.testing.assert_allclose(a[key], b[key], rtol=1e-9, atol=1e-12, err_msg=key)
+
+
+def _refusing(driver_class, power, limit, start=0.0):
+    """min (x - 3)^power over -20 <= x <= 20 (and x <= 15 as a constraint) from ``start``, a
+    model that refuses every x above ``limit`` with an AnalysisError (as the fan map refuses a
+    point off its map)."""
+
+    class Refusing(om.ExplicitComponent):
+        def setup(self):
+            self.add_input("x", 0.0)
+            self.add_output("f")
+            self.add_output("g")
+            self.declare_partials("f", "x")
+            self.declare_partials("g", "x", val=1.0)
+
+        def compute(self, inputs, outputs):
+            if inputs["x"][0] > limit:
+                raise AnalysisError(f"x = {inputs['x'][0]} is beyond {limit}")
+            outputs["f"] = (inputs["x"] - 3.0) ** power
+            outputs["g"] = inputs["x"]
+
+        def compute_partials(self, inputs, partials):
+            partials["f", "x"] = power * (inputs["x"] - 3.0) ** (power - 1)
+
+    prob = om.Problem(reports=False)
+    prob.model.add_subsystem("model", Refusing(), promotes=["*"])
+    prob.model.add_design_var("x", lower=-20.0, upper=20.0)
+    prob.model.add_objective("f")
+    prob.model.add_constraint("g", upper=15.0)
+    prob.driver = driver_class(optimizer="SLSQP", tol=1e-10, maxiter=50, disp=False)
+    prob.setup()
+    prob.set_val("x", start)
+    return prob
+
+
+def test_a_line_search_backs_off_where_the_model_refuses():
+    """(x-3)^4 from 0: SLSQP's first step goes to the bound x = 15 of its constraint, which the
+    model refuses; the line search takes a shorter step and the run converges to 3. OpenMDAO's
+    own driver stops the whole run with the error there."""
+    ours = _refusing(VectorSLSQPDriver, 4, 10.0)
+    assert run_driver_quietly(ours).success
+    assert ours.get_val("x")[0] == pytest.approx(3.0, abs=1e-2)
+    assert len(ours.driver.refused) >= 1 and "beyond 10" in ours.driver.refused[0]
+    with pytest.raises(AnalysisError, match="beyond 10"):
+        run_driver_quietly(_refusing(om.ScipyOptimizeDriver, 4, 10.0))
+
+
+def test_an_optimum_beyond_the_models_range_is_not_reported_as_converged():
+    """(x-3)^2 with every x above 2.5 refused: SLSQP ends pressed against 2.5, held there by
+    the model's range and not by a constraint. Not converged, with its own status, and the
+    problem left at a point the model evaluated."""
+    prob = _refusing(VectorSLSQPDriver, 2, 2.5)
+    assert not run_driver_quietly(prob).success
+    assert prob.driver._scipy_optimize_result.status == REFUSED_STATUS
+    x = prob.get_val("x")[0]
+    assert 2.0 < x <= 2.5
+    assert prob.get_val("f")[0] == pytest.approx((x - 3.0) ** 2, rel=1e-12)
+
+
+def test_a_start_point_the_model_refuses_is_an_error_that_says_so():
+    with pytest.raises(AnalysisError, match="at the optimizer's start point: .*beyond 2.5"):
+        run_driver_quietly(_refusing(VectorSLSQPDriver, 2, 2.5, start=3.0))

@@ -178,6 +178,42 @@ def test_same_optimum_from_several_starts(path, cases_dir):
                        for s in other.segments if s["blowing"])
 
 
+@pytest.mark.parametrize("path", ["coastal-patrol.toml", "island-shuttle.toml"])
+def test_random_starts_end_in_an_outcome_or_a_start_point_error(path, cases_dir):
+    """Starts drawn over the calibrated momentum coefficients and the slot ratio's bounds, on
+    the cases with a fan map: on the way some line searches step where the map has no operating
+    point (efficiency at or below zero), and some starts are off the map themselves. Every run
+    returns an outcome (a converged one feasible and no better than the default start's) or,
+    for a start the model refuses, an error that says it is the start; nothing else escapes."""
+    from mdao.case import load_case
+    from openmdao.core.analysis_error import AnalysisError
+    case = load_case(cases_dir / path)
+    ref = optimize(case)
+    rng = np.random.default_rng(11)
+    lo, hi = case.airfoil["momentum_coefficient_range"]
+    blowing = [s["name"] for s in case.segments if s["blowing"]]
+    outcomes = []
+    for _ in range(10):
+        changes = {f"segment.{name}.momentum_coefficient": float(rng.uniform(lo, 0.8 * hi))
+                   for name in blowing}
+        changes["slot.ratio"] = float(rng.uniform(*case.slot["ratio_bounds"]))
+        try:
+            other = optimize(case.replace(changes))
+        except AnalysisError as err:
+            assert "at the optimizer's start point" in str(err)
+            assert "[[segment]] momentum_coefficient" in str(err)
+            outcomes.append("start refused")
+            continue
+        outcomes.append(other.converged)
+        if other.converged:
+            assert other.mission_energy_saving_J <= ref.mission_energy_saving_J * (1 + 1e-6)
+            assert all(s["energy_margin_W"] >= -1e-6 * s["air_power_W"]
+                       for s in other.segments if s["blowing"])
+        else:
+            assert other.message != "converged"
+    assert True in outcomes
+
+
 def test_segment_objective():
     case = _case(optimize__objective="segment:b")
     out = optimize(case)

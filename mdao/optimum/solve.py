@@ -13,7 +13,10 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from openmdao.core.analysis_error import AnalysisError
+
 from mdao import constraints
+from mdao.driver import REFUSED_STATUS
 from mdao.optimum.breakeven import break_even_efficiency
 from mdao.case.loading import lift_tables, segment_reynolds
 from mdao.components.mass import mass_values
@@ -292,6 +295,12 @@ def optimize(case, problem=None, warm_start=None, record=None):
     recorder = _recorder(prob, record) if record is not None else None
     try:
         result = run_driver_quietly(prob)
+    except AnalysisError as err:
+        if prob.driver.iter_count:      # not at the start point: the driver's own report
+            raise
+        raise type(err)(f"{err}; the start is the case's [[segment]] momentum_coefficient and "
+                        f"slot.ratio where it gives them (else the start-point search's): give "
+                        f"another start, or leave momentum_coefficient out") from err
     finally:
         if recorder is not None:
             recorder.shutdown()
@@ -307,6 +316,10 @@ def optimize(case, problem=None, warm_start=None, record=None):
                    + "; ".join(bad) + "): try another start point or tighten optimize.tolerance")
     elif not result.success:
         message = failure_sentence(getattr(scipy_result, "status", None), case, iterations)
+        refused = getattr(prob.driver, "refused", None)
+        if refused:
+            message += (f"; the model refused {len(refused)} of the points the optimizer "
+                        f"tried (the last: {refused[-1]})")
         lacking = start_point(case).without_admissible_point
         if lacking:
             message += ("; in segment(s) " + ", ".join(lacking) + " no momentum coefficient of "
@@ -383,6 +396,11 @@ def failure_sentence(status, case, iterations):
         return (f"the optimizer stopped at its iteration limit (optimize.max_iterations = "
                 f"{case.optimize['max_iterations']}) before converging: raise "
                 "optimize.max_iterations or loosen optimize.tolerance")
+    if status == REFUSED_STATUS:
+        return (f"the optimizer stopped against points the model cannot evaluate (outside its "
+                f"range, such as a fan map run off its map), after {iterations} iterations: "
+                f"check the fan's flow-coefficient range and the case's bounds, or try another "
+                f"start point")
     if status in _SLSQP_STOPS:
         what, remedy = _SLSQP_STOPS[status]
         return f"{what}, after {iterations} iterations: {remedy}"
