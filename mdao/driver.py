@@ -60,6 +60,14 @@ class VectorSLSQPDriver(ScipyOptimizeDriver):
     #: that point's objective magnitude (at least 1, in the driver's scaled objective).
     REFUSED_PENALTY = 1e3
 
+    def __init__(self, **kwargs):
+        super().__init__(**kwargs)
+        self.refused = []               # each refused point's message, of the last run
+        self._good = None               # (x, objective) of the last point the model evaluated
+        self._on_refused = False        # the model's state is that of a refused point
+        self._gradients = 0             # gradients computed in the run
+        self._refused_after = 0         # the gradient count at the last refusal
+
     def run(self):
         """Optimize with SLSQP. Returns the failure flag (True: not converged)."""
         if self.options["optimizer"] != "SLSQP":
@@ -141,9 +149,9 @@ class VectorSLSQPDriver(ScipyOptimizeDriver):
 
     def _gradfunc(self, x_new):
         """The parent's gradient, refused at a point the model refused."""
-        if getattr(self, "_on_refused", False):
+        if self._on_refused:
             raise _RefusedGradient()
-        self._gradients = getattr(self, "_gradients", 0) + 1
+        self._gradients += 1
         return super()._gradfunc(x_new)
 
     def _start_and_bounds(self):
