@@ -133,12 +133,14 @@ def _greedy_groups(part):
     adjacency = (part.T @ part).tocsr()          # columns that share a row
     degree = np.diff(adjacency.indptr)
     colors = np.full(part.shape[1], -1)
-    for col in np.argsort(-degree, kind="stable"):
+    start, stop = adjacency.indptr[:-1].tolist(), adjacency.indptr[1:].tolist()
+    for col in np.argsort(-degree, kind="stable").tolist():
         if degree[col] == 0:
             continue                              # no nonzero: needs no solve
-        taken = colors[adjacency.indices[adjacency.indptr[col]:adjacency.indptr[col + 1]]]
-        free = np.setdiff1d(np.arange(taken.size + 1), taken, assume_unique=False)
-        colors[col] = free[0]
+        taken = colors[adjacency.indices[start[col]:stop[col]]]
+        used = np.zeros(taken.size + 1, bool)     # a free color is among the first size + 1
+        used[taken[(taken >= 0) & (taken <= taken.size)]] = True
+        colors[col] = used.argmin()               # the smallest color no neighbour has
     return [sorted(np.flatnonzero(colors == c).tolist()) for c in range(colors.max() + 1)]
 
 

@@ -145,6 +145,22 @@ def test_unknown_partials_scope_is_refused(option, name):
     assert option in text and name in text and "allowed" in text
 
 
+def test_greedy_coloring_by_hand():
+    """Columns 0-4 of a 5 x 6 pattern share rows pairwise: 0-1, 1-2, 2-3, 3-4 and 0-2; column 5
+    is empty (no solve). Neighbours, counting the column itself: 2 has four, 0, 1 and 3 three,
+    4 two. Largest first, ties in column order (Coleman and More 1983): 2 gets color 0; 0
+    meets 2, color 1; 1 meets 0 and 2, color 2; 3 meets 2, color 1; 4 meets 3, color 0."""
+    from scipy import sparse
+    from mdao.total_coloring import _greedy_groups
+    rows = [[1, 1, 0, 0, 0, 0], [0, 1, 1, 0, 0, 0], [0, 0, 1, 1, 0, 0], [0, 0, 0, 1, 1, 0],
+            [1, 0, 1, 0, 0, 0]]
+    groups = _greedy_groups(sparse.csr_matrix(np.array(rows, bool)))
+    assert groups == [[2, 4], [0, 3], [1]]
+    pattern = np.array(rows, bool)
+    for group in groups:        # no two columns of a group share a row
+        assert pattern[:, group].sum(axis=1).max() <= 1
+
+
 def test_implicit_models_are_refused():
     from openmdao.components.balance_comp import BalanceComp
     prob = om.Problem(reports=False)
