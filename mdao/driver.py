@@ -188,7 +188,6 @@ class VectorSLSQPDriver(ScipyOptimizeDriver):
             if meta["indices"] is not None:
                 meta["size"] = meta["indices"].indexed_src_size
             size = meta["global_size"] if meta["distributed"] else meta["size"]
-            self._con_idx[name] = 1 + start     # its first row in the gradient (row 0: objective)
             here = np.arange(start, start + size)
             start += size
             b = scaled[name]
