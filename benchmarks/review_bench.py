@@ -1,5 +1,6 @@
-"""Benchmark of the review's vectorized studies: a 1e6-point net-power sweep and a 1e5-sample
-Monte Carlo, for each bundled case. Prints wall time (best of 3) and peak traced memory
+"""Benchmark of the review's vectorized studies: a 1e6-point net-power sweep, a 1e5-sample
+Monte Carlo and the two break-even maps (31 x 31 points, a grid and golden-section search at
+each), for each bundled case. Prints wall time (best of 3; the maps once) and peak traced memory
 (tracemalloc, a separate run); asserts nothing.
 
     python benchmarks/review_bench.py
@@ -15,7 +16,7 @@ os.environ.setdefault("OPENMDAO_REPORTS", "0")
 
 from mdao.case import load_case  # noqa: E402
 from mdao.optimum import optimize  # noqa: E402
-from mdao.studies.sweeps import net_power_sweep, sweep_efficiencies  # noqa: E402
+from mdao.studies.sweeps import net_power_sweep, review_maps, sweep_efficiencies  # noqa: E402
 from mdao.studies.uncertainty import monte_carlo  # noqa: E402
 
 CASES = Path(__file__).resolve().parents[1] / "cases"
@@ -52,6 +53,9 @@ def main():
         t, mem = _measure(lambda: monte_carlo(case, out, samples=100_000))
         print(f"{name}: Monte Carlo of 100,000 samples x {nseg} segments: {t:.3f} s, "
               f"peak {mem:.0f} MiB")
+        t, mem = _measure(lambda: review_maps(case, out), repeat=1)
+        print(f"{name}: the review's two break-even maps (31 x 31 points x {nseg} segments): "
+              f"{t:.3f} s, peak {mem:.0f} MiB")
 
 
 if __name__ == "__main__":

@@ -203,15 +203,21 @@ def bounds(constraint, case):
     return _bound(case, constraint.lower), _bound(case, constraint.upper)
 
 
-def reference(constraint, case, values=None, blowing=None):
+def reference(constraint, case, values=None, blowing=None, per_point=False):
     """A value of the constraint's size: the optimizer's ``ref`` for it.
 
     The largest magnitude of its ``scale_by`` quantity over the blowing segments (from
     ``values``), else the larger bound in magnitude (the fan's maximum pressure rise for the
-    pressure balance).
+    pressure balance). With ``per_point``, an array: each point's own magnitude of the
+    ``scale_by`` quantity (the bound-based value where that is zero or not finite), so that a
+    point's relative margin does not depend on the other points evaluated with it (searches
+    over many candidate points).
     """
     if constraint.scale_by and values is not None and constraint.scale_by in values:
         v = np.abs(np.asarray(values[constraint.scale_by], float))
+        if per_point:
+            with np.errstate(invalid="ignore"):
+                return np.where(np.isfinite(v) & (v > 0), v, reference(constraint, case))
         try:
             v = np.where(case.blowing if blowing is None else blowing, v, 0.0)
         except ValueError:  # the last axis is not the segments' (a search grid)
@@ -233,11 +239,11 @@ def quantity(constraint, values):
     return np.asarray(values[constraint.quantity], float)
 
 
-def margin(constraint, case, values, blowing=None):
+def margin(constraint, case, values, blowing=None, per_point=False):
     """Relative margin of a constraint: >= 0 where it holds, < 0 by how much it is broken.
 
-    Each side is divided by its own bound (by the larger bound where that is zero; the
-    pressure balance by :func:`reference`). Per-segment constraints give NaN where the fan does not run
+    Each side is divided by its own bound (where that is zero, and for the pressure balance,
+    by :func:`reference`, with ``per_point`` each point's own). Per-segment constraints give NaN where the fan does not run
     (``blowing``, default the case's per segment; ``True`` everywhere for searches whose last
     axis is not the segments); a non-finite quantity gives ``-inf`` (broken). An equality's
     margin is ``-|gap|``.
@@ -246,9 +252,10 @@ def margin(constraint, case, values, blowing=None):
     lo, hi = bounds(constraint, case)
     with np.errstate(invalid="ignore", divide="ignore"):
         if constraint.equals is not None:
-            m = -np.abs(x - constraint.equals) / reference(constraint, case, values, blowing)
+            m = -np.abs(x - constraint.equals) / reference(constraint, case, values, blowing,
+                                                           per_point)
         else:
-            big = reference(constraint, case, values, blowing)
+            big = reference(constraint, case, values, blowing, per_point)
             m = np.full(x.shape, np.inf)
             if lo is not None:
                 m = np.minimum(m, (x - lo) / (abs(lo) or big))
@@ -260,7 +267,7 @@ def margin(constraint, case, values, blowing=None):
     return m
 
 
-def margins(case, values, constraints=None, blowing=None):
+def margins(case, values, constraints=None, blowing=None, per_point=False):
     """``{name: relative margin}`` of every applicable constraint whose quantity is in
     ``values`` (see :func:`margin`)."""
     cons = applicable(case) if constraints is None else constraints
@@ -269,20 +276,20 @@ def margins(case, values, constraints=None, blowing=None):
         need = ("fan_pressure_rise", "required_pressure_rise") \
             if c.quantity == "pressure_balance" else (c.quantity,)
         if all(k in values for k in need):
-            out[c.name] = margin(c, case, values, blowing)
+            out[c.name] = margin(c, case, values, blowing, per_point)
     return out
 
 
 def holds(case, values, constraints=None, tol=FEASIBLE_TOL, per_segment_only=False,
-          blowing=None):
+          blowing=None, per_point=False):
     """Where every constraint holds within ``tol``: a boolean array over the leading axes and
-    segments (wing-level constraints broadcast over the segments; ``blowing`` as in
-    :func:`margin`)."""
+    segments (wing-level constraints broadcast over the segments; ``blowing`` and
+    ``per_point`` as in :func:`margin`)."""
     cons = applicable(case) if constraints is None else constraints
     if per_segment_only:
         cons = [c for c in cons if c.per_segment]
     ok = None
-    for name, m in margins(case, values, cons, blowing).items():
+    for name, m in margins(case, values, cons, blowing, per_point).items():
         c = BY_NAME[name]
         with np.errstate(invalid="ignore"):
             good = np.isnan(m) | (m >= -tol)

@@ -172,6 +172,28 @@ def test_margins_sign_and_activity(cases_dir):
     assert off.size and np.all(np.isnan(m[off]))
 
 
+
+def test_per_point_margins_do_not_depend_on_the_other_points(cases_dir):
+    """The energy consistency's bound is 0, so its margin is divided by the air power: by
+    default the largest over the points given (one design's segments, as the optimizer scales
+    it), with ``per_point`` each point's own. A point 1e-11 W short of the balance with 1 W of
+    air power holds within 1e-12 beside a point of 1 MW by default, not per point; per point,
+    its margin is the same alone and beside the other (what a search over candidate points
+    needs)."""
+    case = load_case(cases_dir / "coastal-patrol.toml")
+    energy = constraints.BY_NAME["energy consistency"]
+    both = {"energy_margin": np.array([-1e-11, 5.0]), "air_power": np.array([1.0, 1e6])}
+    alone = {k: v[:1] for k, v in both.items()}
+    batch = constraints.margin(energy, case, both, blowing=True)
+    assert batch[0] == pytest.approx(-1e-17)
+    m_both = constraints.margin(energy, case, both, blowing=True, per_point=True)
+    m_alone = constraints.margin(energy, case, alone, blowing=True, per_point=True)
+    assert m_both[0] == m_alone[0] == pytest.approx(-1e-11)
+    assert m_both[1] == pytest.approx(5e-6)
+    assert constraints.holds(case, both, [energy], tol=1e-12, blowing=True)[0]
+    assert not constraints.holds(case, both, [energy], tol=1e-12, blowing=True,
+                                 per_point=True)[0]
+
 def test_case_file_page_lists_every_parameter_and_setting():
     """docs/case-files.md has a row for every declared parameter and every setting."""
     text = (ROOT / "docs" / "case-files.md").read_text(encoding="utf-8")

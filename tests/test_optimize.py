@@ -255,6 +255,26 @@ def test_break_even_search_agrees_with_closed_form():
     np.testing.assert_allclose(searched, closed, rtol=1e-7)
 
 
+
+def test_break_even_search_keeps_a_narrow_admissible_range(monkeypatch):
+    """A ratio admissible only on a sliver around one grid point (narrower than the golden
+    sections' first interior points), falling towards the sliver's upper end: the search stays
+    on the sliver and finds its end, 1 - 1e-3, where a golden-section search that leaves the
+    grid's best point behind returns that point's 1.0."""
+    from mdao.optimum import breakeven
+    lo, hi = np.array([0.01]), np.array([0.1])
+    grid = np.geomspace(lo[0], hi[0], breakeven.GRID)
+    x0, step = grid[40], grid[41] - grid[40]
+    width = 1e-3 * step
+
+    def ratio(case, params, cmu):
+        cmu = np.asarray(cmu, float)
+        return np.where(np.abs(cmu - x0) <= width, 1.0 - (cmu - x0) / step, np.inf)
+
+    monkeypatch.setattr(breakeven, "_air_power_per_saving", ratio)
+    found = breakeven._search(_case(), {}, lo, hi)
+    assert found[0] == pytest.approx(1.0 - 1e-3, rel=1e-9)
+
 def test_energy_margin_by_hand_held_and_flagged(cases_dir):
     """The energy margin c P_air + D V of every blowing segment recomputed from the reported
     air power (Q dP at unit efficiency), drag and speed. At the survey optimum it holds and

@@ -289,6 +289,45 @@ def test_break_even_map_against_closed_form_and_brute_force(survey):
     assert [mm["y_key"] for mm in maps] == ["duct.jet_loss_factor", "airfoil.drag_per_momentum"]
 
 
+
+def test_break_even_map_in_parts_equals_one_call(coastal, monkeypatch):
+    """A map searches its rows in parts (``chunk_rows`` operating points times the geometric
+    duct's stations per search), and the search evaluates its grid of momentum coefficients in
+    parts of at most GRID_BUDGET points, so that a large map's temporaries stay small. Every
+    point is elementwise: a small map of the geometric duct taken in many parts, either way,
+    equals the map taken in one call, bit for bit (NaN where blank, too)."""
+    from mdao.optimum import breakeven
+    case, out = coastal
+    keys = ("airfoil.slot_drag", np.array([0.0, 0.02, 0.05]),
+            "airfoil.drag_per_momentum", np.array([-3.0, -1.5]))
+    widths = []
+    spied = breakeven._air_power_per_saving
+
+    def spy(case, params, cmu):
+        widths.append(np.shape(cmu)[-1] if np.ndim(cmu) else 1)
+        return spied(case, params, cmu)
+
+    monkeypatch.setattr(breakeven, "_air_power_per_saving", spy)
+    whole = W.break_even_map(case, out, *keys)
+    assert breakeven.GRID in widths                    # the grid in one call
+    column = 3 * 2 * len(case.segments) * case.duct["stations"]
+    monkeypatch.setattr(breakeven, "GRID_BUDGET", 10 * column)
+    widths.clear()
+    parts = W.break_even_map(case, out, *keys)
+    assert breakeven.GRID not in widths and 10 in widths
+    assert np.isfinite(whole["efficiency"]).sum() >= 6   # not a map of blanks
+    assert np.array_equal(parts["efficiency"], whole["efficiency"], equal_nan=True)
+    assert np.array_equal(parts["blank"], whole["blank"])
+    monkeypatch.undo()
+    searched = []
+    spied_search = breakeven._search
+    monkeypatch.setattr(breakeven, "_search", lambda *a: searched.append(1) or spied_search(*a))
+    monkeypatch.setattr(W, "chunk_rows", lambda case: 3)      # one row of three points a part
+    rows = W.break_even_map(case, out, *keys)
+    assert len(searched) == 2
+    assert np.array_equal(rows["efficiency"], whole["efficiency"], equal_nan=True)
+    assert np.array_equal(rows["blank"], whole["blank"])
+
 def test_monte_carlo_against_direct_calculation_and_seed(survey, coastal):
     """Probability of saving and percentiles against a direct calculation on the same draws:
     the lumped closed form per sample (survey drone) and the OpenMDAO model run sample by

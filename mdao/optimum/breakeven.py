@@ -27,6 +27,10 @@ from mdao.system import chain_options, chain_parameters
 NOT_FOR_BREAK_EVEN = ("rated power", "high-lift requirement")
 GRID = 81
 GOLDEN_STEPS = 45  # the bracket shrinks to 1e-9 of one grid step
+#: Operating points (times the geometric duct's stations, along which it evaluates its
+#: friction) per chain evaluation of the search's grid: a map of many points evaluates its grid
+#: in parts along the grid, so that the temporaries stay small.
+GRID_BUDGET = 2 ** 18
 
 
 def admissible_range(case, params):
@@ -67,7 +71,7 @@ def _air_power_per_saving(case, params, cmu):
     prop = out["propulsion_power_saving"]
     out["momentum_coefficient"] = np.broadcast_to(cmu, np.shape(prop))
     ok = (prop > 0) & constraints.holds(case, out, _admissible_constraints(case), tol=1e-12,
-                                        blowing=True)
+                                        blowing=True, per_point=True)
     with np.errstate(divide="ignore", invalid="ignore"):
         r = out["air_power"] / (params["motor_efficiency"] * prop)
     return np.where(ok, r, np.inf)
@@ -134,22 +138,57 @@ def break_even_efficiency(case, slot_ratio=None, params=None, design=None):
     return eff
 
 
+def _grid_ratios(case, p, grid):
+    """:func:`_air_power_per_saving` on a grid of momentum coefficients along the last axis, in
+    parts of at most :data:`GRID_BUDGET` points along it (each point elementwise: the same values
+    as in one call)."""
+    column = np.broadcast_shapes(grid.shape[:-1] + (1,), *(
+        np.shape(v) for k, v in p.items() if k != "pressure_coefficients"))
+    stations = case.duct["stations"] if case.duct["model"] == "geometric" else 1
+    step = max(1, GRID_BUDGET // (int(np.prod(column)) * stations))
+    if step >= grid.shape[-1]:
+        return _air_power_per_saving(case, p, grid)
+    return np.concatenate([_air_power_per_saving(case, p, grid[..., i:i + step])
+                           for i in range(0, grid.shape[-1], step)], axis=-1)
+
+
 def _search(case, p, lo, hi):
-    """Grid then vectorized golden-section search of min ratio over [lo, hi] (log scale)."""
+    """Grid then vectorized golden-section search of min ratio over [lo, hi] (log scale).
+
+    The ratio is +inf where a point is inadmissible, so it need not be unimodal in the bracket:
+    the search keeps the best point it has evaluated (the grid's to begin with) and returns its
+    value if no later point beats it; where both interior points are inadmissible it keeps the
+    part of the bracket that holds that best point."""
     t = np.linspace(0.0, 1.0, GRID)
     llo, lhi = np.log(lo)[..., None], np.log(np.maximum(hi, lo))[..., None]
     grid = np.exp(llo + (lhi - llo) * t)
     pe = {k: (np.asarray(v)[..., None] if k != "pressure_coefficients" else v)
           for k, v in p.items()}
-    vals = _air_power_per_saving(case, pe, grid)
+    vals = _grid_ratios(case, pe, grid)
     k = np.argmin(vals, axis=-1)
     a = np.take_along_axis(grid, np.maximum(k - 1, 0)[..., None], -1)[..., 0]
     b = np.take_along_axis(grid, np.minimum(k + 1, GRID - 1)[..., None], -1)[..., 0]
+    x_best = np.take_along_axis(grid, k[..., None], -1)[..., 0]
     best = np.take_along_axis(vals, k[..., None], -1)[..., 0]
+    # golden sections (Kiefer 1953): each step keeps one interior point and its value, so it
+    # evaluates the chain once, at the new interior point of each bracket
     g = (np.sqrt(5.0) - 1.0) / 2.0
+    c, d = b - g * (b - a), a + g * (b - a)
+    fc, fd = _air_power_per_saving(case, p, c), _air_power_per_saving(case, p, d)
+    for f_new, new in ((fc, c), (fd, d)):
+        better = f_new < best
+        x_best, best = np.where(better, new, x_best), np.where(better, f_new, best)
     for _ in range(GOLDEN_STEPS):
-        c, d = b - g * (b - a), a + g * (b - a)
-        left = _air_power_per_saving(case, p, c) < _air_power_per_saving(case, p, d)
+        # the least value lies in [a, d] where f(c) < f(d), else in [c, b]; where both points
+        # are inadmissible, in the part that holds the best point so far
+        left = np.where(np.isinf(fc) & np.isinf(fd), x_best <= d, fc < fd)
         a, b = np.where(left, a, c), np.where(left, d, b)
+        kept, f_kept = np.where(left, c, d), np.where(left, fc, fd)
+        new = np.where(left, b - g * (b - a), a + g * (b - a))
+        f_new = _air_power_per_saving(case, p, new)
+        c, fc = np.where(left, new, kept), np.where(left, f_new, f_kept)
+        d, fd = np.where(left, kept, new), np.where(left, f_kept, f_new)
+        better = f_new < best
+        x_best, best = np.where(better, new, x_best), np.where(better, f_new, best)
     mid = 0.5 * (a + b)
     return np.minimum(best, _air_power_per_saving(case, p, mid))

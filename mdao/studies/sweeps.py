@@ -172,8 +172,11 @@ def break_even_map(case, outcome, x_key, x_values, y_key, y_values):
     else:
         p = dict(base)
         p[names[x_key]] = x[None, :, None]
-        p[names[y_key]] = y[:, None, None]
-        eff = np.broadcast_to(break_even_efficiency(case, params=p), (len(y), len(x), nseg)).copy()
+        rows = max(1, chunk_rows(case) // len(x))   # rows of the map per search: bounded memory
+        eff = np.concatenate([
+            np.broadcast_to(break_even_efficiency(
+                case, params=dict(p, **{names[y_key]: y[j:j + rows, None, None]})),
+                (len(y[j:j + rows]), len(x), nseg)) for j in range(0, len(y), rows)])
         blank = np.concatenate([   # row by row: bounded memory
             blank_reasons(case, dict(p, **{names[y_key]: y[j:j + 1, None, None]}),
                           eff[j:j + 1], reasons) for j in range(len(y))])
@@ -234,7 +237,7 @@ def blank_reasons(case, params, efficiency, reasons):
     cons = breakeven._admissible_constraints(case)
     held = {}
     for c in cons:    # None: the chain does not give the constraint's quantity here
-        ok = constraints.holds(case, out, [c], tol=1e-12, blowing=True)
+        ok = constraints.holds(case, out, [c], tol=1e-12, blowing=True, per_point=True)
         held[c.name] = np.broadcast_to(True if ok is None else ok, saves.shape)
     every = np.logical_and.reduce([saves] + list(held.values()))
 
