@@ -175,9 +175,8 @@ def _search(case, p, lo, hi):
     g = (np.sqrt(5.0) - 1.0) / 2.0
     c, d = b - g * (b - a), a + g * (b - a)
     fc, fd = _air_power_per_saving(case, p, c), _air_power_per_saving(case, p, d)
-    for f_new, new in ((fc, c), (fd, d)):
-        better = f_new < best
-        x_best, best = np.where(better, new, x_best), np.where(better, f_new, best)
+    x_best, best = _better(x_best, best, c, fc)
+    x_best, best = _better(x_best, best, d, fd)
     for _ in range(GOLDEN_STEPS):
         # the least value lies in [a, d] where f(c) < f(d), else in [c, b]; where both points
         # are inadmissible, in the part that holds the best point so far
@@ -188,7 +187,13 @@ def _search(case, p, lo, hi):
         f_new = _air_power_per_saving(case, p, new)
         c, fc = np.where(left, new, kept), np.where(left, f_new, f_kept)
         d, fd = np.where(left, kept, new), np.where(left, f_kept, f_new)
-        better = f_new < best
-        x_best, best = np.where(better, new, x_best), np.where(better, f_new, best)
+        x_best, best = _better(x_best, best, new, f_new)
     mid = 0.5 * (a + b)
     return np.minimum(best, _air_power_per_saving(case, p, mid))
+
+
+def _better(x_best, best, x, f):
+    """Elementwise, the better of the best point so far (``x_best``, value ``best``) and ``x``
+    (value ``f``)."""
+    take = f < best
+    return np.where(take, x, x_best), np.where(take, f, best)
