@@ -175,6 +175,24 @@ def test_many_in_kwh_and_by_kind(kind, module_folder):
         assert "percentiles 5 / 50 / 95 %" in text
 
 
+
+@pytest.mark.parametrize("worst", [2.0e6, -1.0e6])
+def test_many_says_why_runs_did_not_converge_and_explains_only_a_negative_saving(worst):
+    """Of five runs, one the model refused (no saving), one stopped without converging and
+    three converged: the report counts the two apart, and says what a negative saving means
+    only when a converged run has one."""
+    from mdao.studies.scaleout import summarize
+    results = [{"index": i, "converged": ok, "mission_energy_saving_J": e, "message": ""}
+               for i, (ok, e) in enumerate([(False, None), (False, 1.0e6), (True, 3.6e6),
+                                            (True, 3.6e6), (True, worst)])]
+    summary = summarize(results)
+    assert (summary["refused"], summary["not_converged"], summary["converged"]) == (1, 1, 3)
+    text = many_summary({"kind": "multistart", "title": "t", "wall_time_s": 1.0,
+                         "summary": summary, "results": results})
+    assert ("2 did not converge: 1 refused by the model before the optimizer moved, 1 stopped "
+            "without converging") in text
+    assert ("negative saving" in text) == (worst < 0)
+
 def test_iteration_limit_reports_real_iterations_and_a_plain_sentence(module_folder, capsys):
     """``max_iterations = 2`` gives at most 2 iterations (SciPy's ``nit``, not OpenMDAO's count
     of model runs), says what happened and what to try in one sentence, and prints no SLSQP

@@ -219,6 +219,13 @@ def many_summary(data):
     what = "starts" if kind == "multistart" else "samples"
     lines = [f"blownwing many ({kind}): {data['title']}: {summary['converged']} of "
              f"{summary['optimizations']} {what} converged in {data['wall_time_s']:.1f} s"]
+    failed = summary["optimizations"] - summary["converged"]
+    if failed:
+        why = [f"{n} {words}" for n, words in (
+            (summary["refused"], "refused by the model before the optimizer moved"),
+            (summary["not_converged"], "stopped without converging")) if n]
+        lines.append(f"  {failed} did not converge: {', '.join(why)} (the message of each "
+                     "result in many.json says why)")
     s = summary.get("mission_energy_saving_J")
     if s is None:
         lines.append("  no optimization converged: no saving to report")
@@ -239,5 +246,6 @@ def many_summary(data):
         lines.append(f"  optimum's mission energy saving: mean {kwh(s['mean'])}, percentiles "
                      f"5 / 50 / 95 %: {s['p05'] / KWH + 0.0:.4g} / {s['median'] / KWH + 0.0:.4g} / "
                      f"{s['p95'] / KWH + 0.0:.4g} kWh (largest: sample {s['best_index']})")
-    lines.append("  negative saving: blowing costs energy")
+    if s["min"] < 0:
+        lines.append("  negative saving: blowing costs energy")
     return "\n".join(lines)

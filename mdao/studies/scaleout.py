@@ -266,10 +266,16 @@ def multistart_overrides(case, starts, seed):
 
 
 def summarize(results):
-    """Counts and statistics of the converged results' mission energy saving [J]."""
+    """Counts and statistics of the converged results' mission energy saving [J].
+
+    ``refused``: the results the model refused before any optimum (a sample's input or a
+    start point outside its range; no saving); ``not_converged``: the others that did not
+    converge."""
     ok = [r for r in results if r["converged"]]
     e = np.array([r["mission_energy_saving_J"] for r in ok], float)
-    summary = {"optimizations": len(results), "converged": len(ok)}
+    refused = sum(1 for r in results if r["mission_energy_saving_J"] is None)
+    summary = {"optimizations": len(results), "converged": len(ok), "refused": refused,
+               "not_converged": len(results) - len(ok) - refused}
     if e.size:
         summary.update(mission_energy_saving_J={
             "mean": float(e.mean()), "sd": float(e.std(ddof=1)) if e.size > 1 else 0.0,
