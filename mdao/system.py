@@ -24,7 +24,7 @@ from mdao.components.atmosphere import AtmosphereComp
 from mdao.components.chain import ChainComp
 from mdao.components.common import (CHAIN_OPTIONS, HOST_GIVES, HOST_INPUTS,
                                     declare_chain_options, host_air, input_parameters,
-                                    unset_start)
+                                    on_the_map, unset_start)
 from mdao.components.duct import DuctLossComp
 from mdao.components.fan import FanComp
 from mdao.components.jet import JetComp
@@ -280,6 +280,28 @@ def start_point(case):
     lacking = [s["name"] for s, on, ok, g in zip(case.segments, case.blowing, found, given)
                if on and not ok and np.isnan(g)]
     return StartPoint(ratio, cmu, dp, lacking, out, rating)
+
+
+def start_refusal(case, point=None):
+    """Why the model refuses the optimizer's start, in the words of the error its first run
+    raises, or None where it accepts it: the chain evaluated at the start as the problem runs it
+    (the fan giving the start's pressure rise, a sized fan its start rating), with the check the
+    chain component adds (a running map fan on its map). ``point``: default
+    :func:`start_point` of the case."""
+    point = start_point(case) if point is None else point
+    rated = {} if point.rated_shaft_power is None else {
+        "rated_shaft_power": point.rated_shaft_power}
+    params = chain_parameters(case, momentum_coefficient=point.momentum_coefficient,
+                              slot_ratio=point.slot_ratio,
+                              fan_pressure_rise=point.fan_pressure_rise, **rated)
+    try:
+        out = chain.evaluate(params, chain_options(case), blowing=case.blowing)
+        if case.fan["model"] == "map":
+            on_the_map(out["fan_efficiency"], out["flow_coefficient"],
+                       np.real(out["air_power"]) > 0, params["peak_flow_coefficient"])
+    except ValueError as err:
+        return str(err)
+    return None
 
 
 def _start_rating(case):

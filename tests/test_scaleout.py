@@ -16,7 +16,7 @@ import pytest
 
 from mdao.optimum import optimize
 
-from mdao.case import load_case
+from mdao.case import CaseError, load_case
 from mdao.cli import main
 from mdao.cli.progress import OptimizationCounter
 from mdao.studies.scaleout import (monte_carlo_overrides, multistart_overrides, optimize_many,
@@ -149,6 +149,30 @@ def test_multistart_overrides(case):
     best = optimize(case).mission_energy_saving_J
     assert max(energies) <= best * (1 + 1e-6)
 
+
+
+def test_multistart_passes_over_starts_the_model_refuses(monkeypatch):
+    """The island shuttle's map fan runs off its map at most random starts (21 of 24 drawn with
+    seed 5). Every start multistart gives is one the model runs from (its problem built and run
+    at that start raises nothing), the refused draws were passed over, and a budget of draws
+    that leaves too few accepted starts is refused by name."""
+    from mdao.studies import scaleout
+    from mdao import system
+    island = load_case(ROOT / "cases" / "island-shuttle.toml")
+    checked = []
+    refusal = system.start_refusal
+    monkeypatch.setattr(system, "start_refusal",
+                        lambda c: checked.append(refusal(c)) or checked[-1])
+    starts = multistart_overrides(island, 4, 5)
+    assert len(starts) == 4 and len(checked) > 4
+    assert sum(why is not None for why in checked) == len(checked) - 4
+    assert any("off the map" in why for why in checked if why is not None)
+    for start in starts:
+        prob = system.build_problem(island.replace(start))
+        prob.run_model()
+    monkeypatch.setattr(scaleout, "DRAWS_PER_START", 1)
+    with pytest.raises(CaseError, match=r"starts = 4: the model refused \d+ of 4 random starts"):
+        multistart_overrides(island, 4, 5)
 
 def test_bad_arguments(case):
     with pytest.raises(ValueError, match="workers"):

@@ -226,14 +226,21 @@ def monte_carlo_overrides(case, samples, seed):
     return [{key: float(x[i, j]) for j, key in enumerate(keys)} for i in range(len(x))]
 
 
-def multistart_overrides(case, starts, seed):
-    """Random start points within the bounds: one override dict per start.
+#: Random starts drawn per start asked for, at most, before ``multistart_overrides`` gives up.
+DRAWS_PER_START = 20
 
-    With ``rng = numpy.random.default_rng(seed)``, per start: the slot ratio uniform within
+
+def multistart_overrides(case, starts, seed):
+    """Random start points within the bounds that the model accepts: one override dict per
+    start.
+
+    With ``rng = numpy.random.default_rng(seed)``, per drawn start: the slot ratio uniform within
     ``slot.ratio_bounds`` (when the case lets it vary), then per blowing segment (in case order)
     the momentum coefficient log-uniform within the calibrated range. The overrides are the start
     values ``slot.ratio`` and ``segment.NAME.momentum_coefficient``; the start pressure rise is
-    then the requirement there (:func:`mdao.system.start_point`).
+    then the requirement there (:func:`mdao.system.start_point`). A drawn start the model would
+    refuse (:func:`mdao.system.start_refusal`: a fan map run off its map there) is passed over
+    and the next one drawn, so that every start asked for is one the optimizer can run from.
 
     Parameters
     ----------
@@ -245,7 +252,16 @@ def multistart_overrides(case, starts, seed):
     Returns
     -------
     list of dict
+
+    Raises
+    ------
+    mdao.case.CaseError
+        When fewer than ``starts`` of ``DRAWS_PER_START * starts`` drawn starts are accepted,
+        with the model's last reason.
     """
+    from mdao.case import CaseError
+    from mdao.system import start_refusal
+
     if isinstance(starts, bool) or not isinstance(starts, (int, np.integer)) or starts < 1:
         raise ValueError(f"starts = {starts!r}: an integer >= 1 is allowed")
     rng = np.random.default_rng(seed)
@@ -254,15 +270,25 @@ def multistart_overrides(case, starts, seed):
     vary = constraints.slot_ratio_free(case)
     names = [s["name"] for s in case.segments if s["blowing"]]
     out = []
-    for _ in range(starts):
+    refusal = None
+    for drawn in range(1, DRAWS_PER_START * starts + 1):
         override = {}
         if vary:
             override["slot.ratio"] = float(rng.uniform(bounds[0], bounds[1]))
         for name in names:
             override[f"segment.{name}.momentum_coefficient"] = float(
                 np.exp(rng.uniform(np.log(lo), np.log(hi))))
-        out.append(override)
-    return out
+        why = start_refusal(case.replace(override))
+        if why is None:
+            out.append(override)
+            if len(out) == starts:
+                return out
+        else:
+            refusal = why
+    raise CaseError(f"starts = {starts}: the model refused {drawn - len(out)} of {drawn} random "
+                     f"starts within the bounds (the last: {refusal}); narrow "
+                     "[airfoil] momentum_coefficient_range or slot.ratio_bounds, or ask for "
+                     "fewer starts")
 
 
 def summarize(results):
