@@ -125,16 +125,15 @@ FAN_MAP_LIMITS = ("fan speed limit", "fan map flow range")
 
 
 def slot_ratio_free(case):
-    """Whether the slot ratio is a design variable (bounds given and apart)."""
-    bounds = case.slot["ratio_bounds"]
-    return bounds is not None and bounds[1] > bounds[0]
+    """Whether the slot ratio is a design variable (bounds given and apart:
+    :attr:`mdao.case.Case.design_keys`)."""
+    return "slot.ratio" in case.design_keys
 
 
 def fan_diameter_free(case):
     """Whether the fan diameter is a design variable (``duct.fan_diameter_bounds`` given and
-    apart)."""
-    bounds = case.duct.get("fan_diameter_bounds")
-    return bounds is not None and bounds[1] > bounds[0]
+    apart: :attr:`mdao.case.Case.design_keys`)."""
+    return "duct.fan_diameter" in case.design_keys
 
 
 def segment_mask(constraint, case, blowing=None):

@@ -247,6 +247,16 @@ class Case:
         return self.has_aircraft and self.mass_given
 
     @property
+    def design_keys(self):
+        """Case keys whose value is only the optimizer's start, the optimization moving them:
+        ``slot.ratio`` with ``slot.ratio_bounds`` given and apart, ``duct.fan_diameter`` with
+        ``duct.fan_diameter_bounds`` given and apart."""
+        return tuple(key for key, bounds in (
+            ("slot.ratio", self.slot["ratio_bounds"]),
+            ("duct.fan_diameter", self.duct.get("fan_diameter_bounds")))
+            if bounds is not None and bounds[1] > bounds[0])
+
+    @property
     def blowing(self):
         """Per segment: does the fan run?"""
         return np.array([s["blowing"] for s in self.segments], bool)
@@ -899,6 +909,10 @@ def _read_uncertainty(raw, case):
             allowed = ", ".join(p.key for p in CHAIN_PARAMETERS if p.uncertain)
             raise CaseError(f"uncertainty.\"{key}\": only model parameters the case uses can be "
                             f"uncertain ({allowed}; per segment as \"segment.NAME.speed\")")
+        if key in case.design_keys:
+            raise CaseError(f"uncertainty.\"{key}\": {key} is a design variable of this case "
+                            f"({key}_bounds given): its value is only the optimizer's start; "
+                            f"remove its uncertainty, or fix it by removing {key}_bounds")
         if not isinstance(spec, dict) or spec.get("distribution") not in DISTRIBUTIONS:
             raise CaseError(f"uncertainty.\"{key}\" = {_show(spec)}: give distribution = "
                             + " or ".join(f'"{d}"' for d in DISTRIBUTIONS))

@@ -84,19 +84,21 @@ def sensitivity_table(case, outcome, fixed, post, mult):
     return rows
 
 
-def _agreement(rows, scale):
+def _agreement(rows, post, resolution):
     """Largest difference between post-optimal derivatives by re-optimization and by
-    multipliers, relative to max(|derivative|, scale)."""
+    multipliers, relative to the larger of the two, or where both are smaller, to what the
+    re-optimized differences resolve: ``resolution`` [J] (the answer times the optimizer's
+    tolerance) over twice the input's step."""
     worst = 0.0
     for r in rows:
         a, b = (r["post_optimal_derivative_J_per_unit"],
                 r["post_optimal_derivative_multipliers_J_per_unit"])
         if a is None or b is None:
             continue
-        ref = max(abs(a), abs(b))
+        ref = max(abs(a), abs(b), resolution / (2.0 * post[r["parameter"]]["step"]))
         if ref == 0:
             continue
-        worst = max(worst, abs(a - b) / max(ref, scale))
+        worst = max(worst, abs(a - b) / ref)
     return worst
 
 
@@ -168,7 +170,7 @@ def run_review(case, samples=None, optimum_per_sample=False, scheduler=None, wor
     with step("multiplier_derivatives", "post-optimal derivatives from the multipliers"):
         mult = sensitivity.multiplier_derivatives(case, outcome, keys)
     rows = sensitivity_table(case, outcome, fixed, post, mult)
-    scale = abs(outcome.mission_energy_saving_J) * 1e-9
+    resolution = abs(outcome.mission_energy_saving_J) * case.optimize["tolerance"]
     with step("tornado", "tornado (each input at the ends of its spread)"):
         torn = sensitivity.tornado(case, outcome, keys)
 
@@ -195,7 +197,7 @@ def run_review(case, samples=None, optimum_per_sample=False, scheduler=None, wor
             "multiplier_stationarity_residual": mult["residual"],
             "active_constraints_used": mult["active"],
             "post_optimal_reoptimization_vs_multipliers_max_relative_difference":
-                _agreement(rows, scale),
+                _agreement(rows, post, resolution),
             "post_optimal_relative_step": sensitivity.POST_OPTIMAL_STEP,
         },
         "tornado": torn,

@@ -55,10 +55,13 @@ def sensitivity_keys(case):
     """Case key paths studied: the applicable model constants that may be uncertain and each
     segment's speed, altitude and duration (in that order). A constant tabulated over the lift
     coefficient is not one input (its effect reaches the studies through each segment's speed
-    and altitude, which move the lift)."""
+    and altitude, which move the lift); nor is a design variable's start
+    (:attr:`mdao.case.Case.design_keys`: a free fan diameter), which the optimum does not
+    depend on."""
     tables = lift_tables(case)
     keys = [p.key for p in applicable_parameters(case) if not p.per_segment and p.uncertain
-            and case.value(p.key) is not None and p.key not in tables]
+            and case.value(p.key) is not None and p.key not in tables
+            and p.key not in case.design_keys]
     segment_inputs = [p for p in applicable_parameters(case) if p.per_segment and p.uncertain]
     for seg in case.segment_names:
         keys += [f"segment.{seg}.{p.field}" for p in sorted(
@@ -316,9 +319,11 @@ def multiplier_derivatives(case, outcome, keys=None):
     r"""Post-optimal derivatives from the Lagrange multipliers of the active constraints.
 
     At the optimum :math:`\nabla_x E = J_x^T \lambda` over the active constraints (pressure
-    balance, active bounds and inequality constraints); :math:`\lambda` is solved by least
-    squares and :math:`dE^*/dp = \partial E/\partial p - \lambda^T \partial g/\partial p`, the
-    partials taken at fixed design variables (fan pressure rise included) from OpenMDAO totals.
+    balance, active bounds and inequality constraints), :math:`x` every design variable the
+    problem declares (:mod:`mdao.constraints`: a sized fan's rating and a free fan diameter
+    too), at the optimum's values; :math:`\lambda` is solved by least squares and
+    :math:`dE^*/dp = \partial E/\partial p - \lambda^T \partial g/\partial p`, the partials
+    taken at fixed design variables (fan pressure rise included) from OpenMDAO totals.
 
     Returns
     -------
@@ -329,45 +334,46 @@ def multiplier_derivatives(case, outcome, keys=None):
     """
     keys = sensitivity_keys(case) if keys is None else list(keys)
     prob = build_problem(case, driver=False)
-    for name in ("slot_ratio", "momentum_coefficient", "fan_pressure_rise"):
-        prob.set_val(name, outcome.values[name])
+    # the design variables the problem declares (mdao.constraints), at the optimum: the slot
+    # ratio, a sized fan's rating and a free fan diameter (one column each), the momentum
+    # coefficient and the fan pressure rise (a column per blowing segment)
+    dvs = [c for c in constraints.applicable(case) if c.design_variable]
+    for c in dvs:
+        prob.set_val(c.quantity, outcome.values[c.quantity])
     prob.run_model()
-    blow = np.flatnonzero(case.blowing)
-    slot_free = constraints.slot_ratio_free(case)
-    dvs = (["slot_ratio"] if slot_free else []) + ["momentum_coefficient", "fan_pressure_rise"]
+    blow = list(np.flatnonzero(case.blowing))
+    column, nx = {}, 0
+    for c in dvs:
+        column[c.quantity] = nx
+        nx += len(blow) if c.per_segment else 1
     rows = _active_rows(case, outcome)
     outs = sorted({r[0] for r in rows if r[2] == "out"})
     pnames = sorted({promoted(case, k)[0] for k in keys})
     of = ["mission_energy_saving", "required_pressure_rise"] + outs
-    tot = prob.compute_totals(of=of, wrt=dvs + pnames)
+    tot = prob.compute_totals(of=of, wrt=[c.quantity for c in dvs] + pnames)
 
     def block(of_name, wrt_name):
         return np.atleast_2d(np.asarray(tot[of_name, wrt_name], float))
 
-    # columns of x: slot_ratio (if free), C_mu[blow], dp[blow]
     def xrow(of_name, idx):
-        parts = []
-        if slot_free:
-            parts.append(block(of_name, "slot_ratio")[idx, :])
-        parts.append(block(of_name, "momentum_coefficient")[idx, blow])
-        parts.append(block(of_name, "fan_pressure_rise")[idx, blow])
-        return np.concatenate(parts)
+        return np.concatenate([block(of_name, c.quantity)[idx, blow if c.per_segment else
+                                                         slice(None)] for c in dvs])
 
-    nx = (1 if slot_free else 0) + 2 * len(blow)
+    per_segment = {c.quantity for c in dvs if c.per_segment}
+
+    def at(name, i):    # the column of a design variable's element i (its segment, or 0)
+        return column[name] + (blow.index(i) if name in per_segment else 0)
+
     grad = xrow("mission_energy_saving", 0)
     a_rows, p_rows = [], []
     for name, i, role in rows:
         if role == "eq":  # g = dp_fan - dp_required
             r = -xrow("required_pressure_rise", i)
-            r[(1 if slot_free else 0) + len(blow) + list(blow).index(i)] += 1.0
+            r[at("fan_pressure_rise", i)] += 1.0
             p_rows.append({n: -block("required_pressure_rise", n)[i] for n in pnames})
         elif role == "dv":
             r = np.zeros(nx)
-            if name == "slot_ratio":
-                r[0] = 1.0
-            else:
-                off = (1 if slot_free else 0) + (len(blow) if name == "fan_pressure_rise" else 0)
-                r[off + list(blow).index(i)] = 1.0
+            r[at(name, i)] = 1.0
             p_rows.append({n: np.zeros(block("mission_energy_saving", n).shape[1]) for n in pnames})
         else:
             r = xrow(name, i)
