@@ -298,6 +298,32 @@ def holds(case, values, constraints=None, tol=FEASIBLE_TOL, per_segment_only=Fal
     return ok
 
 
+def broken_at_fixed_design(case, values):
+    """Per constraint, per sample: does some blowing segment break it at a fixed design?
+
+    The case's per-segment constraints with the fan giving the required pressure rise; a
+    ram-driven segment (no fan work needed) is counted apart, not as below the fan's minimum
+    pressure rise.
+
+    Returns
+    -------
+    dict
+        ``{constraint name: bool ndarray over the samples}`` (``values`` with a leading sample
+        axis, segments last), the constraints whose quantity the values give.
+    """
+    broken = {}
+    for c in applicable(case, follow_requirement=True):
+        if not c.per_segment:
+            continue
+        ok = holds(case, values, [c])
+        if ok is None:
+            continue
+        if c.quantity == "fan_pressure_rise":
+            ok = ok | (np.asarray(values["required_pressure_rise"]) <= 0)
+        broken[c.name] = ~np.all(ok, axis=-1)
+    return broken
+
+
 def violations(case, values, tol=FEASIBLE_TOL, follow_requirement=False):
     """Words for each broken constraint at one design (empty: feasible)."""
     out = []

@@ -177,6 +177,48 @@ def energy_margin(air_power, section_drag, speed, thrust_power_ceiling, derivati
                     "thrust_power_ceiling": pa + z}
 
 
+def energy_within_balance(energy_saving, energy_margin, duration, chain_efficiency):
+    r"""Energy saved in a segment with the net thrust power credited no higher than the energy
+    balance allows, [J].
+
+    .. math::
+        E_b = E - t\,\max(0, -m)/\eta_{chain}
+
+    Where the margin :math:`m` (:func:`energy_margin`) is negative, the drag model credits the
+    section with :math:`-m` more net thrust power than its fans can put into the air; that
+    excess, taken back at the source (through the chain efficiency, as the saving was credited),
+    leaves the saving the first law allows at most. Where the balance holds, :math:`E_b = E`.
+    For a design held fixed while its inputs vary (a Monte Carlo sample, a tornado's end), where
+    the optimization's constraint no longer holds it.
+
+    Parameters
+    ----------
+    energy_saving : array_like
+        Energy saved in the segment (:func:`segment_energy`), [J].
+    energy_margin : array_like
+        The segment's energy margin, [W].
+    duration : array_like
+        Segment duration, [s], >= 0.
+    chain_efficiency : array_like
+        Source-to-thrust-power efficiency of the main propulsion, [-], in (0, 1].
+
+    Returns
+    -------
+    ndarray
+        [J]; at most ``energy_saving``.
+
+    Examples
+    --------
+    A segment of 100 s crediting 20 W of thrust power past the balance, chain efficiency 0.8:
+    25 W at the source, 2500 J less:
+
+    >>> float(energy_within_balance(10000.0, -20.0, 100.0, 0.8))
+    7500.0
+    """
+    excess = np.maximum(-asarray(energy_margin), 0.0)
+    return asarray(energy_saving) - asarray(duration) * excess / asarray(chain_efficiency)
+
+
 def segment_energy(net_power, duration):
     r"""Energy saved in a segment, [J].
 

@@ -22,7 +22,7 @@ def review_json(data):
     out = {k: v for k, v in data.items() if not k.startswith("_")}
     if "uncertainty" in out:
         out["uncertainty"] = {k: v for k, v in out["uncertainty"].items()
-                              if k not in ("energy_J", "x")}
+                              if k not in ("energy_J", "energy_model_J", "x")}
     if out.get("optimum_per_sample"):
         out["optimum_per_sample"] = {k: v for k, v in out["optimum_per_sample"].items()
                                      if k != "energy_J"}
@@ -351,10 +351,26 @@ def _sensitivity_md(data):
               "| input | low | high | unit | basis | E at low [kWh] | E at high [kWh] |",
               "|---|---|---|---|---|---|---|"]
     unit = {r["parameter"]: r["unit"] for r in data["sensitivities"]}
+    notes = []
     for r in data["tornado"]:
+        ends = []
+        for end in ("low", "high"):
+            mark = ""
+            if r[f"broken_{end}"]:
+                notes.append(f"- `{r['parameter']}` at its {end} end breaks "
+                             f"{', '.join(r[f'broken_{end}'])}"
+                             + (f"; the fitted model alone credits "
+                                f"{r[f'energy_model_{end}_J'] / KWH:.4f} kWh"
+                                if r[f"energy_model_{end}_J"] != r[f"energy_{end}_J"] else ""))
+                mark = f" [{len(notes)}]"
+            ends.append(f"{r[f'energy_{end}_J'] / KWH:.4f}{mark}")
         lines.append(f"| `{r['parameter']}` | {r['low']:.5g} | {r['high']:.5g} | "
-                     f"{unit.get(r['parameter'], '-')} | {r['basis']} | "
-                     f"{r['energy_low_J'] / KWH:.4f} | {r['energy_high_J'] / KWH:.4f} |")
+                     f"{unit.get(r['parameter'], '-')} | {r['basis']} | {ends[0]} | {ends[1]} |")
+    if notes:
+        lines += ["", "At the fixed design some ends break a constraint the optimum holds (the "
+                  "saving is held within the energy balance, docs/theory.md; other constraints "
+                  "are only named):", ""] + [f"{n[:2]}[{k}] {n[2:]}" for k, n in
+                                             enumerate(notes, 1)]
     lines.append("")
     return lines
 
@@ -393,18 +409,29 @@ def _uncertainty_md(data, figures):
         par = ", ".join(f"{p} {s[p]:.5g}" for p in ("mean", "sd", "low", "high") if p in s)
         lines.append(f"| `{k}` | {s['distribution']} | {par} | {unit.get(k, '-')} |")
     p = u["percentiles_J"]
+    m = u["model_as_fitted"]
+    mp = m["percentiles_J"]
     lines += ["",
               f"- Probability of saving energy: "
               f"**{probability_text(u['probability_of_saving'], u['samples'])}**",
               f"- Percentiles 5 / 50 / 95 %: {p['5'] / KWH:.4f} / {p['50'] / KWH:.4f} / "
               f"{p['95'] / KWH:.4f} kWh",
               f"- Mean {_g(u['mean_J'] and u['mean_J'] / KWH, '.4f')} kWh, standard deviation "
-              f"{_g(u['sd_J'] and u['sd_J'] / KWH, '.4f')} kWh (first-order estimate from the "
-              f"derivatives: {_g(u['first_order_sd_J'] and u['first_order_sd_J'] / KWH, '.4f')} kWh)",
+              f"{_g(u['sd_J'] and u['sd_J'] / KWH, '.4f')} kWh (first-order estimate of the "
+              "fitted model's, from the derivatives: "
+              f"{_g(u['first_order_sd_J'] and u['first_order_sd_J'] / KWH, '.4f')} kWh)",
               f"- Ram-driven samples (a blowing segment needs no fan): {u['ram_driven_samples']}; "
               f"samples breaking a constraint at the fixed design: "
               f"{u['constraint_violating_samples']}; non-finite: {u['nonfinite_samples']}; "
-              f"drawn again for leaving the allowed range: {u['redrawn_samples']}", "",
+              f"drawn again for leaving the allowed range: {u['redrawn_samples']}",
+              f"- Each sample's saving is held within the energy balance: in "
+              f"{u['beyond_balance_samples']} samples the drag model, at the fixed design, "
+              "credits more net thrust power than the fans put into the air, and that excess is "
+              "not counted (docs/theory.md). Without that limit (the model as fitted): "
+              f"probability of saving {probability_text(m['probability_of_saving'], u['samples'])}"
+              f"; percentiles {mp['5'] / KWH:.4f} / {mp['50'] / KWH:.4f} / "
+              f"{mp['95'] / KWH:.4f} kWh; mean {_g(m['mean_J'] and m['mean_J'] / KWH, '.4f')} "
+              f"kWh, standard deviation {_g(m['sd_J'] and m['sd_J'] / KWH, '.4f')} kWh", "",
               "| input | share of rank variance | Spearman rho^2 | Pearson r^2 |",
               "|---|---|---|---|"]
     for s in u["variance_shares"]:

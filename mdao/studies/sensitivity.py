@@ -34,7 +34,7 @@ from mdao import constraints, parameters
 from mdao.case.schema import dimension_of
 from mdao.case.loading import lift_tables
 from mdao.optimum.solve import feasibility, read_values, run_driver_quietly
-from mdao.physics import chain
+from mdao.physics import chain, power
 from mdao.units import SI_UNITS
 from mdao.system import (applicable_parameters, build_problem, chain_options, chain_parameters,
                          design_point)
@@ -151,7 +151,12 @@ def evaluate_design(case, outcome, columns):
     Returns
     -------
     dict
-        The chain outputs with a leading sample axis, plus ``mission_energy_saving`` (n,) [J].
+        The chain outputs with a leading sample axis, plus ``mission_energy_saving`` (n,) [J],
+        and ``energy_saving_within_balance`` (n, segments) and
+        ``mission_energy_saving_within_balance`` (n,) [J]: the same with the net thrust power
+        credited no higher than the energy balance allows
+        (:func:`mdao.physics.power.energy_within_balance`; the design is held fixed, so where a
+        sample moves it past the balance the optimization's constraint no longer holds it).
     """
     params = design_parameters(case, outcome)
     opts = chain_options(case)
@@ -159,21 +164,23 @@ def evaluate_design(case, outcome, columns):
     n = len(next(iter(columns.values()))) if columns else 1
     geo = [k for k in columns if case.duct["model"] == "geometric"
            and promoted(case, k)[0] in WING_GEOMETRY]
-    if not geo:  # vectorized, in chunks of samples to bound the memory of the temporaries
-        size = chunk_rows(case)
-        rows = [chain.evaluate(set_columns(case, params, {k: np.asarray(v)[a:a + size]
-                                                          for k, v in columns.items()}),
-                               opts, blowing=case.blowing) for a in range(0, n, size)]
-        sizes = [min(size, n - a) for a in range(0, n, size)]
-    else:  # one geometry per evaluation: loop over samples (slow path, said in the docs)
-        rows = [chain.evaluate(set_columns(case, params, {k: np.asarray(v)[i:i + 1]
-                                                          for k, v in columns.items()}),
-                               opts, blowing=case.blowing) for i in range(n)]
-        sizes = [1] * n
+    # vectorized, in chunks of samples to bound the memory of the temporaries; one geometry per
+    # evaluation (the geometric duct's wing geometry varying): sample by sample (slow path, said
+    # in the docs)
+    size = 1 if geo else chunk_rows(case)
+    rows, sizes = [], []
+    for a in range(0, n, size):
+        p = set_columns(case, params, {k: np.asarray(v)[a:a + size] for k, v in columns.items()})
+        r = chain.evaluate(p, opts, blowing=case.blowing)
+        r["energy_saving_within_balance"] = power.energy_within_balance(
+            r["energy_saving"], r["energy_margin"], p["duration"], p["chain_efficiency"])
+        rows.append(r)
+        sizes.append(min(size, n - a))
     out = {k: np.concatenate([np.broadcast_to(r[k], (m, nseg)) for r, m in zip(rows, sizes)])
            for k in rows[0] if k not in chain.ANGLE_OUTPUTS}
     out.update({k: rows[0].get(k) for k in chain.ANGLE_OUTPUTS})   # wing-level, per station
     out["mission_energy_saving"] = out["energy_saving"].sum(axis=-1)
+    out["mission_energy_saving_within_balance"] = out["energy_saving_within_balance"].sum(axis=-1)
     return out
 
 
@@ -435,14 +442,19 @@ def input_spread(case, key):
 def tornado(case, outcome, keys=None):
     """Mission energy at the fixed optimal design with each input at the ends of its spread.
 
-    Re-evaluated through the NumPy chain (not linearized), the fan following the requirement.
+    Re-evaluated through the NumPy chain (not linearized), the fan following the requirement;
+    the saving held within the energy balance (:func:`evaluate_design`: at the fixed design an
+    end may let the drag model credit more net thrust power than the fans put into the air).
 
     Returns
     -------
     list of dict
-        ``parameter``, ``low``, ``high``, ``basis``, ``energy_low_J``, ``energy_high_J``,
-        ``swing_J`` (``|high - low|`` of the energies), sorted by swing, largest first; inputs
-        with no spread (value 0 and no stated uncertainty) are left out.
+        ``parameter``, ``low``, ``high``, ``basis``, ``energy_low_J``, ``energy_high_J``
+        (within the energy balance), ``energy_model_low_J``, ``energy_model_high_J`` (the
+        fitted model's, without that limit), ``broken_low``, ``broken_high`` (the per-segment
+        constraints some blowing segment breaks there, by name), ``swing_J`` (``|high - low|``
+        of the energies), sorted by swing, largest first; inputs with no spread (value 0 and no
+        stated uncertainty) are left out.
     """
     keys = sensitivity_keys(case) if keys is None else list(keys)
     rows = []
@@ -450,10 +462,17 @@ def tornado(case, outcome, keys=None):
         low, high, basis = input_spread(case, key)
         if high <= low:
             continue
-        e = evaluate_design(case, outcome, {key: np.array([low, high])})["mission_energy_saving"]
+        ev = evaluate_design(case, outcome, {key: np.array([low, high])})
+        e = ev["mission_energy_saving_within_balance"]
+        model = ev["mission_energy_saving"]
+        broken = constraints.broken_at_fixed_design(case, ev)
+        ends = [[name for name, at in broken.items() if at[j]] for j in (0, 1)]
         rows.append({"parameter": key, "unit": unit_label(key), "value": float(case.value(key)),
                      "low": low, "high": high,
                      "basis": basis, "energy_low_J": float(e[0]), "energy_high_J": float(e[1]),
+                     "energy_model_low_J": float(model[0]),
+                     "energy_model_high_J": float(model[1]),
+                     "broken_low": ends[0], "broken_high": ends[1],
                      "swing_J": float(abs(e[1] - e[0]))})
     rows.sort(key=lambda r: -r["swing_J"])
     return rows

@@ -130,21 +130,11 @@ def draw_samples(case, samples=None, seed=None):
 
 
 def violations(case, out):
-    """Per sample, does any blowing segment break a constraint at the fixed design?
-
-    The case's per-segment constraints (:mod:`mdao.constraints`) with the fan giving the
-    required pressure rise; a ram-driven segment (no fan work needed) is counted apart, not as
-    below the fan's minimum pressure rise.
-    """
-    cons = [c for c in constraints.applicable(case, follow_requirement=True) if c.per_segment]
-    rise = [c for c in cons if c.quantity == "fan_pressure_rise"]
-    others = [c for c in cons if c.quantity != "fan_pressure_rise"]
-    ok = constraints.holds(case, out, others)
-    rise_ok = constraints.holds(case, out, rise)
-    if rise_ok is not None:
-        rise_ok = rise_ok | (np.asarray(out["required_pressure_rise"]) <= 0)
-        ok = rise_ok if ok is None else ok & rise_ok
-    return ~np.all(ok, axis=-1)
+    """Per sample, does any blowing segment break a constraint at the fixed design
+    (:func:`mdao.constraints.broken_at_fixed_design`)?"""
+    broken = list(constraints.broken_at_fixed_design(case, out).values())
+    n = np.shape(out["mission_energy_saving"])[0]
+    return np.logical_or.reduce(broken) if broken else np.zeros(n, bool)
 
 
 def monte_carlo(case, outcome, samples=None, seed=None, derivatives=None):
@@ -164,16 +154,25 @@ def monte_carlo(case, outcome, samples=None, seed=None, derivatives=None):
     dict
         ``samples``, ``seed``, ``inputs`` {key: spec}, ``probability_of_saving``,
         ``percentiles_J`` {"5", "50", "95"}, ``mean_J``, ``sd_J``, ``first_order_sd_J``,
-        ``ram_driven_samples``, ``constraint_violating_samples``, ``nonfinite_samples``,
-        ``redrawn_samples``, ``variance_shares`` [{parameter, rank_share, spearman_squared,
-        pearson_squared}], ``dominant_input``; and the arrays ``energy_J`` and ``x`` (dropped
-        from the JSON).
+        ``ram_driven_samples``, ``constraint_violating_samples``, ``beyond_balance_samples``,
+        ``nonfinite_samples``, ``redrawn_samples``, ``variance_shares`` [{parameter,
+        rank_share, spearman_squared, pearson_squared}], ``dominant_input``, ``model_as_fitted``
+        {``probability_of_saving``, ``percentiles_J``, ``mean_J``, ``sd_J``}; and the arrays
+        ``energy_J``, ``energy_model_J`` and ``x`` (dropped from the JSON).
+
+        Each sample's saving is the mission energy saving within the energy balance
+        (:func:`mdao.physics.power.energy_within_balance`): the design is held fixed, so a
+        sample whose inputs let the drag model credit more net thrust power than the fans put
+        into the air (``beyond_balance_samples``) is credited no more than the balance allows.
+        ``model_as_fitted`` gives the same figures without that limit, and
+        ``first_order_sd_J`` estimates its spread (the derivatives are the fitted model's).
     """
     n = case.review["samples"] if samples is None else int(samples)
     seed = case.review["seed"] if seed is None else int(seed)
     keys, x, redrawn = draw_samples(case, n, seed)
     out = evaluate_design(case, outcome, {k: x[:, j] for j, k in enumerate(keys)})
-    e = out["mission_energy_saving"]
+    e = out["mission_energy_saving_within_balance"]
+    e_model = out["mission_energy_saving"]
     finite = np.isfinite(e)
     ram = np.any(out["ram_driven"][:, case.blowing], axis=1)
     shares = []
@@ -208,19 +207,28 @@ def monte_carlo(case, outcome, samples=None, seed=None, derivatives=None):
             keys_ind = keys
         var += sum((derivatives[k] * sd[k]) ** 2 for k in keys_ind)
         first = float(np.sqrt(var))
-    pct = np.percentile(e[finite], [5, 50, 95]) if finite.any() else [np.nan] * 3
     return {
         "samples": n, "seed": seed, "inputs": specs,
-        "probability_of_saving": float(np.count_nonzero(e > 0) / n),
-        "percentiles_J": {"5": float(pct[0]), "50": float(pct[1]), "95": float(pct[2])},
-        "mean_J": float(np.mean(e[finite])) if finite.any() else None,
-        "sd_J": float(np.std(e[finite], ddof=1)) if finite.sum() > 1 else None,
+        **_distribution(e, n),
         "first_order_sd_J": first,
         "ram_driven_samples": int(np.count_nonzero(ram)),
         "constraint_violating_samples": int(np.count_nonzero(violations(case, out))),
+        "beyond_balance_samples": int(np.count_nonzero(e < e_model)),
         "nonfinite_samples": int(np.count_nonzero(~finite)),
         "redrawn_samples": int(redrawn),
         "variance_shares": shares,
         "dominant_input": shares[0]["parameter"] if shares else None,
-        "energy_J": e, "x": x, "keys": keys,
+        "model_as_fitted": _distribution(e_model, n),
+        "energy_J": e, "energy_model_J": e_model, "x": x, "keys": keys,
     }
+
+
+def _distribution(e, n):
+    """Probability of saving (over all ``n`` samples), 5/50/95 % percentiles, mean and standard
+    deviation of the finite savings ``e`` [J]."""
+    finite = np.isfinite(e)
+    pct = np.percentile(e[finite], [5, 50, 95]) if finite.any() else [np.nan] * 3
+    return {"probability_of_saving": float(np.count_nonzero(e > 0) / n),
+            "percentiles_J": {"5": float(pct[0]), "50": float(pct[1]), "95": float(pct[2])},
+            "mean_J": float(np.mean(e[finite])) if finite.any() else None,
+            "sd_J": float(np.std(e[finite], ddof=1)) if finite.sum() > 1 else None}
