@@ -357,7 +357,7 @@ def _sensitivity_md(data):
         for end in ("low", "high"):
             mark = ""
             if r[f"broken_{end}"]:
-                notes.append(f"- `{r['parameter']}` at its {end} end breaks "
+                notes.append(f"`{r['parameter']}` at its {end} end breaks "
                              f"{', '.join(r[f'broken_{end}'])}"
                              + (f"; the fitted model alone credits "
                                 f"{r[f'energy_model_{end}_J'] / KWH:.4f} kWh"
@@ -369,8 +369,8 @@ def _sensitivity_md(data):
     if notes:
         lines += ["", "At the fixed design some ends break a constraint the optimum holds (the "
                   "saving is held within the energy balance, docs/theory.md; other constraints "
-                  "are only named):", ""] + [f"{n[:2]}[{k}] {n[2:]}" for k, n in
-                                             enumerate(notes, 1)]
+                  "are only named):", ""] + [f"- [{k}] {note}"
+                                             for k, note in enumerate(notes, 1)]
     lines.append("")
     return lines
 
