@@ -52,8 +52,12 @@ def test_calibrate_in_lift_bands(tmp_path, capsys):
 
 
 def test_evaluate_start_point(capsys):
+    """``evaluate`` says it shows the start point, and its blowing system as the start's, not
+    as an optimization's."""
     assert main(["evaluate", str(CASES / "survey-drone.toml")]) == 0
-    assert "start point (not optimized)" in capsys.readouterr().out
+    out = capsys.readouterr().out
+    assert "start point (not optimized)" in out
+    assert "estimated at the start point" in out and "optimization" not in out
 
 
 def test_not_converged_exits_3(tmp_path, capsys):

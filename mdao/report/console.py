@@ -153,19 +153,25 @@ def summary(outcome, case, optimized=True):
              + _clean_share(outcome)
              + ("" if e >= 0 else "  -> blowing costs energy on this mission (negative saving)"),
              *_no_aircraft(outcome),
-             *_hardware(outcome, case),
+             *_hardware(outcome, case, optimized),
              run_line(outcome, optimized),
              "", CAUTION]
     return "\n".join(lines)
 
 
-def _hardware(outcome, case):
-    """The blowing system as hardware: rated power, the segment that sets it, mass, fan."""
+def _hardware(outcome, case, optimized=True):
+    """The blowing system as hardware: rated power, the segment that sets it, mass, fan (at the
+    optimum, or at the start point ``evaluate`` shows)."""
     hw = getattr(outcome, "hardware", None)
     if not hw:
         return []
-    how = ("sized in the optimization, its mass flown in every segment" if hw["sized"] else
-           "estimated after the optimization (no [mass] table: its mass is not flown)")
+    if optimized:
+        how = ("sized in the optimization, its mass flown in every segment" if hw["sized"] else
+               "estimated after the optimization (no [mass] table: its mass is not flown)")
+    else:
+        how = ("the start point's rating (the optimization sizes it), its mass flown in every "
+               "segment" if hw["sized"] else
+               "estimated at the start point (no [mass] table: its mass is not flown)")
     fan = ("" if hw["fan_diameter_m"] is None
            else f", fan diameter {hw['fan_diameter_m'] * 1e3:.1f} mm")
     lines = [f"blowing system: rated shaft power {watts(hw['fan_rated_shaft_power_W'])} "
