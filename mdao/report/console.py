@@ -12,8 +12,18 @@ KWH = 3.6e6
 KW_ABOVE = 1e4
 
 
-def _f(value, fmt):
-    return "-" if value is None else format(value + 0.0, fmt)   # + 0.0: no negative zero
+def number(value, fmt=".4g"):
+    """``value`` formatted with ``fmt``, ``"-"`` for None; a value that rounds to zero reads 0,
+    never -0 (an energy margin of -1e-9 W at a binding balance is not a broken one).
+
+    >>> number(-1e-9, ".1f"), number(-0.04, ".1f"), number(-0.06, ".1f"), number(None)
+    ('0.0', '0.0', '-0.1', '-')
+    """
+    if value is None:
+        return "-"
+    text = format(value, fmt)
+    return format(0.0, fmt) if float(text) == 0 else text
+
 
 
 def power_unit(values):
@@ -96,7 +106,7 @@ def segment_table(outcome, case):
         if aircraft:
             vals += [s["lift_coefficient"], s["main_thrust_N"]]
         rows.append([s["name"], "yes" if on else "no"]
-                    + [_f(v, f) for v, f in zip(vals, fmts[2:])])
+                    + [number(v, f) for v, f in zip(vals, fmts[2:])])
     lines = aligned_table(header, units, rows)
     lines += list(TABLE_NOTES)
     lines.append("")

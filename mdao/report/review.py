@@ -12,7 +12,7 @@ import numpy as np
 from mdao.constraints import CONSTRAINTS
 from mdao.files import safe_text, write_atomic, write_json
 from mdao.parameters import parameter
-from mdao.report.console import power_unit, watts
+from mdao.report.console import number, power_unit, watts
 
 KWH = 3.6e6
 
@@ -93,10 +93,6 @@ def probability_text(probability, samples, digits=3):
 
 
 # --- markdown -----------------------------------------------------------------------------------
-def _g(v, fmt=".4g"):
-    return "-" if v is None else format(v + 0.0, fmt)  # + 0.0: no negative zero
-
-
 def review_markdown(data, figures=(), note=None):
     """The review.md text."""
     c, o, u = data["case"], data["optimum"], data["uncertainty"]
@@ -160,7 +156,7 @@ def _segment_table_md(o):
         "fan_shaft_power_W", "fan_electric_power_W", "energy_margin_W", "net_power_saving_W")])
 
     def power(value):
-        return _g(None if value is None else value * scale, fmt)
+        return number(None if value is None else value * scale, fmt)
 
     lines = ["| segment | blowing | C_mu [-] | fan rise [Pa] | jet speed [m/s] | jet Mach [-] "
              f"| fan eff. [-] | fan shaft power [{unit}] | fan electric power [{unit}] "
@@ -171,16 +167,16 @@ def _segment_table_md(o):
         on = s["blowing"]
         lines.append(
             f"| {_md(s['name'])} | {'yes' if on else 'no'} "
-            f"| {_g(s['momentum_coefficient'] if on else None)} "
-            f"| {_g(s['fan_pressure_rise_Pa'] if on else None, '.0f')} "
-            f"| {_g(s['jet_velocity_m_s'] if on else None, '.1f')} "
-            f"| {_g(s['jet_mach'] if on else None, '.3f')} | {_g(s['fan_efficiency'], '.3f')} "
+            f"| {number(s['momentum_coefficient'] if on else None)} "
+            f"| {number(s['fan_pressure_rise_Pa'] if on else None, '.0f')} "
+            f"| {number(s['jet_velocity_m_s'] if on else None, '.1f')} "
+            f"| {number(s['jet_mach'] if on else None, '.3f')} | {number(s['fan_efficiency'], '.3f')} "
             f"| {power(s['fan_shaft_power_W'] if on else None)} "
             f"| {power(s['fan_electric_power_W'] if on else None)} "
-            f"| {_g(s.get('section_drag_N'), '.2f')} | {power(s.get('energy_margin_W'))} "
+            f"| {number(s.get('section_drag_N'), '.2f')} | {power(s.get('energy_margin_W'))} "
             f"| {power(s['net_power_saving_W'])} "
-            f"| {_g(s['energy_saving_J'] / KWH, '.4f')} "
-            f"| {_g(s['break_even_fan_efficiency'], '.3f')} "
+            f"| {number(s['energy_saving_J'] / KWH, '.4f')} "
+            f"| {number(s['break_even_fan_efficiency'], '.3f')} "
             f"| {'; '.join(s['active_constraints']) or '-'}"
             + (" (ram-driven)" if s["ram_driven"] else "")
             + ("" if on else " (blowing off: the slot's drag penalty only)") + " |")
@@ -330,10 +326,10 @@ def _sensitivity_md(data):
              "| dE*/dp multipliers [kWh/unit] | elasticity [-] |", "|---|---|---|---|---|---|---|"]
     for r in rows:
         lines.append(f"| `{r['parameter']}` | {r['value']:.6g} | {r['unit']} | "
-                     f"{_g(_per_kwh(r['derivative_J_per_unit']), '.4g')} | "
-                     f"{_g(_per_kwh(r['post_optimal_derivative_J_per_unit']), '.4g')} | "
-                     f"{_g(_per_kwh(r['post_optimal_derivative_multipliers_J_per_unit']), '.4g')} | "
-                     f"{_g(r['elasticity'], '.4f')} |")
+                     f"{number(_per_kwh(r['derivative_J_per_unit']), '.4g')} | "
+                     f"{number(_per_kwh(r['post_optimal_derivative_J_per_unit']), '.4g')} | "
+                     f"{number(_per_kwh(r['post_optimal_derivative_multipliers_J_per_unit']), '.4g')} | "
+                     f"{number(r['elasticity'], '.4f')} |")
     lines += ["",
               f"Checks: the two post-optimal estimates differ by at most "
               f"{chk['post_optimal_reoptimization_vs_multipliers_max_relative_difference']:.2e} "
@@ -416,10 +412,10 @@ def _uncertainty_md(data, figures):
               f"**{probability_text(u['probability_of_saving'], u['samples'])}**",
               f"- Percentiles 5 / 50 / 95 %: {p['5'] / KWH:.4f} / {p['50'] / KWH:.4f} / "
               f"{p['95'] / KWH:.4f} kWh",
-              f"- Mean {_g(u['mean_J'] and u['mean_J'] / KWH, '.4f')} kWh, standard deviation "
-              f"{_g(u['sd_J'] and u['sd_J'] / KWH, '.4f')} kWh (first-order estimate of the "
+              f"- Mean {number(u['mean_J'] and u['mean_J'] / KWH, '.4f')} kWh, standard deviation "
+              f"{number(u['sd_J'] and u['sd_J'] / KWH, '.4f')} kWh (first-order estimate of the "
               "fitted model's, from the derivatives: "
-              f"{_g(u['first_order_sd_J'] and u['first_order_sd_J'] / KWH, '.4f')} kWh)",
+              f"{number(u['first_order_sd_J'] and u['first_order_sd_J'] / KWH, '.4f')} kWh)",
               f"- Ram-driven samples (a blowing segment needs no fan): {u['ram_driven_samples']}; "
               f"samples breaking a constraint at the fixed design: "
               f"{u['constraint_violating_samples']}; non-finite: {u['nonfinite_samples']}; "
@@ -430,8 +426,8 @@ def _uncertainty_md(data, figures):
               "not counted (docs/theory.md). Without that limit (the model as fitted): "
               f"probability of saving {probability_text(m['probability_of_saving'], u['samples'])}"
               f"; percentiles {mp['5'] / KWH:.4f} / {mp['50'] / KWH:.4f} / "
-              f"{mp['95'] / KWH:.4f} kWh; mean {_g(m['mean_J'] and m['mean_J'] / KWH, '.4f')} "
-              f"kWh, standard deviation {_g(m['sd_J'] and m['sd_J'] / KWH, '.4f')} kWh", "",
+              f"{mp['95'] / KWH:.4f} kWh; mean {number(m['mean_J'] and m['mean_J'] / KWH, '.4f')} "
+              f"kWh, standard deviation {number(m['sd_J'] and m['sd_J'] / KWH, '.4f')} kWh", "",
               "| input | share of rank variance | Spearman rho^2 | Pearson r^2 |",
               "|---|---|---|---|"]
     for s in u["variance_shares"]:
