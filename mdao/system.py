@@ -23,8 +23,8 @@ from mdao.components.airfoil import AirfoilComp
 from mdao.components.atmosphere import AtmosphereComp
 from mdao.components.chain import ChainComp
 from mdao.components.common import (CHAIN_OPTIONS, HOST_GIVES, HOST_INPUTS,
-                                    declare_chain_options, host_air, input_parameters,
-                                    on_the_map, unset_start)
+                                    chain_on_the_map, declare_chain_options, host_air,
+                                    input_parameters, unset_start)
 from mdao.components.duct import DuctLossComp
 from mdao.components.fan import FanComp
 from mdao.components.jet import JetComp
@@ -296,9 +296,7 @@ def start_refusal(case, point=None):
                               fan_pressure_rise=point.fan_pressure_rise, **rated)
     try:
         out = chain.evaluate(params, chain_options(case), blowing=case.blowing)
-        if case.fan["model"] == "map":
-            on_the_map(out["fan_efficiency"], out["flow_coefficient"],
-                       np.real(out["air_power"]) > 0, params["peak_flow_coefficient"])
+        chain_on_the_map(case.fan["model"], out, params)
     except ValueError as err:
         return str(err)
     return None
@@ -353,6 +351,19 @@ def chain_options(case):
                               aircraft=case.has_aircraft, sized_fan=case.sizes_fan,
                               lift_tables=tuple((registry.BY_KEY[key].name, table)
                                                 for key, table in lift_tables(case).items()))
+
+
+#: Operating points, times the geometric duct's stations, per chain evaluation of a study that
+#: evaluates many points in parts (bounded memory of the temporaries).
+POINTS_PER_EVALUATION = 2 ** 18
+
+
+def rows_per_evaluation(case, points_per_row, budget=POINTS_PER_EVALUATION):
+    """Rows of ``points_per_row`` operating points each to evaluate in one chain call: about
+    ``budget`` points times the geometric duct's stations (it evaluates its friction along
+    every station), at least one row."""
+    stations = case.duct["stations"] if case.duct["model"] == "geometric" else 1
+    return max(1, budget // (int(points_per_row) * stations))
 
 
 def chain_parameters(case, **overrides):

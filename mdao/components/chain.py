@@ -12,9 +12,9 @@ from mdao import om
 
 from mdao import parameters as registry
 from mdao.components.common import (HOST_GIVES, HOST_INPUTS, analysis_errors, blowing_flags,
-                                    checks_host_inputs, column, declare_chain_options, diagonal,
-                                    host_air, input_parameters, on_the_map, per_node_names,
-                                    unset_start)
+                                    chain_on_the_map, checks_host_inputs, column,
+                                    declare_chain_options, diagonal, host_air, input_parameters,
+                                    per_node_names, unset_start)
 from mdao.physics import chain
 
 #: Node inputs that are design variables rather than model parameters: example value, units.
@@ -318,9 +318,7 @@ class ChainComp(om.ExplicitComponent):
             nodes = slice(start, start + strip)
             params = dict(wing, **{k: v[nodes] for k, v in node.items()})
             out = chain.evaluate(params, self._chain_opts, blowing=self._chain_blowing[nodes])
-            if self.options["fan_model"] == "map":
-                on_the_map(out["fan_efficiency"], out["flow_coefficient"],
-                           np.real(out["air_power"]) > 0, params["peak_flow_coefficient"])
+            chain_on_the_map(self.options["fan_model"], out, params)
             for name in self._chain_outputs:
                 view, value = outputs[name], out[name]
                 if np.shape(value) != view.shape:

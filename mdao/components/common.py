@@ -190,6 +190,15 @@ def on_the_map(efficiency, flow_coefficient, running, peak_flow_coefficient):
             f"off the map; bound flow_coefficient within the map's range")
 
 
+def chain_on_the_map(fan_model, out, params):
+    """The check the chain component makes of an evaluated chain (``out``, from ``params``): a
+    running map fan on its map (:func:`on_the_map`); none for another fan model. Raises the
+    same ``ValueError``."""
+    if fan_model == "map":
+        on_the_map(out["fan_efficiency"], out["flow_coefficient"],
+                   np.real(out["air_power"]) > 0, params["peak_flow_coefficient"])
+
+
 #: Wing-level constants that may be given one value per node (option ``per_node``): the
 #: efficiencies, the share of air power that may return as thrust power, and the constants that
 #: may be tabulated over the lift coefficient. Each acts at its own node only (no wing-level

@@ -19,7 +19,8 @@ from mdao import constraints
 from mdao.physics import atmosphere, chain, duct, power
 from mdao.physics import airfoil
 from mdao.physics.airfoil import drag_per_momentum_at, slot_drag_at
-from mdao.system import chain_options, chain_parameters
+from mdao.system import (POINTS_PER_EVALUATION, chain_options, chain_parameters,
+                         rows_per_evaluation)
 
 #: Constraints a break-even point need not meet: the rating (the answer is about the fan's
 #: efficiency, whatever its size) and the high-lift requirement (a high-lift segment blows for
@@ -27,10 +28,10 @@ from mdao.system import chain_options, chain_parameters
 NOT_FOR_BREAK_EVEN = ("rated power", "high-lift requirement")
 GRID = 81
 GOLDEN_STEPS = 45  # the bracket shrinks to 1e-9 of one grid step
-#: Operating points (times the geometric duct's stations, along which it evaluates its
-#: friction) per chain evaluation of the search's grid: a map of many points evaluates its grid
-#: in parts along the grid, so that the temporaries stay small.
-GRID_BUDGET = 2 ** 18
+#: Operating points (times the geometric duct's stations) per chain evaluation of the search's
+#: grid: a map of many points evaluates its grid in parts along the grid, so that the
+#: temporaries stay small.
+GRID_BUDGET = POINTS_PER_EVALUATION
 
 
 def admissible_range(case, params):
@@ -144,8 +145,7 @@ def _grid_ratios(case, p, grid):
     as in one call)."""
     column = np.broadcast_shapes(grid.shape[:-1] + (1,), *(
         np.shape(v) for k, v in p.items() if k != "pressure_coefficients"))
-    stations = case.duct["stations"] if case.duct["model"] == "geometric" else 1
-    step = max(1, GRID_BUDGET // (int(np.prod(column)) * stations))
+    step = rows_per_evaluation(case, np.prod(column), GRID_BUDGET)
     if step >= grid.shape[-1]:
         return _air_power_per_saving(case, p, grid)
     return np.concatenate([_air_power_per_saving(case, p, grid[..., i:i + step])

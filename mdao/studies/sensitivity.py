@@ -36,8 +36,8 @@ from mdao.case.loading import lift_tables
 from mdao.optimum.solve import feasibility, read_values, run_driver_quietly
 from mdao.physics import chain, power
 from mdao.units import SI_UNITS
-from mdao.system import (applicable_parameters, build_problem, chain_options, chain_parameters,
-                         design_point)
+from mdao.system import (POINTS_PER_EVALUATION, applicable_parameters, build_problem,
+                         chain_options, chain_parameters, design_point, rows_per_evaluation)
 
 #: Inputs the geometric duct takes as one value for the wing (cannot vary along samples).
 WING_GEOMETRY = ("fan_diameter", "blown_span", "slot_ratio", "chord", "transition_length",
@@ -134,11 +134,10 @@ def set_columns(case, params, columns):
     return out
 
 
-def chunk_rows(case, budget=2 ** 18):
-    """Samples (or grid points) per vectorized call: about ``budget`` operating points times
-    duct stations (the geometric duct evaluates its loss along every station)."""
-    per = len(case.segments) * (case.duct["stations"] if case.duct["model"] == "geometric" else 1)
-    return max(1, budget // per)
+def chunk_rows(case, budget=POINTS_PER_EVALUATION):
+    """Samples (or grid points) per vectorized call, each a row of the case's segments:
+    :func:`mdao.system.rows_per_evaluation`."""
+    return rows_per_evaluation(case, len(case.segments), budget)
 
 
 def evaluate_design(case, outcome, columns):
